@@ -1,0 +1,280 @@
+r"""First-law and Smarr verification.
+
+First law
+    :math:`dM = T\,dS + V\,dP + \sum_q \Phi_q\,dq`.  In the (x, P, q)
+    coordinates this is one identity per coordinate:
+
+    .. math::
+        M_x - T S_x = 0,\quad M_P - T S_P - V = 0,\quad M_q - T S_q - \Phi_q = 0,
+
+    with T and V the *declared* ones when the family gives them (a surface-gravity
+    temperature, a proposed volume) and the derived ones otherwise.  The engine
+    tries a symbolic proof (declared minus derived simplifies to zero) and always
+    also evaluates the identities numerically, from exact derivatives, at random
+    physical states; a second, independent numerical check uses central finite
+    differences of the compiled M and S.
+
+Smarr relation
+    From Euler's theorem for M(S, P, q), homogeneous under a length rescaling
+    with [M] = L^(d-3), [S] = L^(d-2), [P] = L^-2 and [q] = L^(n_q):
+
+    .. math::
+        (d-3) M = (d-2) T S - 2 P V + \sum_q n_q \Phi_q q
+
+    (Kastor, Ray & Traschen, CQG 26 (2009) 195011).  When it fails, a least-squares
+    fit of the n_q tells whether a parameter has a wrong declared dimension, or
+    whether no choice can close it (a dimensionful constant without a parameter,
+    hence without its conjugate term).
+
+Tolerances: a relative residual below 1e-9 counts as holding (double-precision
+evaluation of exact expressions loses a few digits to cancellation; common
+practice).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import sympy as sp
+
+from . import symbols as sy
+from .compiled import Thermodynamics
+from .derive import tidy
+from .sampling import physical_sample
+
+#: relative residual below which an identity counts as holding (common practice)
+TOLERANCE = 1e-9
+#: finite differences are less accurate: relative step 1e-5 gives ~1e-9 truncation error
+FD_TOLERANCE = 1e-6
+
+
+@dataclass(frozen=True)
+class FirstLawResult:
+    """Verdict on dM = T dS + V dP + sum Phi dq.
+
+    Attributes
+    ----------
+    holds : bool or None
+        None when no physical sample point could be found.
+    max_residual : float
+        Largest relative residual of the exact-derivative identities.
+    finite_difference_residual : float
+        Largest relative residual of the finite-difference check (independent).
+    n_points : int
+    proved : bool or None
+        True when declared T/V equal the derived ones symbolically (or nothing
+        was declared); None when simplification could not decide.
+    message : str
+    worst_point : dict
+    """
+
+    holds: bool | None
+    max_residual: float
+    finite_difference_residual: float
+    n_points: int
+    proved: bool | None
+    message: str
+    worst_point: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class SmarrResult:
+    """Verdict on the Smarr relation derived from the declared length dimensions.
+
+    Attributes
+    ----------
+    holds : bool or None
+        None when not applicable (non-gravitational scaling) or no sample.
+    relation : str
+        The relation tested, with the numerical coefficients.
+    missing : list of str
+        When it fails: which parameter lacks a conjugate term or has a wrong dimension.
+    max_residual : float
+    n_points : int
+    message : str
+    fitted_dimensions : dict
+        Least-squares length dimensions (only when the check failed).
+    """
+
+    holds: bool | None
+    relation: str
+    missing: list
+    max_residual: float
+    n_points: int
+    message: str
+    fitted_dimensions: dict = field(default_factory=dict)
+
+
+def _fmt_coef(c: float) -> str:
+    if float(c).is_integer():
+        c = int(c)
+    return "" if c == 1 else f"{c} "
+
+
+def smarr_relation_text(th: Thermodynamics) -> str:
+    """The Smarr relation with this family's coefficients, e.g. ``M = 2 T S - 2 P V + Phi_Q Q``."""
+    d = th.derivation.dimension
+    rhs = [f"{_fmt_coef(d - 2)}T S", "- 2 P V"]
+    for name, n in th.derivation.length_dimensions.items():
+        if n == 0:
+            continue
+        sign = "+" if n > 0 else "-"
+        rhs.append(f"{sign} {_fmt_coef(abs(n))}Phi_{name} {name}")
+    return f"{_fmt_coef(d - 3)}M = " + " ".join(rhs)
+
+
+def _flatten(sample):
+    """Per-point arrays of (bound family, x, P) for every physical sample point."""
+    for bound, x, P in sample.points:
+        yield bound, x, P
+
+
+def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202) -> FirstLawResult:
+    """Verify the first law at random physical states (see module docstring)."""
+    der = th.derivation
+    q = der.quantities
+    x, P = der.state, sy.P
+    args = der.arguments
+    M = q["M"]
+    S = q["S"]
+    T = q["T"]
+    V = der.volume_declared if der.volume_declared is not None else q["V"]
+
+    proved = True
+    if der.family.temperature is not None:
+        proved = tidy(T - der.temperature_derived, args) == 0 or None
+    if proved and der.volume_declared is not None:
+        proved = tidy(der.volume_declared - q["V"], args) == 0 or None
+
+    rows = [(sp.diff(M, x), T * sp.diff(S, x), sp.Integer(0))]
+    rows.append((sp.diff(M, P), T * sp.diff(S, P), V))
+    for s in der.parameters:
+        rows.append((sp.diff(M, s), T * sp.diff(S, s), q[f"Phi_{s.name}"]))
+    exprs = [e for row in rows for e in row]
+    f = sp.lambdify(args, exprs, modules=_modules(exprs), cse=True)
+
+    sample = physical_sample(th, n_points, seed=seed)
+    if sample.n_points == 0:
+        return FirstLawResult(None, float("nan"), float("nan"), 0, proved,
+                              "no physical state found to test the first law at")
+    worst, worst_pt = 0.0, {}
+    fd_worst = 0.0
+    for bound, xs, Ps in _flatten(sample):
+        pv = bound._param_values
+        with np.errstate(all="ignore"):
+            vals = [np.broadcast_to(np.asarray(v, float), xs.shape)
+                    for v in f(xs, Ps, *pv)]
+        for i in range(len(rows)):
+            a, b, c = vals[3 * i], vals[3 * i + 1], vals[3 * i + 2]
+            scale = np.abs(a) + np.abs(b) + np.abs(c) + 1e-300
+            rel = np.abs(a - b - c) / scale
+            j = int(np.nanargmax(rel)) if np.any(np.isfinite(rel)) else 0
+            if not np.isfinite(rel[j]) or rel[j] > worst:
+                worst = float(rel[j]) if np.isfinite(rel[j]) else float("inf")
+                worst_pt = {"x": float(xs[j]), "P": float(Ps[j]), **bound.values}
+        fd_worst = max(fd_worst, _finite_difference_residual(bound, xs, Ps))
+    holds = bool(worst <= TOLERANCE and fd_worst <= FD_TOLERANCE)
+    if holds:
+        how = "proved symbolically and " if proved else ""
+        msg = (f"holds: {how}max relative residual {worst:.1e} at {sample.n_points} "
+               f"random physical states")
+    else:
+        culprit = "the declared temperature differs from (dM/dS)_P" \
+            if der.family.temperature is not None and proved is not True else \
+            "the identities are violated"
+        msg = (f"fails: {culprit}; max relative residual {worst:.1e} "
+               f"(finite differences {fd_worst:.1e}) at x={worst_pt.get('x', float('nan')):.6g}, "
+               f"P={worst_pt.get('P', float('nan')):.6g}")
+    return FirstLawResult(holds, worst, fd_worst, sample.n_points, proved, msg, worst_pt)
+
+
+def _modules(exprs):
+    from .compiled import _special_functions
+    if any(e.has(sp.hyper) for e in exprs):
+        return [_special_functions(), "numpy"]
+    return ["numpy"]
+
+
+def _finite_difference_residual(bound: Thermodynamics, xs, Ps) -> float:
+    """Independent check: central differences of compiled M, S against T, V, Phi."""
+    h = 1e-5
+    worst = 0.0
+    T = bound.T(xs, Ps)
+    V = bound.quantity("V", xs, Ps) if bound.derivation.volume_declared is None else \
+        _declared_volume(bound, xs, Ps)
+    # along the state variable and the pressure
+    for dx, dP, rhs in ((xs * h, 0 * Ps, None), (0 * xs, Ps * h, V)):
+        dM = bound.M(xs + dx, Ps + dP) - bound.M(xs - dx, Ps - dP)
+        dS = bound.S(xs + dx, Ps + dP) - bound.S(xs - dx, Ps - dP)
+        work = 0.0 if rhs is None else rhs * 2 * dP
+        scale = np.abs(dM) + np.abs(T * dS) + np.abs(work) + 1e-300
+        rel = np.abs(dM - T * dS - work) / scale
+        worst = max(worst, float(np.nanmax(rel)) if rel.size else 0.0)
+    return worst
+
+
+def _declared_volume(bound, xs, Ps):
+    from .compiled import _lambdify
+    f = _lambdify(bound.derivation.arguments, bound.derivation.volume_declared)
+    return f(xs, Ps, *bound._param_values)
+
+
+def check_smarr(th: Thermodynamics, n_points: int = 64, seed: int = 20261202) -> SmarrResult:
+    """Verify the Smarr relation (see module docstring)."""
+    der = th.derivation
+    if not der.family.gravitational:
+        return SmarrResult(None, "", [], float("nan"), 0,
+                           "not applicable: the family does not scale like gravity "
+                           "(no Euler homogeneity in lengths)")
+    d = der.dimension
+    relation = smarr_relation_text(th)
+    sample = physical_sample(th, n_points, seed=seed)
+    if sample.n_points == 0:
+        return SmarrResult(None, relation, [], float("nan"), 0,
+                           "no physical state found to test the Smarr relation at")
+    names = list(der.length_dimensions)
+    rows_b, rows_A, scales = [], [], []
+    for bound, xs, Ps in _flatten(sample):
+        M = bound.M(xs, Ps)
+        TS = bound.T(xs, Ps) * bound.S(xs, Ps)
+        V = bound.V(xs, Ps) if der.volume_declared is None else _declared_volume(bound, xs, Ps)
+        base = (d - 3) * M - (d - 2) * TS + 2 * Ps * V
+        cols = [bound.potential(nm, xs, Ps) * bound.values[nm] for nm in names]
+        rows_b.append(base)
+        rows_A.append(np.column_stack(cols) if cols else np.zeros((xs.size, 0)))
+        scale = np.abs((d - 3) * M) + np.abs((d - 2) * TS) + np.abs(2 * Ps * V)
+        for c, nm in zip(cols, names):
+            scale = scale + np.abs(der.length_dimensions[nm] * c)
+        scales.append(scale + 1e-300)
+    b = np.concatenate(rows_b)
+    A = np.concatenate(rows_A, axis=0)
+    scale = np.concatenate(scales)
+    n_decl = np.array([der.length_dimensions[nm] for nm in names], dtype=float)
+    resid = b - (A @ n_decl if names else 0.0)
+    rel = np.abs(resid) / scale
+    worst = float(np.nanmax(rel)) if np.all(np.isfinite(rel)) else float("inf")
+    if worst <= TOLERANCE:
+        return SmarrResult(True, relation, [], worst, sample.n_points,
+                           f"holds: {relation} (max relative residual {worst:.1e} at "
+                           f"{sample.n_points} random physical states)")
+    # diagnose: which length dimensions would close the relation?
+    missing, fitted = [], {}
+    if names:
+        w = 1.0 / scale
+        n_fit, *_ = np.linalg.lstsq(A * w[:, None], b * w, rcond=None)
+        fit_rel = float(np.nanmax(np.abs(b - A @ n_fit) / scale))
+        fitted = {nm: float(v) for nm, v in zip(names, n_fit)}
+    else:
+        fit_rel = worst
+    if fit_rel <= 1e-7:
+        for nm, nf, nd in zip(names, fitted.values(), n_decl):
+            if abs(nf - nd) > 1e-6:
+                missing.append(f"parameter {nm}: declared length dimension {nd:g}, but M "
+                               f"scales as if it were {nf:.6g}")
+    if not missing:
+        missing.append("M and S are not homogeneous in the declared variables: a dimensionful "
+                       "constant has no parameter, so its conjugate term is missing from the "
+                       "Smarr relation (declare it as a parameter with its length dimension)")
+    return SmarrResult(False, relation, missing, worst, sample.n_points,
+                       f"fails: {relation} is violated (max relative residual {worst:.1e}); "
+                       + "; ".join(missing), fitted)

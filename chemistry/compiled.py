@@ -1,0 +1,290 @@
+"""Compiled numerics: vectorised numpy functions of a derivation, and a family
+bound to parameter values.
+
+Every quantity of a :class:`~chemistry.derive.Derivation` is lambdified once
+(with common-subexpression elimination) into a function of
+``(x, P, *continuous_parameters)`` that broadcasts over numpy arrays.
+:func:`bind` validates parameter values against their declared domains and
+returns a :class:`Thermodynamics` object: the entry point of every analysis.
+"""
+from __future__ import annotations
+
+import math
+import threading
+from dataclasses import dataclass
+from typing import Callable, Mapping
+
+import numpy as np
+import sympy as sp
+
+from .derive import Derivation, derive
+from .errors import ParameterDomainError, UnknownParameterError
+from .family import Family
+
+
+def _special_functions() -> dict:
+    """Numeric implementations of special functions sympy cannot print to numpy."""
+    from .special import hyp2f1_real  # local: keeps scipy out of the cold path
+
+    def hyper(a, b, z):
+        return hyp2f1_real(a[0], a[1], b[0], z)
+
+    return {"hyper": hyper}
+
+
+def _lambdify(args, expr) -> Callable:
+    modules = ["numpy"]
+    if expr.has(sp.hyper):
+        modules = [_special_functions(), "numpy"]
+    f = sp.lambdify(args, expr, modules=modules, cse=True)
+    if expr.free_symbols & {args[0], args[1]}:
+        return f
+
+    def broadcast(*a):  # constants (e.g. G_background = 0) must still broadcast
+        value = f(*a)
+        shape = np.broadcast_shapes(*(np.shape(v) for v in a))
+        return np.broadcast_to(np.asarray(value, dtype=float), shape).copy() if shape \
+            else float(value)
+
+    return broadcast
+
+
+class CompiledDerivation:
+    """Lazily compiled numpy functions of one derivation (cached per quantity)."""
+
+    def __init__(self, derivation: Derivation):
+        self.derivation = derivation
+        self._funcs: dict[str, Callable] = {}
+        self._lock = threading.Lock()
+
+    def function(self, name: str) -> Callable:
+        """Numeric f(x, P, *params) of quantity ``name`` (see Derivation.quantities)."""
+        f = self._funcs.get(name)
+        if f is None:
+            expr = self._expression(name)
+            f = _lambdify(self.derivation.arguments, expr)
+            with self._lock:
+                self._funcs[name] = f
+        return f
+
+    def _expression(self, name: str) -> sp.Expr:
+        d = self.derivation
+        if name in d.quantities:
+            return d.quantities[name]
+        if name == "T_derived":
+            return d.temperature_derived
+        if name.startswith("condition_"):
+            return d.conditions[int(name.split("_")[1])].relation
+        raise KeyError(f"no quantity {name!r}; known: {', '.join(d.quantities)}")
+
+
+_compiled_cache: dict[int, CompiledDerivation] = {}
+_compiled_lock = threading.Lock()
+
+
+def compile_derivation(derivation: Derivation) -> CompiledDerivation:
+    """The (cached) compiled form of a derivation."""
+    key = id(derivation)
+    with _compiled_lock:
+        c = _compiled_cache.get(key)
+        if c is None or c.derivation is not derivation:
+            c = CompiledDerivation(derivation)
+            _compiled_cache[key] = c
+    return c
+
+
+@dataclass(frozen=True)
+class State:
+    """Thermodynamic state arrays at given (x, P); all share one broadcast shape."""
+
+    x: np.ndarray
+    P: np.ndarray
+    T: np.ndarray
+    S: np.ndarray
+    M: np.ndarray
+    V: np.ndarray
+    G: np.ndarray
+    v: np.ndarray | None
+    physical: np.ndarray
+    potentials: Mapping[str, np.ndarray]
+
+
+def validate_values(family: Family, values: Mapping[str, object]) -> dict:
+    """Fill defaults and check every value against its declared domain.
+
+    Raises
+    ------
+    UnknownParameterError, ParameterDomainError
+        With one line saying what is wrong and what is allowed.
+    """
+    names = [p.name for p in family.all_parameters]
+    out = family.defaults()
+    for name, raw in values.items():
+        if name not in names:
+            known = ", ".join(names) if names else "none"
+            raise UnknownParameterError(
+                f"family {family.name} has no parameter {name!r}; its parameters are: {known}")
+        p = family.parameter(name)
+        try:
+            value = float(raw)
+        except (TypeError, ValueError):
+            raise ParameterDomainError(
+                f"{name} = {raw!r} is not a number; expected {p.domain.describe(name)}") from None
+        if not p.domain.contains(value):
+            raise ParameterDomainError(
+                f"{name} = {raw} is outside its domain {p.domain.describe(name)} "
+                f"(family {family.name})")
+        if value == 0.0:
+            value = 0.0  # normalise -0.0
+        out[name] = int(value) if p.discrete and value.is_integer() else value
+    return out
+
+
+class Thermodynamics:
+    """A family bound to parameter values: vectorised quantities as functions of (x, P).
+
+    Obtain one with :func:`bind`.  ``th.T(x, P)``, ``th.G(x, P)`` ... broadcast
+    over numpy arrays; ``th.quantity(name, x, P)`` reaches any derived quantity.
+    """
+
+    def __init__(self, family: Family, values: dict, derivation: Derivation):
+        self.family = family
+        self.values = dict(values)
+        self.derivation = derivation
+        self.compiled = compile_derivation(derivation)
+        self._param_values = tuple(float(values[s.name]) for s in derivation.parameters)
+
+    # -- generic access -----------------------------------------------------
+    def quantity(self, name: str, x, P) -> np.ndarray:
+        """Evaluate quantity ``name`` at states (x, P) (arrays broadcast)."""
+        f = self.compiled.function(name)
+        with np.errstate(all="ignore"):
+            return f(np.asarray(x, dtype=float), np.asarray(P, dtype=float),
+                     *self._param_values)
+
+    def has(self, name: str) -> bool:
+        return name in self.derivation.quantities
+
+    def T(self, x, P):
+        """Temperature."""
+        return self.quantity("T", x, P)
+
+    def S(self, x, P):
+        """Entropy."""
+        return self.quantity("S", x, P)
+
+    def M(self, x, P):
+        """Enthalpy (mass)."""
+        return self.quantity("M", x, P)
+
+    def V(self, x, P):
+        """Thermodynamic volume (dM/dP)_S."""
+        return self.quantity("V", x, P)
+
+    def G(self, x, P):
+        """Gibbs free energy M - T S."""
+        return self.quantity("G", x, P)
+
+    def v(self, x, P=1.0):
+        """Specific volume."""
+        return self.quantity("v", x, P)
+
+    def potential(self, param: str, x, P):
+        """Potential conjugate to ``param``."""
+        return self.quantity(f"Phi_{param}", x, P)
+
+    def physical(self, x, P) -> np.ndarray:
+        """Boolean mask: finite T, S, G and every declared state condition holds."""
+        x = np.asarray(x, dtype=float)
+        P = np.asarray(P, dtype=float)
+        ok = np.ones(np.broadcast_shapes(x.shape, P.shape), dtype=bool)
+        for name in ("T", "S", "G"):
+            ok &= np.isfinite(self.quantity(name, x, P))
+        for i, _ in enumerate(self.derivation.conditions):
+            with np.errstate(all="ignore"):
+                c = self.compiled.function(f"condition_{i}")(x, P, *self._param_values)
+            ok &= np.asarray(c, dtype=bool)
+        return ok
+
+    def state(self, x, P) -> State:
+        """All core quantities at (x, P)."""
+        x = np.asarray(x, dtype=float)
+        P = np.asarray(P, dtype=float)
+        shape = np.broadcast_shapes(x.shape, P.shape)
+        xb, Pb = np.broadcast_to(x, shape), np.broadcast_to(P, shape)
+        pots = {s.name: self.potential(s.name, xb, Pb) for s in self.derivation.parameters}
+        return State(x=xb, P=Pb, T=self.T(xb, Pb), S=self.S(xb, Pb), M=self.M(xb, Pb),
+                     V=self.V(xb, Pb), G=self.G(xb, Pb),
+                     v=self.v(xb, Pb) if self.has("v") else None,
+                     physical=self.physical(xb, Pb), potentials=pots)
+
+    # -- scales ---------------------------------------------------------------
+    def length_scale(self) -> float:
+        """The family's own length scale at these parameter values.
+
+        The geometric mean of |q|^(1/n_q) over continuous parameters with a
+        non-zero value and length dimension; 1 when there is none (the family is
+        then scale-free and any unit will do).
+        """
+        logs = []
+        for name, n in self.derivation.length_dimensions.items():
+            val = self.values[name]
+            if n != 0 and val != 0:
+                logs.append(math.log(abs(val)) / n)
+        return math.exp(sum(logs) / len(logs)) if logs else 1.0
+
+    def typical_state(self) -> float:
+        """Typical value of the state variable (for sampling and plot ranges)."""
+        e = self.family.typical_state
+        if e is not None:
+            return float(self._evaluate_parameter_expression(e))
+        ell = self.length_scale()
+        if self.derivation.state.name == "S":
+            return ell ** (self.derivation.dimension - 2)
+        return ell
+
+    def typical_pressure(self) -> float:
+        """Typical pressure (for sampling and plot ranges)."""
+        e = self.family.typical_pressure
+        if e is not None:
+            return float(self._evaluate_parameter_expression(e))
+        return 1.0 / (8 * math.pi * self.length_scale() ** 2) * 0.1
+
+    def _evaluate_parameter_expression(self, e) -> float:
+        from .family import canonical_symbols, canonicalise
+        from . import symbols as sy
+        expr = canonicalise(e, canonical_symbols(self.family), "scale", self.family.name)
+        subs = {sy.d: self.derivation.dimension}
+        for p in self.family.all_parameters:
+            subs[p.symbol] = self.values[p.name]
+        return float(sp.sympify(expr).subs(subs))
+
+    def __repr__(self) -> str:
+        vals = ", ".join(f"{k}={v}" for k, v in self.values.items())
+        return f"Thermodynamics({self.family.name}: {vals})"
+
+
+def bind(family, **values) -> Thermodynamics:
+    """Bind a family (object or name) to parameter values.
+
+    Parameters
+    ----------
+    family : Family or str
+        A family object, or the name of a registered family.
+    **values
+        Parameter values; missing ones take their defaults.
+
+    Returns
+    -------
+    Thermodynamics
+
+    Raises
+    ------
+    UnknownFamilyError, UnknownParameterError, ParameterDomainError
+    """
+    if isinstance(family, str):
+        from .registry import get_family
+        family = get_family(family)
+    vals = validate_values(family, values)
+    discrete = {p.name: vals[p.name] for p in family.discrete_parameters}
+    return Thermodynamics(family, vals, derive(family, **discrete))
