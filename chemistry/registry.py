@@ -26,6 +26,7 @@ _lock = threading.RLock()
 _families: dict[str, Family] = {}
 _origins: dict[str, str] = {}
 _discovered = False
+_loaded_files: dict[str, list] = {}
 
 
 def _families_of(obj, origin: str) -> list[Family]:
@@ -131,6 +132,10 @@ def load_family_file(path) -> list[Family]:
     if not p.is_file():
         raise MalformedFamilyError(f"family file {path}: no such file")
     _discover()
+    key = str(p.resolve())
+    with _lock:
+        if key in _loaded_files:  # the same file twice is one load
+            return list(_loaded_files[key])
     if p.suffix == ".py":
         fams = _load_python(p)
     elif p.suffix == ".toml":
@@ -147,6 +152,8 @@ def load_family_file(path) -> list[Family]:
     for fam in fams:
         object.__setattr__(fam, "source", str(p))
         register(fam, f"file {p}")
+    with _lock:
+        _loaded_files[key] = list(fams)
     return fams
 
 
@@ -182,4 +189,5 @@ def _reset_for_tests() -> None:
     with _lock:
         _families.clear()
         _origins.clear()
+        _loaded_files.clear()
         _discovered = False
