@@ -89,6 +89,24 @@ def cmd_show(args) -> int:
     return 0
 
 
+def cmd_critical(args) -> int:
+    from .critical_report import critical_json, critical_text
+    th = _bound(args)
+    doc = critical_json(th, with_exponents=args.command == "exponents")
+    if args.json:
+        print(json.dumps(doc, indent=2, sort_keys=True))
+    else:
+        print(critical_text(doc))
+    return 0
+
+
+def _add_family_args(p, json_help="machine-readable output"):
+    p.add_argument("family", help="family name (see 'bhchem families')")
+    p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
+                   help="parameter value (repeatable, or comma-separated)")
+    p.add_argument("--json", action="store_true", help=json_help)
+
+
 def build_parser() -> argparse.ArgumentParser:
     common = _Parser(add_help=False)
     common.add_argument("--family-file", action="append", metavar="PATH",
@@ -106,11 +124,18 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("show", parents=[common],
                        help="derived quantities, equation of state, first-law and Smarr verdicts")
-    p.add_argument("family", help="family name (see 'bhchem families')")
-    p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
-                   help="parameter value (repeatable, or comma-separated)")
-    p.add_argument("--json", action="store_true", help="machine-readable output")
+    _add_family_args(p)
     p.set_defaults(func=cmd_show)
+
+    p = sub.add_parser("critical", parents=[common],
+                       help="every critical point, with kind, physical flag and residuals")
+    _add_family_args(p)
+    p.set_defaults(func=cmd_critical)
+
+    p = sub.add_parser("exponents", parents=[common],
+                       help="critical points with exact and fitted critical exponents")
+    _add_family_args(p)
+    p.set_defaults(func=cmd_critical)
     return parser
 
 

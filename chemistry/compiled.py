@@ -18,6 +18,7 @@ import numpy as np
 import sympy as sp
 
 from .derive import Derivation, derive
+from .symbols import P as _P
 from .errors import ParameterDomainError, UnknownParameterError
 from .family import Family
 
@@ -67,8 +68,28 @@ class CompiledDerivation:
                 self._funcs[name] = f
         return f
 
+    def derivative_expression(self, quantity: str, wrt: str) -> sp.Expr:
+        """Symbolic partial derivative of a quantity; ``wrt`` is a string of 'x'/'P',
+        e.g. ``'xx'`` for d^2/dx^2 and ``'xP'`` for d^2/dx dP (cached)."""
+        key = f"D[{quantity};{wrt}]"
+        cache = self.__dict__.setdefault("_dexpr", {})
+        if key not in cache:
+            d = self.derivation
+            e = self._expression(quantity)
+            for c in wrt:
+                e = sp.diff(e, d.state if c == "x" else _P)
+            cache[key] = e
+        return cache[key]
+
+    def derivative(self, quantity: str, wrt: str) -> Callable:
+        """Numeric f(x, P, *params) of a partial derivative (see derivative_expression)."""
+        return self.function(f"D[{quantity};{wrt}]")
+
     def _expression(self, name: str) -> sp.Expr:
         d = self.derivation
+        if name.startswith("D["):
+            quantity, wrt = name[2:-1].split(";")
+            return self.derivative_expression(quantity, wrt)
         if name in d.quantities:
             return d.quantities[name]
         if name == "T_derived":
@@ -161,6 +182,10 @@ class Thermodynamics:
         with np.errstate(all="ignore"):
             return f(np.asarray(x, dtype=float), np.asarray(P, dtype=float),
                      *self._param_values)
+
+    def d(self, quantity: str, wrt: str, x, P) -> np.ndarray:
+        """Partial derivative of a quantity at (x, P); ``wrt`` like 'x', 'xx', 'xP'."""
+        return self.quantity(f"D[{quantity};{wrt}]", x, P)
 
     def has(self, name: str) -> bool:
         return name in self.derivation.quantities

@@ -1,0 +1,396 @@
+r"""Critical points: every one, certified where possible.
+
+A critical point is where the isobar T(x) at fixed P has an inflection with zero
+slope,
+
+.. math:: \partial_x T = \partial_x^2 T = 0 \quad (\text{fixed } P),
+
+equivalently :math:`\partial_v P = \partial_v^2 P = 0` on the isotherm (for
+T_P != 0 and v monotone in x).
+
+Two methods behind one entry point, :func:`find_critical_points`:
+
+*certified* (T = A(x) + B(x) P with A, B rational in x, i.e. a rational
+equation of state: charged AdS in any d, Gauss-Bonnet, Lovelock).  Eliminating
+P between A' + B' P = 0 and A'' + B'' P = 0 leaves one polynomial equation
+:math:`\mathrm{num}(A''B' - A'B'') = 0` in x.  Its coefficients (exact sympy
+numbers; parameter values enter as the exact binary value of the float) are
+rounded to 60 significant digits, and *all* its real roots are isolated with
+sympy's real-root isolation (continued fractions / Vincent-Akritas, exact
+rational arithmetic) and refined to relative width 1e-25.  Roots where B' = 0
+give a critical point only if A' = 0 there too (then P = -A''/B'').
+
+*scanned* (any other T: square roots, hypergeometric functions, rotation).  The
+sign changes of T_x on a logarithmic grid locate the extrema of T(x) at each
+pressure of a logarithmic pressure grid chosen from the family's own scales;
+where the number of extrema changes between neighbouring pressures a pair is
+born or dies (a fold), and each fold is refined by a damped 2D Newton solve in
+(log x, log P).  Completeness is relative to the scanned range, which is
+reported.
+
+Each point is classified: *isolated* when the mixed derivative
+:math:`\partial^2 P/\partial T\partial v \propto T_{xP}` also vanishes;
+*standard* when a pair of extrema of T(x) appears on one side of P_c and not on
+the other (a loop forms); *degenerate* otherwise (the conditions hold, no loop
+forms: not a critical point in the thermodynamic sense, and reported as such).
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, field
+
+import numpy as np
+import sympy as sp
+
+from . import symbols as sy
+from .compiled import Thermodynamics, bind
+from .conventions import convention_record
+
+#: relative residual of the critical conditions accepted for a point
+RESIDUAL_TOLERANCE = 1e-9
+#: |x T_xP / T_P| below this makes a point 'isolated'
+ISOLATED_TOLERANCE = 1e-7
+
+
+@dataclass(frozen=True)
+class CriticalPoint:
+    """One solution of the critical conditions.
+
+    Attributes
+    ----------
+    T, P, v, x, r, G : float
+        Critical temperature, pressure, specific volume, state variable, horizon
+        radius (None if the family has none) and Gibbs free energy.
+    ratio : float or None
+        rho_c = P_c v_c / T_c.
+    kind : str
+        'standard', 'isolated' or 'degenerate' (see module docstring).
+    physical : bool
+        T > 0, P > 0 and every declared state condition holds.
+    on_preferred_branch : bool or None
+        Whether the point takes part in a transition of the globally preferred
+        phase; None until a phase-structure analysis has decided it.
+    residuals : dict
+        Relative residuals x T_x / T and x^2 T_xx / T at the point.
+    scale_free : dict
+        Dimensionless combinations (e.g. 'P_c*Q^2'), from the declared length
+        dimensions.
+    """
+
+    T: float
+    P: float
+    v: float | None
+    x: float
+    r: float | None
+    G: float
+    ratio: float | None
+    kind: str
+    physical: bool
+    residuals: dict
+    scale_free: dict
+    on_preferred_branch: bool | None = None
+
+    def to_dict(self) -> dict:
+        return asdict(self)
+
+
+@dataclass(frozen=True)
+class CriticalSearch:
+    """Result of :func:`find_critical_points`.
+
+    Attributes
+    ----------
+    points : tuple of CriticalPoint
+        Every solution found with x > 0, sorted by P (physical or not; see flags).
+    completeness : str
+        'certified' (all real roots of the eliminated polynomial isolated) or
+        'scanned' (complete within ``scanned_range``).
+    method : str
+    scanned_range : dict or None
+        {'x': [lo, hi], 'P': [lo, hi]} for the scanned method.
+    converged : bool
+        Every reported point meets RESIDUAL_TOLERANCE.
+    message : str
+    """
+
+    family: str
+    parameters: dict
+    points: tuple
+    completeness: str
+    method: str
+    scanned_range: dict | None
+    converged: bool
+    message: str
+    convention: dict = field(default_factory=dict)
+
+    @property
+    def physical(self) -> tuple:
+        """Physical, non-degenerate critical points."""
+        return tuple(p for p in self.points if p.physical and p.kind != "degenerate")
+
+
+# -- entry point -------------------------------------------------------------------
+def find_critical_points(family, method: str = "auto", *, pressure_range=None,
+                         state_range=None, **params) -> CriticalSearch:
+    """All critical points of a family at given parameters.
+
+    Parameters
+    ----------
+    family : str, Family or Thermodynamics
+    method : {'auto', 'certified', 'scanned'}
+        'auto' uses the certified elimination when the equation of state allows it.
+    pressure_range, state_range : (float, float), optional
+        Ranges for the scanned method (default: from the family's own scales).
+    **params
+        Parameter values (ignored when a Thermodynamics is passed).
+    """
+    th = family if isinstance(family, Thermodynamics) else bind(family, **params)
+    poly = None
+    if method in ("auto", "certified"):
+        poly = _certified_candidates(th)
+        if poly is None and method == "certified":
+            raise ValueError(f"family {th.family.name}: the critical conditions do not reduce "
+                             f"to a polynomial; use method='scanned'")
+    if poly is not None:
+        candidates, note = poly
+        completeness, scanned = "certified", None
+        method_text = ("exact elimination of P, real-root isolation of the resulting "
+                       "polynomial in " + th.derivation.state.name + note)
+    else:
+        candidates, scanned = _scanned_candidates(th, pressure_range, state_range)
+        completeness = "scanned"
+        method_text = ("fold detection of the extrema of T(x) over a logarithmic (x, P) "
+                       "grid, refined by 2D Newton")
+    points = []
+    for x_c, P_c in candidates:
+        cp = _assemble(th, x_c, P_c)
+        if cp is not None and not any(_same(cp, q) for q in points):
+            points.append(cp)
+    points.sort(key=lambda p: (p.P, p.x))
+    converged = all(max(p.residuals.values()) <= RESIDUAL_TOLERANCE for p in points)
+    n_phys = sum(1 for p in points if p.physical and p.kind != "degenerate")
+    msg = (f"{len(points)} solution(s) of the critical conditions, {n_phys} physical "
+           f"critical point(s); complete: {completeness}")
+    if scanned:
+        msg += (f" over {th.derivation.state.name} in [{scanned['x'][0]:.3g}, "
+                f"{scanned['x'][1]:.3g}], P in [{scanned['P'][0]:.3g}, {scanned['P'][1]:.3g}]")
+    if not converged:
+        msg += "; WARNING: some residuals exceed the tolerance"
+    return CriticalSearch(family=th.family.name, parameters=dict(th.values),
+                          points=tuple(points), completeness=completeness,
+                          method=method_text, scanned_range=scanned, converged=converged,
+                          message=msg, convention=convention_record(th.family))
+
+
+def _same(a: CriticalPoint, b: CriticalPoint) -> bool:
+    return abs(a.x - b.x) <= 1e-9 * abs(a.x) and abs(a.P - b.P) <= 1e-9 * abs(a.P) + 1e-300
+
+
+# -- certified path ------------------------------------------------------------------
+def _exact(value: float) -> sp.Rational:
+    return sp.Rational(float(value))  # the exact binary value of the float
+
+
+def _certified_candidates(th: Thermodynamics):
+    """Candidates (x_c, P_c) from exact elimination, or None if not applicable."""
+    der = th.derivation
+    if der.eos.form == "parametric":
+        return None
+    x, P = der.state, sy.P
+    subs = {s: _exact(th.values[s.name]) for s in der.parameters}
+    T = sp.sympify(der.quantities["T"]).subs(subs)
+    B = sp.diff(T, P)
+    A = sp.expand(T - B * P)
+    if sp.diff(B, P) != 0:
+        return None
+    try:
+        if not (A.is_rational_function(x) and B.is_rational_function(x)):
+            return None
+    except (TypeError, ValueError):
+        return None
+    A1, A2 = sp.diff(A, x), sp.diff(A, x, 2)
+    B1, B2 = sp.diff(B, x), sp.diff(B, x, 2)
+    num, den = sp.fraction(sp.cancel(sp.together(A2 * B1 - A1 * B2)))
+    num = sp.expand(num)
+    if num == 0:
+        return [], " (the conditions hold identically in x: no isolated solution)"
+    poly = sp.Poly(num, x)
+    coeffs = [sp.Rational(sp.Float(c.evalf(60), 60)) for c in poly.all_coeffs()]
+    qpoly = sp.Poly(coeffs, x, domain=sp.QQ)
+    out = []
+    for (lo, hi), _mult in qpoly.intervals():
+        if hi <= 0:
+            continue
+        lo, hi = qpoly.refine_root(lo, hi, eps=max(abs(hi), abs(lo)) * sp.Rational(1, 10**25))
+        xr = (lo + hi) / 2
+        if xr <= 0:
+            continue
+        b1 = sp.N(B1.subs(x, xr), 40)
+        a1 = sp.N(A1.subs(x, xr), 40)
+        scale_b = abs(sp.N(B.subs(x, xr) / xr, 40)) + 1e-300
+        if abs(b1) > 1e-25 * scale_b:
+            Pr = -a1 / b1
+        else:
+            b2 = sp.N(B2.subs(x, xr), 40)
+            if b2 == 0 or abs(a1) > 1e-20 * abs(sp.N(A.subs(x, xr) / xr, 40)):
+                continue
+            Pr = -sp.N(A2.subs(x, xr), 40) / b2
+        if not Pr.is_real:
+            continue
+        out.append((float(xr), float(Pr)))
+    return out, ""
+
+
+# -- scanned path --------------------------------------------------------------------
+def _scanned_candidates(th: Thermodynamics, pressure_range=None, state_range=None,
+                        nx: int = 2400, nP: int = 360):
+    x0, P0 = th.typical_state(), th.typical_pressure()
+    xlo, xhi = state_range if state_range else (x0 * 1e-3, x0 * 1e3)
+    Plo, Phi = pressure_range if pressure_range else (P0 * 1e-5, P0 * 1e4)
+    xs = np.geomspace(xlo, xhi, nx)
+    Ps = np.geomspace(Plo, Phi, nP)
+    F = th.d("T", "x", xs[:, None], Ps[None, :])
+    ok = np.isfinite(F)
+    sgn = np.sign(F)
+    change = (sgn[1:] * sgn[:-1] < 0) & ok[1:] & ok[:-1]
+    counts = change.sum(axis=0)
+    guesses = []
+    for j in range(nP - 1):
+        if counts[j] == counts[j + 1]:
+            continue
+        col = j if counts[j] > counts[j + 1] else j + 1
+        idx = np.nonzero(change[:, col])[0]
+        for a, b in zip(idx[:-1], idx[1:]):
+            guesses.append((math.sqrt(xs[a] * xs[b + 1]), Ps[col]))
+        for a in idx:  # a pair merging within one grid cell
+            guesses.append((xs[a], Ps[col]))
+    found = []
+    for g in guesses:
+        sol = _newton(th, *g)
+        if sol is not None and xlo <= sol[0] <= xhi and Plo <= sol[1] <= Phi:
+            if not any(abs(sol[0] - f[0]) <= 1e-9 * sol[0] and abs(sol[1] - f[1]) <= 1e-9 * sol[1]
+                       for f in found):
+                found.append(sol)
+    return found, {"x": [float(xlo), float(xhi)], "P": [float(Plo), float(Phi)]}
+
+
+def _newton(th: Thermodynamics, x: float, P: float, max_iter: int = 60):
+    """Damped Newton on (x T_x, x^2 T_xx) = 0 in (log x, log P); None if no convergence."""
+    u, w = math.log(x), math.log(P)
+    for _ in range(max_iter):
+        x, P = math.exp(u), math.exp(w)
+        T = float(th.T(x, P))
+        Tx, Txx = float(th.d("T", "x", x, P)), float(th.d("T", "xx", x, P))
+        Txxx = float(th.d("T", "xxx", x, P))
+        TxP, TxxP = float(th.d("T", "xP", x, P)), float(th.d("T", "xxP", x, P))
+        scale = abs(T) + abs(x * Tx) + 1e-300
+        F = np.array([x * Tx, x * x * Txx]) / scale
+        J = np.array([[x * Tx + x * x * Txx, x * P * TxP],
+                      [2 * x * x * Txx + x**3 * Txxx, x * x * P * TxxP]]) / scale
+        if not (np.all(np.isfinite(F)) and np.all(np.isfinite(J))):
+            return None
+        try:
+            step = np.linalg.solve(J, -F)
+        except np.linalg.LinAlgError:
+            return None
+        n = float(np.max(np.abs(step)))
+        if n > 0.5:
+            step *= 0.5 / n
+        u, w = u + step[0], w + step[1]
+        if n < 1e-14 and float(np.max(np.abs(F))) < 1e-12:
+            return math.exp(u), math.exp(w)
+    x, P = math.exp(u), math.exp(w)
+    res = _residuals(th, x, P)
+    return (x, P) if max(res.values()) <= RESIDUAL_TOLERANCE else None
+
+
+# -- assembly and classification -----------------------------------------------------
+def _residuals(th: Thermodynamics, x: float, P: float) -> dict:
+    T = float(th.T(x, P))
+    Tx, Txx = float(th.d("T", "x", x, P)), float(th.d("T", "xx", x, P))
+    # relative to the size of the terms of T (T itself may be small)
+    scale = abs(T) + 1e-300
+    return {"x*dT/dx/T": abs(x * Tx) / scale, "x^2*d2T/dx2/T": abs(x * x * Txx) / scale}
+
+
+def _count_extrema(th: Thermodynamics, x_c: float, P: float, half_width: float = 0.7) -> int:
+    xs = x_c * np.exp(np.linspace(-half_width, half_width, 6001))
+    F = th.d("T", "x", xs, P)
+    s = np.sign(F[np.isfinite(F)])
+    return int(np.sum(s[1:] * s[:-1] < 0))
+
+
+def _classify(th: Thermodynamics, x_c: float, P_c: float) -> str:
+    TP = float(th.d("T", "P", x_c, P_c))
+    TxP = float(th.d("T", "xP", x_c, P_c))
+    if TP != 0 and abs(x_c * TxP / TP) < ISOLATED_TOLERANCE:
+        return "isolated"
+    for eps in (1e-3, 1e-2, 3e-2):
+        below = _count_extrema(th, x_c, P_c * (1 - eps))
+        above = _count_extrema(th, x_c, P_c * (1 + eps))
+        if abs(below - above) == 2:
+            return "standard"
+    return "degenerate"
+
+
+def _assemble(th: Thermodynamics, x_c: float, P_c: float) -> CriticalPoint | None:
+    if not (np.isfinite(x_c) and np.isfinite(P_c)) or x_c <= 0:
+        return None
+    T_c = float(th.T(x_c, P_c))
+    if not np.isfinite(T_c):
+        return None
+    v_c = float(th.v(x_c, P_c)) if th.has("v") else None
+    r_c = float(th.quantity("r_plus", x_c, P_c)) if th.has("r_plus") else None
+    G_c = float(th.G(x_c, P_c))
+    ratio = P_c * v_c / T_c if (v_c is not None and T_c != 0) else None
+    physical = bool(T_c > 0 and P_c > 0 and th.physical(x_c, P_c))
+    kind = _classify(th, x_c, P_c)
+    cp = CriticalPoint(T=T_c, P=P_c, v=v_c, x=x_c, r=r_c, G=G_c, ratio=ratio, kind=kind,
+                       physical=physical, residuals=_residuals(th, x_c, P_c),
+                       scale_free={})
+    object.__setattr__(cp, "scale_free", scale_free_values(th, cp))
+    return cp
+
+
+def _power_label(name: str, e: sp.Rational) -> str:
+    if e == 1:
+        return name
+    return f"{name}^{e}" if e.q == 1 and e > 0 else f"{name}^({e})"
+
+
+def scale_free_values(th: Thermodynamics, cp: CriticalPoint) -> dict:
+    """Dimensionless combinations of the critical data, e.g. {'P_c*Q^2': 1/(96 pi)}.
+
+    The reference length is ell = q_ref^(1/n_ref) for the first continuous parameter
+    with a non-zero length dimension and value; [T] = L^-1, [P] = L^-2, [v] = [r] = L,
+    [G] = L^(d-3).  Other parameters appear as q / ell^(n_q).
+    """
+    der = th.derivation
+    if not th.family.gravitational:
+        return {}
+    ref = next(((nm, n) for nm, n in der.length_dimensions.items()
+                if n != 0 and th.values[nm] != 0), None)
+    if ref is None:
+        return {}
+    name, n = ref
+    n_r = sp.nsimplify(n)
+    ell = abs(float(th.values[name])) ** (1.0 / n)
+    d = der.dimension
+    out = {}
+
+    def put(label, value, dim):
+        e = sp.nsimplify(-sp.nsimplify(dim) / n_r)  # value * q^(e) is dimensionless
+        key = f"{label}*{_power_label(name, e)}" if e > 0 else f"{label}/{_power_label(name, -e)}"
+        out[key] = value * ell ** (-dim)
+
+    put("T_c", cp.T, -1)
+    put("P_c", cp.P, -2)
+    if cp.v is not None:
+        put("v_c", cp.v, 1)
+    if cp.r is not None:
+        put("r_c", cp.r, 1)
+    put("G_c", cp.G, d - 3)
+    for other, m in der.length_dimensions.items():
+        if other != name and m != 0:
+            put(other, float(th.values[other]), m)
+    return out

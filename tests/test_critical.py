@@ -1,0 +1,124 @@
+"""Critical points and exponents against closed forms and published values."""
+import json
+import math
+
+import pytest
+
+from chemistry import bind
+from chemistry.cli import main
+from chemistry.critical import find_critical_points
+from chemistry.exponents import critical_exponents
+
+
+def rel(a, b):
+    return abs(a - b) / abs(b)
+
+
+def test_charged_ads_4d_closed_form():
+    """Kubiznak & Mann, JHEP 07 (2012) 033, eq. (3.6)-(3.8): T_c = sqrt6/(18 pi Q),
+    v_c = 2 sqrt6 Q, P_c = 1/(96 pi Q^2), rho_c = 3/8, to 1e-12 relative."""
+    for Q in (1.0, 0.37, 4.2):
+        s = find_critical_points("rn-ads", Q=Q)
+        assert s.completeness == "certified" and s.converged
+        (cp,) = s.points
+        assert cp.kind == "standard" and cp.physical
+        assert rel(cp.T, math.sqrt(6) / (18 * math.pi * Q)) < 1e-12
+        assert rel(cp.v, 2 * math.sqrt(6) * Q) < 1e-12
+        assert rel(cp.P, 1 / (96 * math.pi * Q**2)) < 1e-12
+        assert rel(cp.ratio, 3 / 8) < 1e-12
+        assert max(cp.residuals.values()) < 1e-12
+        assert rel(cp.scale_free["P_c*Q^2"], 1 / (96 * math.pi)) < 1e-12
+        assert rel(cp.scale_free["T_c*Q"], math.sqrt(6) / (18 * math.pi)) < 1e-12
+        assert rel(cp.scale_free["v_c/Q"], 2 * math.sqrt(6)) < 1e-12
+
+
+@pytest.mark.parametrize("d", range(5, 11))
+def test_charged_ads_d_dimensions_closed_form(d):
+    """Gunasekaran, Kubiznak & Mann, JHEP 11 (2012) 110, Sec. 3: with q the metric charge,
+    r_c^(2(d-3)) = q^2 (d-2)(2d-5), P_c = (d-3)^2/(16 pi r_c^2), v_c = 4 r_c/(d-2),
+    T_c = 4 (d-3)^2 / ((2d-5) pi (d-2) v_c), rho_c = (2d-5)/(4d-8); to 1e-12."""
+    Q = 0.83
+    Om = 2 * math.pi ** ((d - 1) / 2) / math.gamma((d - 1) / 2)
+    q = 8 * math.pi * Q / (math.sqrt(2 * (d - 2) * (d - 3)) * Om)
+    r_c = (q**2 * (d - 2) * (2 * d - 5)) ** (1 / (2 * (d - 3)))
+    v_c = 4 * r_c / (d - 2)
+    (cp,) = find_critical_points("rn-ads", Q=Q, d=d).points
+    assert rel(cp.r, r_c) < 1e-12
+    assert rel(cp.v, v_c) < 1e-12
+    assert rel(cp.P, (d - 3) ** 2 / (16 * math.pi * r_c**2)) < 1e-12
+    assert rel(cp.T, 4 * (d - 3) ** 2 / ((2 * d - 5) * math.pi * (d - 2) * v_c)) < 1e-12
+    assert rel(cp.ratio, (2 * d - 5) / (4 * d - 8)) < 1e-12
+
+
+def test_van_der_waals_critical_point():
+    """Textbook: v_c = 3b, T_c = 8a/(27b), P_c = a/(27 b^2), rho_c = 3/8."""
+    a, b = 2.7, 0.45
+    (cp,) = find_critical_points("vdw-fluid", a=a, b=b).points
+    assert rel(cp.v, 3 * b) < 1e-12
+    assert rel(cp.T, 8 * a / (27 * b)) < 1e-12
+    assert rel(cp.P, a / (27 * b**2)) < 1e-12
+    assert rel(cp.ratio, 3 / 8) < 1e-12
+
+
+@pytest.mark.parametrize("d", [4, 5, 8])
+def test_schwarzschild_ads_has_no_critical_point(d):
+    """Hawking & Page 1983 / exact: T = (d-3)/(4 pi r) + 4 P r/(d-2) has a single minimum."""
+    s = find_critical_points("schwarzschild-ads", d=d)
+    assert s.points == () and s.completeness == "certified"
+
+
+def test_scanned_method_agrees_with_certified():
+    """The non-polynomial method on a polynomial family: same point to 1e-12."""
+    c = find_critical_points("rn-ads", Q=1.3, d=5).points[0]
+    s = find_critical_points("rn-ads", method="scanned", Q=1.3, d=5)
+    assert s.completeness == "scanned" and s.scanned_range is not None
+    (p,) = s.points
+    assert rel(p.T, c.T) < 1e-12 and rel(p.P, c.P) < 1e-12 and rel(p.x, c.x) < 1e-12
+
+
+@pytest.mark.parametrize("family, params", [("rn-ads", {"Q": 1.0}), ("rn-ads", {"Q": 1.0, "d": 7}),
+                                            ("vdw-fluid", {})])
+def test_mean_field_exponents_exact_and_fitted(family, params):
+    """Kubiznak & Mann 2012 (charged AdS) and the textbook vdW fluid: alpha = 0, beta = 1/2,
+    gamma = 1, delta = 3; the log-log fits agree to 1e-3."""
+    th = bind(family, **params)
+    cp = find_critical_points(th).points[0]
+    ex = critical_exponents(th, cp)
+    assert ex.exact == {"alpha": "0", "beta": "1/2", "gamma": "1", "delta": "3"}
+    assert ex.orders == {"n": 3, "m": 1}
+    assert ex.agree, ex.message
+    assert abs(ex.fitted["beta"]["value"] - 0.5) < 1e-3
+    assert abs(ex.fitted["gamma"]["value"] - 1.0) < 1e-3
+    assert abs(ex.fitted["delta"]["value"] - 3.0) < 1e-3
+    assert ex.fitted["alpha"]["value"] is None  # C_V = 0 or regular: not fitted
+
+
+def test_series_coefficients_charged_ads():
+    """Kubiznak & Mann 2012, eq. (3.12): P/P_c = 1 + 8/3 t - 8/3 t w - 4/3 w^3 + ..."""
+    th = bind("rn-ads", Q=1.0)
+    ex = critical_exponents(th, find_critical_points(th).points[0])
+    c = ex.coefficients
+    assert abs(c["a10"] - 8 / 3) < 1e-12 and abs(c["a11"] + 8 / 3) < 1e-12
+    assert abs(c["a03"] + 4 / 3) < 1e-12 and abs(c["a01"]) < 1e-12 and abs(c["a02"]) < 1e-12
+
+
+def test_cli_critical_json_contract(capsys):
+    assert main(["critical", "rn-ads", "-p", "Q=1", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    (cp,) = doc["critical_points"]
+    for key in ("T", "P", "v", "r", "G", "ratio", "kind", "physical", "scale_free", "residuals"):
+        assert key in cp
+    assert doc["completeness"] == "certified"
+
+
+def test_cli_exponents_json_contract(capsys):
+    assert main(["exponents", "vdw-fluid", "--json"]) == 0
+    cp = json.loads(capsys.readouterr().out)["critical_points"][0]
+    assert cp["exponents"] == {"alpha": "0", "beta": "1/2", "gamma": "1", "delta": "3"}
+    assert set(cp["fitted"]) == {"alpha", "beta", "gamma", "delta"}
+    assert cp["fitted"]["delta"]["uncertainty"] is not None
+
+
+def test_cli_no_critical_point_is_a_result(capsys):
+    assert main(["critical", "schwarzschild-ads", "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["critical_points"] == []
