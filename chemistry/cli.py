@@ -100,6 +100,79 @@ def cmd_critical(args) -> int:
     return 0
 
 
+def parse_pressure(text: str, th) -> float:
+    """'0.01', '1e-3' or relative to a critical point: '0.5Pc' (lowest physical critical
+    pressure), '0.5Pc2' (the second, by pressure)."""
+    import math
+    t = str(text).strip()
+    factor, sep, which = t.partition("Pc")
+    if sep:
+        try:
+            f = float(factor) if factor.strip() else 1.0
+            idx = int(which) if which.strip() else 1
+        except ValueError:
+            raise BhchemError(f"pressure {text!r} must look like 0.01 or 0.5Pc (or 0.5Pc2)") from None
+        from .critical import find_critical_points
+        cps = find_critical_points(th).physical
+        if not cps:
+            raise BhchemError(f"pressure {text!r} is relative to a critical point, but "
+                              f"{th.family.name} has none at these parameters; give P directly")
+        if not 1 <= idx <= len(cps):
+            raise BhchemError(f"pressure {text!r}: there are only {len(cps)} critical point(s)")
+        value = f * cps[idx - 1].P
+    else:
+        try:
+            value = float(t)
+        except ValueError:
+            raise BhchemError(f"pressure {text!r} must look like 0.01 or 0.5Pc") from None
+    if not (math.isfinite(value) and value > 0):
+        raise BhchemError(f"pressure {text!r} must be a positive finite number "
+                          f"(P = -Lambda/8pi > 0 for AdS)")
+    return value
+
+
+def cmd_isobar(args) -> int:
+    from .critical import find_critical_points
+    from .isobar import analyze_isobar, isobar_json, isobar_text
+    th = _bound(args)
+    P = parse_pressure(args.pressure, th)
+    res = analyze_isobar(th, P, critical_points=find_critical_points(th).physical)
+    doc = isobar_json(res)
+    print(json.dumps(doc, indent=2, sort_keys=True) if args.json else isobar_text(res))
+    return 0
+
+
+def cmd_phases(args) -> int:
+    from .phases import diagram_json, diagram_text, phase_diagram
+    th = _bound(args)
+    rng = None
+    if args.pressure_range:
+        rng = tuple(parse_pressure(v, th) for v in args.pressure_range)
+        if rng[0] >= rng[1]:
+            raise BhchemError("--pressure-range needs P1 < P2")
+    progress = _progress(args, "isobars")
+    pd = phase_diagram(th, pressure_range=rng, progress=progress)
+    if progress:
+        progress(None, None)
+    print(json.dumps(diagram_json(pd), indent=2, sort_keys=True) if args.json
+          else diagram_text(pd))
+    return 0
+
+
+def _progress(args, what):
+    """A progress callback on stderr when it is a terminal (silent with --quiet)."""
+    if getattr(args, "quiet", False) or not sys.stderr.isatty():
+        return None
+
+    def show(done, total):
+        if done is None:
+            sys.stderr.write("\r" + " " * 60 + "\r")
+        else:
+            sys.stderr.write(f"\r{what}: {done}/{total}")
+        sys.stderr.flush()
+    return show
+
+
 def _add_family_args(p, json_help="machine-readable output"):
     p.add_argument("family", help="family name (see 'bhchem families')")
     p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
@@ -136,6 +209,22 @@ def build_parser() -> argparse.ArgumentParser:
                        help="critical points with exact and fitted critical exponents")
     _add_family_args(p)
     p.set_defaults(func=cmd_critical)
+
+    p = sub.add_parser("isobar", parents=[common],
+                       help="branches, swallowtails and transitions at one pressure")
+    _add_family_args(p)
+    p.add_argument("--pressure", required=True, metavar="P",
+                   help="pressure, absolute (0.002) or relative to a critical point (0.5Pc)")
+    p.set_defaults(func=cmd_isobar)
+
+    p = sub.add_parser("phases", parents=[common],
+                       help="phase diagram: lines, critical and triple points, phase graph")
+    _add_family_args(p)
+    p.add_argument("--pressure-range", nargs=2, metavar=("P1", "P2"),
+                   help="pressure range (absolute or like 0.01Pc 3Pc); default from the "
+                        "family's scales")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(func=cmd_phases)
     return parser
 
 

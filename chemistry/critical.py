@@ -251,7 +251,7 @@ def _scanned_candidates(th: Thermodynamics, pressure_range=None, state_range=Non
     Ps = np.geomspace(Plo, Phi, nP)
     F = th.d("T", "x", xs[:, None], Ps[None, :])
     ok = np.isfinite(F)
-    sgn = np.sign(F)
+    sgn = np.where(F >= 0, 1.0, -1.0)  # a grid point exactly at a root counts as a sign
     change = (sgn[1:] * sgn[:-1] < 0) & ok[1:] & ok[:-1]
     counts = change.sum(axis=0)
     guesses = []
@@ -316,7 +316,7 @@ def _residuals(th: Thermodynamics, x: float, P: float) -> dict:
 def _count_extrema(th: Thermodynamics, x_c: float, P: float, half_width: float = 0.7) -> int:
     xs = x_c * np.exp(np.linspace(-half_width, half_width, 6001))
     F = th.d("T", "x", xs, P)
-    s = np.sign(F[np.isfinite(F)])
+    s = np.where(F[np.isfinite(F)] >= 0, 1.0, -1.0)
     return int(np.sum(s[1:] * s[:-1] < 0))
 
 

@@ -198,7 +198,8 @@ def coexistence_on_isobar_near_critical(th: Thermodynamics, cp: CriticalPoint, P
     """
     xs = cp.x * np.exp(np.linspace(-half_width, half_width, 6001))
     F = th.d("T", "x", xs, P)
-    idx = np.nonzero(np.sign(F[1:]) * np.sign(F[:-1]) < 0)[0]
+    s = np.where(F >= 0, 1.0, -1.0)
+    idx = np.nonzero(s[1:] * s[:-1] < 0)[0]
     if len(idx) != 2:
         return None
     fx = lambda z: float(th.d("T", "x", z, P))  # noqa: E731

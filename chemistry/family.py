@@ -119,7 +119,10 @@ class Family:
     gibbs : sympy expression, optional
         G(x, P, params) for the fluid route (no enthalpy/entropy given).
     background_gibbs : sympy expression, optional
-        G of a competing background phase (thermal AdS: 0).
+        G of a competing background phase (thermal AdS: 0), a function of P and the
+        parameters only.
+    background_name : str
+        What the background phase is called (e.g. 'thermal AdS').
     state : sympy.Symbol
         The state variable x (default: horizon radius ``r``).
     state_description : str
@@ -153,6 +156,7 @@ class Family:
     volume: object = None
     gibbs: object = None
     background_gibbs: object = None
+    background_name: str = "background"
     state: sp.Symbol = sy.r
     state_description: str = "horizon radius r+"
     horizon_radius: object = None
@@ -312,6 +316,11 @@ def validate_family(fam: Family) -> None:
         e = canonicalise(value, table, attr, who)
         if e is not None and sy.T in e.free_symbols:
             raise MalformedFamilyError(f"family {who}: {attr} may not use the symbol T")
+    if fam.background_gibbs is not None:
+        bg = canonicalise(fam.background_gibbs, table, "background_gibbs", who)
+        if fam.state in sp.sympify(bg).free_symbols:
+            raise MalformedFamilyError(
+                f"family {who}: background_gibbs may not depend on the state variable")
     for i, c in enumerate(fam.conditions):
         e = canonicalise(c, table, f"condition {i + 1}", who)
         if not isinstance(e, (sp.logic.boolalg.Boolean, sp.core.relational.Relational)):

@@ -30,4 +30,5 @@ FAMILY = Family(
     entropy=_Om * r ** (d - 2) / 4,
     temperature=((d - 3) + 16 * pi * P * r**2 / (d - 2)) / (4 * pi * r),
     background_gibbs=sp.Integer(0),
+    background_name="thermal AdS",
 )

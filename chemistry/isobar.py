@@ -1,0 +1,468 @@
+r"""Isobar analysis: branches, swallowtails, the globally preferred phase, transitions.
+
+At fixed pressure P (and parameters) the isobar T(x) is split into *branches*
+between its stationary points (T_x = 0: the spinodals) and the ends of the
+physical domain.  On each branch T is monotone, so G(T) is single valued there;
+local stability is the sign of C_P = T S_x / T_x.  Stable branches are the
+thermodynamic *phases*, named by size order: small / intermediate / large (one
+stable branch: 'large' if a smaller unstable branch exists, else 'black hole').
+
+The G-T curve of all branches self-intersects at *swallowtails*; the globally
+preferred state at each T minimises G over every branch and the background phase
+(when the family declares one, e.g. thermal AdS with G = 0).  Walking the
+minimum in T gives the transitions at this pressure:
+
+* first order: the minimum switches between two branches that cross (G
+  continuous; S and v jump): latent heat L = T (S_2 - S_1), Delta v;
+* Hawking-Page type: the minimum crosses the background phase;
+* zeroth order: the preferred branch *ends* (at a spinodal or the edge of the
+  physical domain) and G jumps to another branch (the reentrant case): Delta G;
+* second order: at the pressure of a critical point.
+
+Every crossing is refined by Brent's method on G_i(T) - G_j(T), with x_i(T)
+obtained by inverting the monotone branch; residuals |Delta G|/|G| are reported.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, field
+
+import numpy as np
+from scipy.optimize import brentq
+
+from .compiled import Thermodynamics
+
+_XTOL = 1e-15
+
+
+@dataclass(frozen=True)
+class Branch:
+    """A monotone piece of the isobar T(x) between stationary points / domain ends."""
+
+    index: int
+    x_min: float
+    x_max: float
+    T_at_x_min: float
+    T_at_x_max: float
+    stable: bool
+    label: str
+    ends: tuple  # ('spinodal' | 'domain' | 'range', same) at x_min, x_max
+
+    @property
+    def T_min(self) -> float:
+        return min(self.T_at_x_min, self.T_at_x_max)
+
+    @property
+    def T_max(self) -> float:
+        return max(self.T_at_x_min, self.T_at_x_max)
+
+
+@dataclass(frozen=True)
+class StateData:
+    """One state taking part in a transition."""
+
+    phase: str
+    x: float
+    r: float | None
+    v: float | None
+    S: float
+    G: float
+    T: float
+
+
+@dataclass(frozen=True)
+class Transition:
+    """A transition of the globally preferred phase at fixed P."""
+
+    kind: str  # 'first-order' | 'zeroth-order' | 'hawking-page' | 'second-order'
+    T: float
+    P: float
+    from_phase: str
+    to_phase: str
+    states: tuple
+    latent_heat: float | None
+    delta_v: float | None
+    delta_G: float
+    residual: float
+
+    def to_dict(self) -> dict:
+        d = asdict(self)
+        d["from"] = d.pop("from_phase")
+        d["to"] = d.pop("to_phase")
+        return d
+
+
+@dataclass(frozen=True)
+class Crossing:
+    """A self-intersection of the G-T curve (swallowtail vertex) between two branches."""
+
+    T: float
+    branches: tuple
+    G: float
+    on_envelope: bool
+
+
+@dataclass(frozen=True)
+class IsobarResult:
+    """Everything about one isobar."""
+
+    pressure: float
+    parameters: dict
+    branches: tuple
+    crossings: tuple
+    transitions: tuple
+    preferred: tuple  # ((T_lo, T_hi, phase), ...) in increasing T
+    background: str | None
+    state_range: tuple
+    message: str
+    warnings: tuple = field(default_factory=tuple)
+
+    def phase_at(self, T: float) -> str | None:
+        for lo, hi, ph in self.preferred:
+            if lo <= T <= hi:
+                return ph
+        return None
+
+
+# -- construction --------------------------------------------------------------------
+def state_range(th: Thermodynamics, P: float) -> tuple[float, float]:
+    """Range of the state variable to search at pressure P (from the family's scales).
+
+    Covers six decades either side of the family's own length scale and of the AdS
+    length at this pressure (x ~ L for r, L^(d-2) for an entropy state variable).
+    """
+    x0 = th.typical_state()
+    P0 = th.typical_pressure()
+    power = (th.derivation.dimension - 2) if th.derivation.state.name == "S" else 1.0
+    if not th.family.gravitational:
+        power = 0.0
+    xP = x0 * (P0 / P) ** (power / 2) if power else x0
+    lo, hi = min(x0, xP), max(x0, xP)
+    return lo * 1e-4, hi * 1e5
+
+
+def _refine_root(f, a, b):
+    fa, fb = f(a), f(b)
+    if not (np.isfinite(fa) and np.isfinite(fb)) or fa * fb > 0:
+        return 0.5 * (a + b)
+    return brentq(f, a, b, xtol=_XTOL * max(abs(a), abs(b)), rtol=1e-15, maxiter=200)
+
+
+def _refine_boundary(th, P, a, b, inside_a: bool):
+    """Bisection on the physical mask between a and b (geometric), to 1e-14 relative."""
+    for _ in range(200):
+        m = math.sqrt(a * b)
+        if bool(th.physical(m, P)) == inside_a:
+            a = m
+        else:
+            b = m
+        if abs(b - a) <= 1e-14 * abs(a):
+            break
+    return a  # the physical side
+
+
+def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000) -> list[Branch]:
+    """Split the physical isobar into monotone branches (see module docstring)."""
+    lo, hi = x_range if x_range else state_range(th, P)
+    xs = np.geomspace(lo, hi, n)
+    phys = th.physical(xs, P)
+    Tx = th.d("T", "x", xs, P)
+    phys &= np.isfinite(Tx)
+    fx = lambda z: float(th.d("T", "x", z, P))  # noqa: E731
+    pieces = []
+    i = 0
+    while i < n:
+        if not phys[i]:
+            i += 1
+            continue
+        j = i
+        while j + 1 < n and phys[j + 1]:
+            j += 1
+        a_end = "range" if i == 0 else "domain"
+        b_end = "range" if j == n - 1 else "domain"
+        a = xs[i] if i == 0 else _refine_boundary(th, P, xs[i], xs[i - 1], True)
+        b = xs[j] if j == n - 1 else _refine_boundary(th, P, xs[j], xs[j + 1], True)
+        cuts = [(a, a_end)]
+        s = np.where(Tx[i:j + 1] >= 0, 1.0, -1.0)  # an exact zero counts as a sign
+        for k in np.nonzero(s[1:] * s[:-1] < 0)[0]:
+            k0 = i + k
+            cuts.append((_refine_root(fx, xs[k0], xs[k0 + 1]), "spinodal"))
+        cuts.append((b, b_end))
+        for (xa, ea), (xb, eb) in zip(cuts[:-1], cuts[1:]):
+            if xb > xa * (1 + 1e-13):
+                pieces.append((xa, xb, ea, eb))
+        i = j + 1
+    branches = []
+    for idx, (xa, xb, ea, eb) in enumerate(pieces):
+        xm = math.sqrt(xa * xb)
+        cp = float(th.quantity("C_P", xm, P))
+        branches.append(Branch(idx, xa, xb, float(th.T(xa, P)), float(th.T(xb, P)),
+                               bool(cp > 0), "", (ea, eb)))
+    return _label(branches, "black hole" if th.family.gravitational else "fluid")
+
+
+def _label(branches: list[Branch], single: str = "black hole") -> list[Branch]:
+    stable = [b for b in branches if b.stable]
+    names = {1: ["large"], 2: ["small", "large"], 3: ["small", "intermediate", "large"]}
+    if len(stable) == 1 and not any((not b.stable) and b.x_max <= stable[0].x_min
+                                    for b in branches):
+        labels = [single]
+    else:
+        labels = names.get(len(stable), [f"phase-{k + 1}" for k in range(len(stable))])
+    out, it = [], iter(labels)
+    stable_labels = {}
+    for b in branches:
+        if b.stable:
+            stable_labels[b.index] = next(it)
+    for b in branches:
+        if b.stable:
+            label = stable_labels[b.index]
+        else:
+            below = [stable_labels[s.index] for s in branches if s.stable and s.x_max <= b.x_min]
+            above = [stable_labels[s.index] for s in branches if s.stable and s.x_min >= b.x_max]
+            label = "unstable" + (f" ({below[-1] if below else '-'}|{above[0] if above else '-'})")
+        out.append(Branch(b.index, b.x_min, b.x_max, b.T_at_x_min, b.T_at_x_max, b.stable,
+                          label, b.ends))
+    return out
+
+
+def _x_of_T(th, P, br: Branch, T: float) -> float | None:
+    """Invert the monotone branch: the x on ``br`` where T(x) = T (None outside)."""
+    if not (br.T_min <= T <= br.T_max):
+        return None
+    f = lambda z: float(th.T(z, P)) - T  # noqa: E731
+    fa, fb = f(br.x_min), f(br.x_max)
+    if fa == 0:
+        return br.x_min
+    if fb == 0:
+        return br.x_max
+    if fa * fb > 0:
+        return br.x_min if abs(fa) < abs(fb) else br.x_max
+    return brentq(f, br.x_min, br.x_max, xtol=_XTOL * br.x_max, rtol=1e-15, maxiter=200)
+
+
+def _G_on_grid(th, P, br: Branch, Ts: np.ndarray, m: int = 4000) -> np.ndarray:
+    """G on the branch at temperatures Ts (NaN outside its range), vectorised:
+    interpolate x(T) from samples, then three Newton polishes."""
+    xs = np.geomspace(br.x_min, br.x_max, m)
+    T = th.T(xs, P)
+    order = np.argsort(T)
+    out = np.full(Ts.shape, np.nan)
+    inside = (Ts >= br.T_min) & (Ts <= br.T_max)
+    if not np.any(inside):
+        return out
+    x = np.interp(Ts[inside], T[order], xs[order])
+    with np.errstate(all="ignore"):
+        for _ in range(3):
+            Tx = th.d("T", "x", x, P)
+            step = np.where(Tx != 0, (th.T(x, P) - Ts[inside]) / Tx, 0.0)
+            x = np.clip(x - np.nan_to_num(step), br.x_min, br.x_max)
+    out[inside] = th.G(x, P)
+    return out
+
+
+def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 3000,
+                   critical_points=None) -> IsobarResult:
+    """Branches, swallowtails, preferred phase and transitions at pressure P."""
+    if not (np.isfinite(P) and P > 0):
+        from .errors import StateDomainError
+        raise StateDomainError(f"pressure P = {P} is not positive: there is no AdS black hole")
+    xr = x_range if x_range else state_range(th, P)
+    branches = find_branches(th, P, xr)
+    if not branches:
+        from .errors import StateDomainError
+        raise StateDomainError(
+            f"no physical {th.family.name} state at P = {P:g} with "
+            f"{', '.join(f'{k} = {v:g}' for k, v in th.values.items())}")
+    has_bg = th.has("G_background")
+    bg_name = th.family.background_name if has_bg else None
+    G_bg = float(th.quantity("G_background", 1.0, P)) if has_bg else None
+
+    T_lo = 0.0 if has_bg else min(b.T_min for b in branches)  # the background exists at all T
+    T_hi = max(b.T_max for b in branches)
+    # a branch cut by the search range (not by physics) continues beyond it: above the
+    # lowest such temperature the branch list is incomplete, so stop the walk there
+    cut = [b.T_at_x_min for b in branches if b.ends[0] == "range"] + \
+          [b.T_at_x_max for b in branches if b.ends[1] == "range"]
+    cut = [c for c in cut if c > T_lo]
+    if cut:
+        T_hi = min(T_hi, min(cut))
+    ends = sorted(t for t in {b.T_min for b in branches} | {b.T_max for b in branches}
+                  if T_lo <= t <= T_hi)
+    Ts = np.unique(np.concatenate([np.linspace(T_lo, T_hi, n_T), ends]))
+    Gs = np.vstack([_G_on_grid(th, P, b, Ts) for b in branches])
+    names = [b.label for b in branches]
+    if has_bg:
+        Gs = np.vstack([Gs, np.full(Ts.shape, G_bg)])
+        names.append(bg_name)
+
+    def G_of(k, T):
+        if has_bg and k == len(branches):
+            return G_bg, None
+        x = _x_of_T(th, P, branches[k], T)
+        return (None, None) if x is None else (float(th.G(x, P)), x)
+
+    # swallowtail vertices: sign changes of G_i - G_j where both branches exist
+    crossings = []
+    nb = len(names)
+    for i in range(nb):
+        for j in range(i + 1, nb):
+            diff = Gs[i] - Gs[j]
+            ok = np.isfinite(diff)
+            sd = np.where(diff >= 0, 1.0, -1.0)
+            idx = np.nonzero(ok[:-1] & ok[1:] & (sd[:-1] * sd[1:] < 0))[0]
+            for k in idx:
+                T = _refine_crossing(G_of, i, j, Ts[k], Ts[k + 1])
+                if T is not None:
+                    crossings.append((T, i, j))
+
+    # the global minimum of G over all branches and the background
+    with np.errstate(invalid="ignore"):
+        Gmin_idx = np.where(np.all(np.isnan(Gs), axis=0), -1,
+                            np.nanargmin(np.where(np.isnan(Gs), np.inf, Gs), axis=0))
+    transitions, segments, warnings = [], [], []
+    start = Ts[0]
+    for k in range(len(Ts) - 1):
+        a, b = Gmin_idx[k], Gmin_idx[k + 1]
+        if a == b:
+            continue
+        T_edge = _locate_switch(th, P, branches, G_of, a, b, Ts[k], Ts[k + 1], has_bg)
+        if T_edge is None:
+            warnings.append(f"could not resolve the switch {names[a]} -> {names[b]} between "
+                            f"T = {Ts[k]:.6g} and {Ts[k + 1]:.6g}")
+            continue
+        kind, T_t = T_edge
+        segments.append((float(start), float(T_t), names[a]))
+        start = T_t
+        transitions.append(_transition(th, P, kind, T_t, a, b, names, branches, G_of, has_bg))
+    segments.append((float(start), float(Ts[-1]), names[Gmin_idx[-1]]))
+
+    # second order at a critical pressure
+    for cp in critical_points or ():
+        if cp.physical and cp.kind != "degenerate" and abs(cp.P - P) <= 1e-10 * P:
+            transitions.append(Transition("second-order", cp.T, P, "black hole", "black hole",
+                                          (), 0.0, 0.0, 0.0, 0.0))
+    transitions.sort(key=lambda t: t.T)
+    env_T = {round(t.T, 12) for t in transitions}
+    cross = tuple(Crossing(T, (names[i], names[j]), float(G_of(i, T)[0]),
+                           round(T, 12) in env_T) for T, i, j in sorted(crossings))
+    msg = (f"{len(branches)} branch(es), {len(cross)} G-T crossing(s), "
+           f"{len(transitions)} transition(s) of the preferred phase")
+    return IsobarResult(pressure=P, parameters=dict(th.values), branches=tuple(branches),
+                        crossings=cross, transitions=tuple(transitions),
+                        preferred=tuple(segments), background=bg_name,
+                        state_range=tuple(xr), message=msg, warnings=tuple(warnings))
+
+
+def _refine_crossing(G_of, i, j, Ta, Tb):
+    def f(T):
+        gi, _ = G_of(i, T)
+        gj, _ = G_of(j, T)
+        if gi is None or gj is None:
+            return np.nan
+        return gi - gj
+    fa, fb = f(Ta), f(Tb)
+    if not (np.isfinite(fa) and np.isfinite(fb)) or fa * fb > 0:
+        return None
+    if fa == 0:
+        return Ta
+    if fb == 0:
+        return Tb
+    return brentq(f, Ta, Tb, xtol=1e-15 * abs(Tb), rtol=1e-15, maxiter=200)
+
+
+def _locate_switch(th, P, branches, G_of, a, b, Ta, Tb, has_bg):
+    """Kind and temperature of a change of the minimising branch between Ta and Tb."""
+    ga_b, _ = G_of(a, Tb)
+    gb_a, _ = G_of(b, Ta)
+    if ga_b is not None and gb_a is not None:  # both exist across the cell: a crossing
+        T = _refine_crossing(G_of, a, b, Ta, Tb)
+        if T is None:
+            return None
+        bg = has_bg and (a == len(branches) or b == len(branches))
+        return ("hawking-page" if bg else "first-order"), T
+    if ga_b is None:  # branch a ends inside the cell: zeroth order at its end
+        br = branches[a]
+        T_end = br.T_max if abs(br.T_max - Ta) <= abs(br.T_min - Ta) else br.T_min
+        if G_of(b, T_end)[0] is None:
+            return None
+        return "zeroth-order", T_end
+    br = branches[b]  # branch b starts inside the cell
+    T_start = br.T_min if abs(br.T_min - Tb) <= abs(br.T_max - Tb) else br.T_max
+    if G_of(a, T_start)[0] is None:
+        return None
+    return "zeroth-order", T_start
+
+
+def _state(th, P, name, x, T, G) -> StateData:
+    if x is None:  # background phase
+        return StateData(name, float("nan"), None, None, 0.0, G, T)
+    return StateData(name, x, float(th.quantity("r_plus", x, P)) if th.has("r_plus") else None,
+                     float(th.v(x, P)) if th.has("v") else None, float(th.S(x, P)),
+                     float(th.G(x, P)), T)
+
+
+def _transition(th, P, kind, T, a, b, names, branches, G_of, has_bg) -> Transition:
+    ga, xa = G_of(a, T)
+    gb, xb = G_of(b, T)
+    sa, sb = _state(th, P, names[a], xa, T, ga), _state(th, P, names[b], xb, T, gb)
+    dG = float(gb - ga)
+    if kind == "zeroth-order":
+        L = None if (xa is None or xb is None) else float(T * (sb.S - sa.S))
+        residual = 0.0
+    else:
+        L = float(T * (sb.S - sa.S))
+        residual = abs(dG) / (abs(ga) + abs(gb) + abs(T * sa.S) + 1e-300)
+        dG = 0.0 if kind != "zeroth-order" else dG
+    dv = None if (sa.v is None or sb.v is None) else float(sb.v - sa.v)
+    return Transition(kind, float(T), float(P), names[a], names[b], (sa, sb), L, dv, dG,
+                      float(residual))
+
+
+def isobar_json(res: IsobarResult) -> dict:
+    """JSON document of ``bhchem isobar`` (keys: pressure, branches, transitions, ...)."""
+    def state(s: StateData):
+        return {"phase": s.phase, "x": None if math.isnan(s.x) else s.x, "r": s.r, "v": s.v,
+                "S": s.S, "G": s.G}
+    return {
+        "pressure": res.pressure,
+        "parameters": res.parameters,
+        "branches": [{"index": b.index, "label": b.label, "stable": b.stable,
+                      "x_range": [b.x_min, b.x_max], "T_range": [b.T_min, b.T_max],
+                      "ends": list(b.ends)} for b in res.branches],
+        "background": res.background,
+        "crossings": [{"T": c.T, "between": list(c.branches), "G": c.G,
+                       "on_preferred": c.on_envelope} for c in res.crossings],
+        "transitions": [{"kind": t.kind, "T": t.T, "from": t.from_phase, "to": t.to_phase,
+                         "states": [state(s) for s in t.states],
+                         "latent_heat": t.latent_heat, "delta_v": t.delta_v,
+                         "delta_G": t.delta_G, "residual": t.residual} for t in res.transitions],
+        "preferred": [{"T_range": [lo, hi], "phase": ph} for lo, hi, ph in res.preferred],
+        "message": res.message,
+        "warnings": list(res.warnings),
+    }
+
+
+def isobar_text(res: IsobarResult) -> str:
+    """Plain-text report of ``bhchem isobar``."""
+    params = ", ".join(f"{k} = {v:g}" for k, v in res.parameters.items())
+    lines = [f"isobar P = {res.pressure:.12g} ({params})", f"  {res.message}", "  branches:"]
+    for b in res.branches:
+        lines.append(f"    [{b.index}] {b.label:<28} x in [{b.x_min:.6g}, {b.x_max:.6g}]  "
+                     f"T in [{b.T_min:.6g}, {b.T_max:.6g}]  ends: {b.ends[0]}/{b.ends[1]}")
+    if res.background:
+        lines.append(f"    background phase: {res.background}")
+    lines.append("  preferred phase:")
+    for lo, hi, ph in res.preferred:
+        lines.append(f"    T in [{lo:.10g}, {hi:.10g}]: {ph}")
+    lines.append("  transitions:" if res.transitions else "  no transition")
+    for t in res.transitions:
+        extra = ""
+        if t.kind == "first-order":
+            extra = f"  latent heat {t.latent_heat:.10g}, dv {t.delta_v:.10g}, residual {t.residual:.1e}"
+        elif t.kind == "zeroth-order":
+            extra = f"  jump dG = {t.delta_G:.10g}"
+        lines.append(f"    {t.kind:<13} T = {t.T:.12g}  {t.from_phase} -> {t.to_phase}{extra}")
+    for w in res.warnings:
+        lines.append(f"  WARNING: {w}")
+    return "\n".join(lines)
