@@ -249,3 +249,83 @@ def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool 
         object.__setattr__(pt, "equal_area_residual", equal_area_residual(th, T, P, x1, x2))
         object.__setattr__(pt, "clapeyron_residual", clapeyron_residual(th, P, T, x1, x2))
     return pt
+
+
+@dataclass(frozen=True)
+class CoexistenceCurve:
+    """Coexistence points at the requested pressures, and the pressures that failed."""
+
+    points: tuple
+    failed_pressures: tuple
+    message: str
+
+    @property
+    def complete(self) -> bool:
+        return not self.failed_pressures
+
+
+def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anchor: int = 8,
+                      checks: bool = False) -> CoexistenceCurve:
+    """Coexistence points of one first-order transition at many pressures.
+
+    A few anchor isobars (full isobar analysis) seed one vectorised Newton solve over
+    all pressures (guesses interpolated in s = sqrt|1 - P/P_c| when the line ends at
+    ``critical_point``, where the states separate like s; else in log P).  Pressures
+    within 1e-3 of P_c, and any where Newton fails, go to the bracketing near-critical
+    solver, then to a full isobar analysis.  A pressure that still fails is listed in
+    ``failed_pressures``, never dropped silently.
+    """
+    from .isobar import analyze_isobar
+    Ps = np.sort(np.asarray(pressures, float))
+    cp = critical_point
+
+    def coord(P):
+        return np.sqrt(np.abs(1 - np.asarray(P) / cp.P)) if cp is not None else np.log(P)
+
+    def direct(P):
+        if cp is not None:
+            res = coexistence_near_critical(th, cp.x, cp.P, P)
+            if res is not None:
+                return res[1], res[2]
+        tr = [t for t in analyze_isobar(th, P).transitions if t.kind == "first-order"]
+        if cp is not None:  # the transition of this line: the one whose T is nearest T_c
+            tr.sort(key=lambda t: abs(t.T - cp.T))
+        if tr:
+            return tuple(sorted((tr[0].states[0].x, tr[0].states[1].x)))
+        return None
+
+    near = np.abs(1 - Ps / cp.P) < 1e-3 if cp is not None else np.zeros(Ps.shape, bool)
+    far = Ps[~near]
+    solved = {}
+    if far.size:
+        anchors = np.unique(np.concatenate([np.geomspace(far[0], far[-1], min(n_anchor, far.size)),
+                                            far[[0, -1]]]))
+        aP, ax1, ax2 = [], [], []
+        for P in anchors:
+            pair = direct(P)
+            if pair is not None:
+                aP.append(P), ax1.append(pair[0]), ax2.append(pair[1])
+        if aP:
+            c, order = coord(np.array(aP)), None
+            order = np.argsort(c)
+            cf = coord(far)
+            g1 = np.exp(np.interp(cf, c[order], np.log(ax1)[order]))
+            g2 = np.exp(np.interp(cf, c[order], np.log(ax2)[order]))
+            a, b, ok = coexistence_newton(th, far, g1, g2)
+            for P, x1, x2, good in zip(far, a, b, ok):
+                if good:
+                    solved[float(P)] = (x1, x2)
+    failed = []
+    for P in Ps:
+        if float(P) in solved:
+            continue
+        pair = direct(P)
+        if pair is None:
+            failed.append(float(P))
+        else:
+            solved[float(P)] = pair
+    pts = tuple(make_point(th, P, *solved[P], checks) for P in sorted(solved))
+    msg = f"{len(pts)} of {len(Ps)} pressures solved"
+    if failed:
+        msg += f"; no coexistence found at {len(failed)} pressure(s)"
+    return CoexistenceCurve(points=pts, failed_pressures=tuple(failed), message=msg)

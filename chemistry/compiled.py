@@ -34,6 +34,9 @@ def _special_functions() -> dict:
 
 
 def _lambdify(args, expr) -> Callable:
+    # sympy's hypergeometric simplifications may leave exp_polar (branch bookkeeping);
+    # on the real line it is plain exp
+    expr = expr.replace(sp.exp_polar, sp.exp) if expr.has(sp.exp_polar) else expr
     modules = ["numpy"]
     if expr.has(sp.hyper):
         modules = [_special_functions(), "numpy"]

@@ -15,10 +15,12 @@ from .critical import find_critical_points
 
 
 def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
+    from .phases import takes_part_in_transition
     search = find_critical_points(th)
     points = []
     for cp in search.points:
         d = cp.to_dict()
+        d["on_preferred_branch"] = takes_part_in_transition(th, cp)
         d["state_variable"] = th.derivation.state.name
         if with_exponents:
             if cp.kind == "degenerate" or not cp.physical:
@@ -52,6 +54,9 @@ def critical_text(doc: dict) -> str:
         lines.append("  no critical point")
     for i, cp in enumerate(doc["critical_points"], 1):
         flag = "physical" if cp["physical"] else "UNPHYSICAL"
+        if cp.get("on_preferred_branch") is not None:
+            flag += ", on the globally preferred branch" if cp["on_preferred_branch"] else \
+                ", NOT on the globally preferred branch (no transition ends here)"
         lines.append(f"  [{i}] {cp['kind']}, {flag}")
         lines.append(f"      T_c = {_g(cp['T'])}   P_c = {_g(cp['P'])}   v_c = {_g(cp['v'])}")
         state = "" if cp["state_variable"] == "r" else f"{cp['state_variable']}_c = {_g(cp['x'])}   "

@@ -34,7 +34,7 @@ from dataclasses import asdict, dataclass, field
 import networkx as nx
 import numpy as np
 
-from .coexistence import (CoexistencePoint, coexistence_near_critical, coexistence_newton,
+from .coexistence import (CoexistencePoint, coexistence_curve, coexistence_near_critical,
                           make_point)
 from .compiled import Thermodynamics
 from .critical import find_critical_points
@@ -141,23 +141,13 @@ def _assemble_lines(anchors, isobars):
 
 
 # -- densification ------------------------------------------------------------------------
-def _dense_first_order(th, members, anchors, n_dense):
+def _dense_first_order(th, members, anchors, n_dense, cp=None):
+    """The line on a dense pressure grid between its first and last anchors."""
     ks = [k for k, _ in members]
-    Ps_anchor = np.array([anchors[k] for k in ks])
-    x1s = np.array([t.states[0].x for _, t in members])
-    x2s = np.array([t.states[1].x for _, t in members])
-    # keep the pair ordered small -> large
-    swap = x1s > x2s
-    x1s, x2s = np.where(swap, x2s, x1s), np.where(swap, x1s, x2s)
-    if len(ks) == 1:
-        return [make_point(th, Ps_anchor[0], x1s[0], x2s[0])]
-    Ps = np.geomspace(Ps_anchor[0], Ps_anchor[-1], n_dense)
-    lp = np.log(Ps_anchor)
-    g1 = np.exp(np.interp(np.log(Ps), lp, np.log(x1s)))
-    g2 = np.exp(np.interp(np.log(Ps), lp, np.log(x2s)))
-    a, b, ok = coexistence_newton(th, Ps, g1, g2)
-    pts = [make_point(th, P, x1, x2) for P, x1, x2, good in zip(Ps, a, b, ok) if good]
-    return pts
+    P0, P1 = anchors[ks[0]], anchors[ks[-1]]
+    Ps = np.geomspace(P0, P1, n_dense) if len(ks) > 1 else np.array([P0])
+    curve = coexistence_curve(th, Ps, critical_point=cp, checks=True)
+    return list(curve.points), curve.failed_pressures
 
 
 def _approach_critical(th, cp, P_last, direction):
@@ -278,7 +268,11 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
                 "high": _end(th, members, "high", k1, anchors, cps, raw)}
         line = PhaseLine(kind=kind, between=between, points=[], ends=ends)
         if kind == "first-order":
-            pts = _dense_first_order(th, members, anchors, n_dense)
+            cp_end = ends["high"].get("_cp") or ends["low"].get("_cp")
+            pts, failed = _dense_first_order(th, members, anchors, n_dense, cp_end)
+            if failed:
+                warnings.append(f"first-order line {between[0]}/{between[1]}: no coexistence "
+                                f"found at {len(failed)} of {n_dense} pressures (omitted)")
             for side in ("low", "high"):
                 if ends[side]["type"] == "critical point":
                     cp = ends[side]["_cp"]
@@ -328,6 +322,27 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
                         pressure_range=(lo, hi), lines=lines, critical_points=cps,
                         triple_points=triple_points, regions=regions, graph=graph,
                         structure=structure, structure_hash=h, message=msg, warnings=warnings)
+
+
+def takes_part_in_transition(th: Thermodynamics, cp, eps: float = 1e-4) -> bool | None:
+    """Whether a critical point lies on the globally preferred branch: just off P_c, on
+    the side where the isobar has a loop, the preferred phase has a first-order
+    transition whose coexisting states straddle x_c and whose T tends to T_c.
+    None for degenerate or unphysical points."""
+    from .critical import _count_extrema
+    if cp.kind == "degenerate" or not cp.physical:
+        return None
+    side = -1.0 if _count_extrema(th, cp.x, cp.P * (1 - 1e-3)) >= 2 else 1.0
+    P = cp.P * (1 + side * eps)
+    res = coexistence_near_critical(th, cp.x, cp.P, P)
+    if res is None:
+        return False
+    T, x1, x2 = res
+    iso = analyze_isobar(th, P)
+    for t in iso.transitions:
+        if t.kind == "first-order" and abs(t.T - T) <= 1e-8 * T:
+            return True
+    return False
 
 
 def _line_checks(pts: list[CoexistencePoint]) -> dict:
