@@ -316,15 +316,26 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
                 if T is not None:
                     crossings.append((T, i, j))
 
-    # the global minimum of G over all branches and the background
+    # the global minimum of G over the locally stable branches (C_P > 0) and the
+    # background: a C_P < 0 state is never the preferred phase
+    stable_rows = np.array([b.stable for b in branches] + ([True] if has_bg else []))
+    Genv = np.where(stable_rows[:, None], Gs, np.nan)
+    if not np.any(np.isfinite(Genv)):
+        from .errors import StateDomainError
+        raise StateDomainError(
+            f"no locally stable {th.family.name} state at P = {P:g}: every branch has C_P < 0")
     with np.errstate(invalid="ignore"):
-        Gmin_idx = np.where(np.all(np.isnan(Gs), axis=0), -1,
-                            np.nanargmin(np.where(np.isnan(Gs), np.inf, Gs), axis=0))
+        Gmin_idx = np.where(np.all(np.isnan(Genv), axis=0), -1,
+                            np.nanargmin(np.where(np.isnan(Genv), np.inf, Genv), axis=0))
     transitions, segments, warnings = [], [], []
-    start = Ts[0]
-    for k in range(len(Ts) - 1):
+    valid = np.nonzero(Gmin_idx >= 0)[0]
+    start = Ts[valid[0]]
+    for k in range(valid[0], valid[-1]):
         a, b = Gmin_idx[k], Gmin_idx[k + 1]
-        if a == b:
+        if a >= 0 and b < 0:
+            nxt = k + 1 + int(np.argmax(Gmin_idx[k + 1:] >= 0))
+            warnings.append(f"no locally stable state for T in ({Ts[k]:.6g}, {Ts[nxt]:.6g})")
+        if a == b or a < 0 or b < 0:
             continue
         T_edge = _locate_switch(th, P, branches, G_of, a, b, Ts[k], Ts[k + 1], has_bg)
         if T_edge is None:
@@ -335,7 +346,7 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
         segments.append((float(start), float(T_t), names[a]))
         start = T_t
         transitions.append(_transition(th, P, kind, T_t, a, b, names, branches, G_of, has_bg))
-    segments.append((float(start), float(Ts[-1]), names[Gmin_idx[-1]]))
+    segments.append((float(start), float(Ts[valid[-1]]), names[Gmin_idx[valid[-1]]]))
 
     # second order at a critical pressure
     for cp in critical_points or ():
