@@ -173,6 +173,60 @@ def _progress(args, what):
     return show
 
 
+def cmd_plot(args) -> int:
+    from .plots import make_plot, save
+    th = _bound(args)
+    kw = {}
+    if args.pressure:
+        P = [parse_pressure(v, th) for v in args.pressure]
+        if args.kind == "cp":
+            kw["pressure"] = P[0]
+        elif args.kind in ("gt", "tr"):
+            kw["pressures"] = P
+        else:
+            raise BhchemError(f"--pressure does not apply to a '{args.kind}' plot")
+    res = make_plot(args.kind, th, **kw)
+    path = save(res, args.output)
+    print(f"wrote {path}")
+    return 0
+
+
+def cmd_report(args) -> int:
+    from .report import write_report
+    th = _bound(args)
+    progress = _stage_progress(args)
+    path = write_report(th, args.output, digits=args.digits, force=args.force,
+                        progress=progress)
+    print(f"wrote {path}/ (report.md, tables.tex, results.json, figures)")
+    return 0
+
+
+def cmd_demo(args) -> int:
+    import os
+    from .compiled import bind
+    from .registry import load_family_file
+    from .report import write_report
+    here = os.path.dirname(os.path.abspath(__file__))
+    (fam,) = load_family_file(os.path.join(here, "demo", "layered_cloud_ads.py"))
+    th = bind(fam)
+    out = args.output or "bhchem-demo"
+    print(f"demo: {fam.name} ({fam.summary})")
+    print(f"      parameters {', '.join(f'{k}={v:g}' for k, v in th.values.items())}")
+    path = write_report(th, out, force=True, progress=_stage_progress(args))
+    print(f"wrote {path}/ -- open report.md; figures as PNG and PDF, tables.tex for a paper")
+    return 0
+
+
+def _stage_progress(args):
+    if getattr(args, "quiet", False) or not sys.stderr.isatty():
+        return None
+
+    def show(stage):
+        sys.stderr.write(f"\r{stage:<50}")
+        sys.stderr.flush()
+    return show
+
+
 def _add_family_args(p, json_help="machine-readable output"):
     p.add_argument("family", help="family name (see 'bhchem families')")
     p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
@@ -225,6 +279,36 @@ def build_parser() -> argparse.ArgumentParser:
                         "family's scales")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_phases)
+
+    from .plots import KINDS
+    p = sub.add_parser("plot", parents=[common], help="a figure: pv, gt, pt, tr or cp")
+    p.add_argument("kind", choices=KINDS, help="pv (isotherms), gt (G-T isobars), pt (phase "
+                   "diagram), tr (T-r isobars), cp (heat capacity)")
+    p.add_argument("family", help="family name")
+    p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
+                   help="parameter value (repeatable, or comma-separated)")
+    p.add_argument("-o", "--output", required=True, metavar="FILE",
+                   help="output file (.png, .pdf or .svg)")
+    p.add_argument("--pressure", action="append", metavar="P",
+                   help="pressure(s) for gt/tr/cp (absolute or like 0.5Pc; repeatable)")
+    p.set_defaults(func=cmd_plot)
+
+    p = sub.add_parser("report", parents=[common],
+                       help="report bundle: figures, report.md, tables.tex, results.json")
+    p.add_argument("family", help="family name")
+    p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
+                   help="parameter value (repeatable, or comma-separated)")
+    p.add_argument("-o", "--output", required=True, metavar="DIR", help="output folder")
+    p.add_argument("--digits", type=int, default=6, help="significant digits in tables (6)")
+    p.add_argument("--force", action="store_true", help="replace an existing folder")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(func=cmd_report)
+
+    p = sub.add_parser("demo", parents=[common],
+                       help="the whole job on a bundled invented scenario")
+    p.add_argument("-o", "--output", metavar="DIR", help="output folder (bhchem-demo)")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(func=cmd_demo)
     return parser
 
 

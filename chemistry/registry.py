@@ -71,6 +71,8 @@ def _discover() -> None:
                 continue
             module = importlib.import_module(f"models.{info.name}")
             for fam in _families_of(module, f"bundled module models/{info.name}.py"):
+                if not fam.source:
+                    object.__setattr__(fam, "source", getattr(module, "__file__", ""))
                 register(fam, f"bundled module models/{info.name}.py")
         for ep in _entry_points():
             try:
@@ -82,6 +84,9 @@ def _discover() -> None:
                 raise MalformedFamilyError(
                     f"entry point {ep.name} ({ep.value}) failed to load: {exc}") from None
             for fam in fams:
+                if not fam.source:
+                    mod = __import__("sys").modules.get(ep.value.split(":")[0])
+                    object.__setattr__(fam, "source", getattr(mod, "__file__", "") or ep.value)
                 register(fam, f"entry point {ep.name} ({ep.value})")
         _discovered = True
 

@@ -1,0 +1,182 @@
+"""Figures check content (the drawn data equal the computed values) and the report bundle."""
+import json
+import math
+import os
+import re
+
+import numpy as np
+import pytest
+
+from chemistry import bind
+from chemistry.cli import main
+from chemistry.critical import find_critical_points
+from chemistry.phases import phase_diagram
+from chemistry.plots import EmptyFigureError, make_plot, save
+
+PC = 1 / (96 * math.pi)
+TC = math.sqrt(6) / (18 * math.pi)
+
+
+@pytest.fixture(scope="module")
+def rn():
+    return bind("rn-ads", Q=1.0)
+
+
+def _nonblank(path):
+    import matplotlib.image as mpimg
+    img = mpimg.imread(path)
+    assert img.ndim == 3 and img.shape[0] > 200 and img.shape[1] > 200
+    assert float(np.std(img[..., :3])) > 0.05  # not a blank canvas
+
+
+def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
+    pd = phase_diagram(rn)
+    res = make_plot("pt", rn, diagram=pd)
+    lines = {k: v for k, v in res.data.items() if k.startswith("line")}
+    assert len(lines) == len(pd.lines) == 1
+    (drawn,) = lines.values()
+    np.testing.assert_array_equal(drawn, np.array(pd.lines[0].points))
+    # the matplotlib artist carries exactly that curve
+    ax = res.figure.axes[0]
+    art = [ln for ln in ax.get_lines() if len(ln.get_xdata()) == len(drawn)]
+    np.testing.assert_allclose(art[0].get_xdata(), drawn[:, 0])
+    assert res.data["critical_points"][0] == pytest.approx([TC, PC], rel=1e-12)
+    save(res, tmp_path / "pt.png")
+    _nonblank(tmp_path / "pt.png")
+
+
+def test_pv_isotherms_are_the_equation_of_state(rn, tmp_path):
+    """Every drawn isotherm point satisfies P = T/v - 1/(2 pi v^2) + 2/(pi v^4)
+    (Kubiznak & Mann 2012), and the equal-area segments sit at the coexistence pressure."""
+    res = make_plot("pv", rn)
+    Ts = [f * TC for f in (0.85, 0.92, 0.97, 1.0, 1.05, 1.12)]
+    for i, T in enumerate(Ts):
+        v, P = res.data[f"isotherm_{i}"].T
+        ok = np.isfinite(v)
+        ref = T / v[ok] - 1 / (2 * np.pi * v[ok] ** 2) + 2 / (np.pi * v[ok] ** 4)
+        np.testing.assert_allclose(P[ok], ref, rtol=1e-12)
+    for i in range(3):  # subcritical isotherms have the Maxwell segment
+        seg = res.data[f"equal_area_{i}"]
+        p = seg[0, 1] / PC
+        T = TC * math.sqrt(p * (3 - math.sqrt(p)) / 2)  # closed-form coexistence curve
+        assert T == pytest.approx(Ts[i], rel=1e-9)
+    save(res, tmp_path / "pv.svg")
+    assert (tmp_path / "pv.svg").read_text().startswith("<?xml")
+
+
+def test_gt_panels_show_swallowtail_and_preferred_branch(rn, tmp_path):
+    res = make_plot("gt", rn)
+    # below P_c: three branches (a swallowtail) and the preferred curve is the minimum
+    branches = [k for k in res.data if k.startswith("P0_branch")]
+    assert len(branches) == 3
+    pref = res.data["P0_preferred"]
+    for k in branches:
+        T, G = res.data[k].T
+        Gp = np.interp(T, pref[:, 0], pref[:, 1], left=np.nan, right=np.nan)
+        ok = np.isfinite(Gp)
+        assert np.all(G[ok] >= Gp[ok] - 1e-9 * np.abs(Gp[ok]).max())
+    save(res, tmp_path / "gt.png")
+    _nonblank(tmp_path / "gt.png")
+
+
+@pytest.mark.parametrize("kind", ["tr", "cp"])
+def test_tr_and_cp(rn, kind, tmp_path):
+    res = make_plot(kind, rn)
+    for k, arr in res.data.items():
+        x, y = arr.T
+        ref = rn.T(x, 0.5 * PC if kind == "cp" else None) if False else None  # noqa
+    if kind == "tr":
+        x, T = res.data["P0_branch0"].T
+        np.testing.assert_allclose(T, rn.T(x, 0.5 * PC), rtol=1e-14)
+    else:
+        x, C = res.data["branch0"].T
+        np.testing.assert_allclose(C, rn.quantity("C_P", x, 0.5 * PC), rtol=1e-14)
+    save(res, tmp_path / f"{kind}.png")
+    _nonblank(tmp_path / f"{kind}.png")
+
+
+def test_empty_figure_is_refused():
+    th = bind("schwarzschild-ads")
+    with pytest.raises(EmptyFigureError):
+        make_plot("pt", th, diagram=_empty_diagram(th))
+
+
+def _empty_diagram(th):
+    pd = phase_diagram(th, pressure_range=(1e-3, 1e-2), n_anchor=4)
+    pd.lines = []
+    return pd
+
+
+def test_cli_plot_bad_output(capsys, tmp_path):
+    assert main(["plot", "pt", "rn-ads", "-o", str(tmp_path / "x.jpg")]) == 2
+    assert "use a .png, .pdf or .svg" in capsys.readouterr().err
+    assert not list(tmp_path.iterdir())  # nothing half written
+
+
+# -- the report bundle -----------------------------------------------------------------
+@pytest.fixture(scope="module")
+def bundle(tmp_path_factory):
+    out = tmp_path_factory.mktemp("rep") / "rn"
+    os.environ["SOURCE_DATE_EPOCH"] = "1700000000"
+    try:
+        assert main(["report", "rn-ads", "-p", "Q=1", "-o", str(out), "--quiet"]) == 0
+    finally:
+        os.environ.pop("SOURCE_DATE_EPOCH")
+    return out
+
+
+def test_report_bundle_contents(bundle):
+    names = sorted(p.name for p in bundle.iterdir())
+    for kind in ("pv", "gt", "pt", "tr", "cp"):
+        assert f"{kind}.png" in names and f"{kind}.pdf" in names
+    for f in ("report.md", "tables.tex", "results.json"):
+        assert f in names
+    md = (bundle / "report.md").read_text()
+    assert "![P-T phase diagram](pt.png)" in md and "vdw-like" in md
+
+
+def test_results_json_round_trips_with_provenance(bundle):
+    text = (bundle / "results.json").read_text()
+    doc = json.loads(text)
+    from chemistry.report import dumps
+    assert dumps(doc) == text  # round trip, byte for byte
+    prov = doc["provenance"]
+    assert prov["family_source"] == "rn_ads.py" and len(prov["family_source_sha256"]) == 64
+    assert prov["date"] == "2023-11-14T22:13:20+00:00"
+    cp = doc["critical"]["critical_points"][0]
+    assert cp["T"] == pytest.approx(TC, rel=1e-12)
+    assert doc["first_law"]["holds"] and doc["smarr"]["holds"]
+
+
+def test_tables_tex_balanced_and_equal_to_json(bundle):
+    tex = (bundle / "tables.tex").read_text()
+    for env in ("table", "tabular"):
+        assert tex.count(f"\\begin{{{env}}}") == tex.count(f"\\end{{{env}}}") >= 1
+    assert tex.count("\\toprule") == tex.count("\\bottomrule")
+    assert tex.count("{") == tex.count("}")
+    doc = json.loads((bundle / "results.json").read_text())
+    cp = doc["critical"]["critical_points"][0]
+    row = next(ln for ln in tex.splitlines() if ln.startswith("1 & standard"))
+    nums = [float(n) for n in re.findall(r"\$([-0-9.]+)\$", row)]
+    for key, value in zip(("T", "P", "v", "ratio"), nums):
+        assert value == pytest.approx(cp[key], rel=5e-6)  # 6 significant digits
+    assert "\\label{tab:rn-ads-exponents}" in tex
+
+
+def test_report_refuses_existing_folder_and_leaves_nothing(tmp_path, capsys):
+    out = tmp_path / "exists"
+    out.mkdir()
+    assert main(["report", "rn-ads", "-o", str(out), "--quiet"]) == 2
+    assert "exists" in capsys.readouterr().err
+    assert list(tmp_path.iterdir()) == [out]
+
+
+def test_failed_report_leaves_no_folder(tmp_path, monkeypatch):
+    import chemistry.report as rep
+
+    def boom(*a, **k):
+        raise RuntimeError("simulated failure in the middle")
+    monkeypatch.setattr(rep, "tables_tex", boom)
+    with pytest.raises(RuntimeError):
+        rep.write_report(bind("rn-ads"), tmp_path / "out")
+    assert list(tmp_path.iterdir()) == []
