@@ -28,18 +28,55 @@ def _special_functions() -> dict:
     from .special import hyp2f1_real  # local: keeps scipy out of the cold path
 
     def hyper(a, b, z):
+        if len(a) != 2 or len(b) != 1:
+            raise NotImplementedError(
+                f"only the Gauss function 2F1 is supported numerically, not {len(a)}F{len(b)}")
         return hyp2f1_real(a[0], a[1], b[0], z)
 
     return {"hyper": hyper}
+
+
+def _broadcast_reduce(op):
+    def f(seq, axis=0):
+        arrays = np.broadcast_arrays(*[np.asarray(s, dtype=float) for s in seq])
+        out = arrays[0]
+        for a in arrays[1:]:
+            out = op(out, a)
+        return out
+    return f
+
+
+#: numpy's amax/amin on a tuple of differently shaped operands fails: broadcast first
+_BROADCASTING = {"amax": _broadcast_reduce(np.maximum), "amin": _broadcast_reduce(np.minimum)}
+
+
+def _lambdify_condition(args, expr) -> Callable:
+    """Boolean combinations are compiled piecewise so that operands of different shapes
+    (a parameter-only clause next to a state-dependent one) broadcast."""
+    if isinstance(expr, (sp.And, sp.Or)):
+        parts = [_lambdify_condition(args, a) for a in expr.args]
+        op = np.logical_and if isinstance(expr, sp.And) else np.logical_or
+
+        def combined(*a):
+            out = parts[0](*a)
+            for p in parts[1:]:
+                out = op(out, p(*a))
+            return out
+        return combined
+    if isinstance(expr, sp.Not):
+        inner = _lambdify_condition(args, expr.args[0])
+        return lambda *a: np.logical_not(inner(*a))
+    f = _lambdify(args, expr)
+    return lambda *a: np.asarray(f(*a), dtype=bool)
 
 
 def _lambdify(args, expr) -> Callable:
     # sympy's hypergeometric simplifications may leave exp_polar (branch bookkeeping);
     # on the real line it is plain exp
     expr = expr.replace(sp.exp_polar, sp.exp) if expr.has(sp.exp_polar) else expr
-    modules = ["numpy"]
+    modules = [_BROADCASTING, "numpy"]
     if expr.has(sp.hyper):
-        modules = [_special_functions(), "numpy"]
+        modules = [_special_functions(), _BROADCASTING, "numpy"]
     f = sp.lambdify(args, expr, modules=modules, cse=True)
     if expr.free_symbols & {args[0], args[1]}:
         return f
@@ -66,7 +103,10 @@ class CompiledDerivation:
         f = self._funcs.get(name)
         if f is None:
             expr = self._expression(name)
-            f = _lambdify(self.derivation.arguments, expr)
+            if name.startswith("condition_"):
+                f = _lambdify_condition(self.derivation.arguments, expr)
+            else:
+                f = _lambdify(self.derivation.arguments, expr)
             with self._lock:
                 self._funcs[name] = f
         return f

@@ -112,6 +112,9 @@ class Derivation:
     conditions: tuple
     eos: EquationOfState
     notes: tuple = field(default_factory=tuple)
+    #: M and S exactly as declared (before any simplification), for the checks
+    enthalpy_declared: sp.Expr | None = None
+    entropy_declared: sp.Expr | None = None
 
     @property
     def arguments(self) -> tuple:
@@ -128,6 +131,15 @@ class Derivation:
 
 
 def tidy(expr: sp.Expr, variables) -> sp.Expr:
+    """See _tidy; also removes exp_polar, which sympy's hypergeometric simplification
+    leaves as branch bookkeeping and which is plain exp on the real line."""
+    out = _tidy(expr, variables)
+    if isinstance(out, sp.Basic) and out.has(sp.exp_polar):
+        out = out.replace(sp.exp_polar, sp.exp)
+    return out
+
+
+def _tidy(expr: sp.Expr, variables) -> sp.Expr:
     """A cheap, predictable normal form for display and compilation.
 
     Rational functions of the variables are put over a common denominator,
@@ -283,7 +295,8 @@ def _derive(family: Family, dim: int, vals: dict) -> Derivation:
                       parameters=params, length_dimensions=length_dims,
                       quantities=quantities, temperature_derived=T_derived,
                       volume_declared=prep(family.volume, "volume"),
-                      conditions=tuple(conditions), eos=eos, notes=tuple(notes))
+                      conditions=tuple(conditions), eos=eos, notes=tuple(notes),
+                      enthalpy_declared=M, entropy_declared=S)
 
 
 def _equation_of_state(T, v, x, variables) -> EquationOfState:
