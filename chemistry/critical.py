@@ -89,6 +89,7 @@ class CriticalPoint:
     residuals: dict
     scale_free: dict
     on_preferred_branch: bool | None = None
+    note: str = ""
 
     def to_dict(self) -> dict:
         return asdict(self)
@@ -153,17 +154,25 @@ def find_critical_points(family, method: str = "auto", *, pressure_range=None,
                              f"to a polynomial; use method='scanned'")
     if poly is not None:
         candidates, note = poly
+        exact_T = {(c[0], c[1]): (c[2], c[3]) for c in candidates}
+        candidates = [(c[0], c[1]) for c in candidates]
         completeness, scanned = "certified", None
         method_text = ("exact elimination of P, real-root isolation of the resulting "
                        "polynomial in " + th.derivation.state.name + note)
     else:
         candidates, scanned = _scanned_candidates(th, pressure_range, state_range)
+        exact_T = {}
         completeness = "scanned"
         method_text = ("fold detection of the extrema of T(x) over a logarithmic (x, P) "
                        "grid, refined by 2D Newton")
     points = []
-    for x_c, P_c in candidates:
-        cp = _assemble(th, x_c, P_c)
+    for i, (x_c, P_c) in enumerate(candidates):
+        # the fold test must not step over a neighbouring solution: scale its steps
+        others = [(x, p) for j, (x, p) in enumerate(candidates) if j != i]
+        gap_P = min((abs(p / P_c - 1) for _, p in others), default=1.0)
+        gap_x = min((abs(math.log(x / x_c)) for x, _ in others if x > 0), default=1.0)
+        T_known, isolated = exact_T.get((x_c, P_c), (None, False))
+        cp = _assemble(th, x_c, P_c, gap_P, gap_x, T_known, isolated)
         if cp is not None and not any(_same(cp, q) for q in points):
             points.append(cp)
     points.sort(key=lambda p: (p.P, p.x))
@@ -191,8 +200,9 @@ def _exact(value: float) -> sp.Rational:
     return sp.Rational(float(value))  # the exact binary value of the float
 
 
-def _certified_candidates(th: Thermodynamics):
-    """Candidates (x_c, P_c) from exact elimination, or None if not applicable."""
+def _isotherm_form(th: Thermodynamics):
+    """(u, w, x) with P(T, x) = T u(x) - w(x) at the bound parameter values (exact
+    rationals), or None when T is not linear in P or u, w are not rational in x."""
     der = th.derivation
     if der.eos.form == "parametric":
         return None
@@ -200,44 +210,69 @@ def _certified_candidates(th: Thermodynamics):
     subs = {s: _exact(th.values[s.name]) for s in der.parameters}
     T = sp.sympify(der.quantities["T"]).subs(subs)
     B = sp.diff(T, P)
-    A = sp.expand(T - B * P)
-    if sp.diff(B, P) != 0:
+    if B == 0 or sp.diff(B, P) != 0:
         return None
+    A = sp.expand(T - B * P)
+    u = sp.cancel(1 / B)
+    w = sp.cancel(A / B)
     try:
-        if not (A.is_rational_function(x) and B.is_rational_function(x)):
+        if not (u.is_rational_function(x) and w.is_rational_function(x)):
             return None
     except (TypeError, ValueError):
         return None
-    A1, A2 = sp.diff(A, x), sp.diff(A, x, 2)
-    B1, B2 = sp.diff(B, x), sp.diff(B, x, 2)
-    num, den = sp.fraction(sp.cancel(sp.together(A2 * B1 - A1 * B2)))
+    return u, w, x
+
+
+def _certified_candidates(th: Thermodynamics):
+    """Candidates (x_c, P_c, T_c, isolated) from exact elimination, or None.
+
+    On the isotherm P(T, x) = T u(x) - w(x) (regular even where T(x, P) has a removable
+    singularity, as at an isolated critical point), P_x = P_xx = 0 gives
+    T u' = w', T u'' = w''; eliminating T leaves num(u'' w' - u' w'') = 0.  Where u' = 0
+    (the mixed derivative d2P/dT dx vanishes) a solution needs w' = 0 too and then
+    T = w''/u'': an isolated critical point.
+    """
+    form = _isotherm_form(th)
+    if form is None:
+        return None
+    u, w, x = form
+    u1, u2 = sp.diff(u, x), sp.diff(u, x, 2)
+    w1, w2 = sp.diff(w, x), sp.diff(w, x, 2)
+    num, den = sp.fraction(sp.cancel(sp.together(u2 * w1 - u1 * w2)))
     num = sp.expand(num)
     if num == 0:
         return [], " (the conditions hold identically in x: no isolated solution)"
     poly = sp.Poly(num, x)
     coeffs = [sp.Rational(sp.Float(c.evalf(60), 60)) for c in poly.all_coeffs()]
-    qpoly = sp.Poly(coeffs, x, domain=sp.QQ)
+    # the square-free part: a repeated root (a degenerate solution) is isolated once
+    qpoly = sp.Poly(coeffs, x, domain=sp.QQ).sqf_part()
     out = []
     for (lo, hi), _mult in qpoly.intervals():
         if hi <= 0:
             continue
-        lo, hi = qpoly.refine_root(lo, hi, eps=max(abs(hi), abs(lo)) * sp.Rational(1, 10**25))
+        lo, hi = qpoly.refine_root(lo, hi, eps=max(abs(hi), abs(lo)) * sp.Rational(1, 10**30))
         xr = (lo + hi) / 2
         if xr <= 0:
             continue
-        b1 = sp.N(B1.subs(x, xr), 40)
-        a1 = sp.N(A1.subs(x, xr), 40)
-        scale_b = abs(sp.N(B.subs(x, xr) / xr, 40)) + 1e-300
-        if abs(b1) > 1e-25 * scale_b:
-            Pr = -a1 / b1
+        ev = lambda e: sp.N(e.subs(x, xr), 50)  # noqa: E731
+        a1, b1 = ev(u1), ev(w1)
+        scale_u = abs(ev(u)) / xr + abs(ev(u2)) * xr + sp.Float(1e-300)
+        scale_w = abs(ev(w)) / xr + abs(ev(w2)) * xr + sp.Float(1e-300)
+        isolated = False
+        if abs(a1) > 1e-22 * scale_u:
+            Tr = b1 / a1
         else:
-            b2 = sp.N(B2.subs(x, xr), 40)
-            if b2 == 0 or abs(a1) > 1e-20 * abs(sp.N(A.subs(x, xr) / xr, 40)):
+            if abs(b1) > 1e-22 * scale_w:
+                continue  # u' = 0 but w' != 0: no solution
+            a2 = ev(u2)
+            if a2 == 0:
                 continue
-            Pr = -sp.N(A2.subs(x, xr), 40) / b2
-        if not Pr.is_real:
+            Tr = ev(w2) / a2
+            isolated = True
+        Pr = Tr * ev(u) - ev(w)
+        if not (Tr.is_real and Pr.is_real):
             continue
-        out.append((float(xr), float(Pr)))
+        out.append((float(xr), float(Pr), float(Tr), isolated))
     return out, ""
 
 
@@ -264,6 +299,7 @@ def _scanned_candidates(th: Thermodynamics, pressure_range=None, state_range=Non
             guesses.append((math.sqrt(xs[a] * xs[b + 1]), Ps[col]))
         for a in idx:  # a pair merging within one grid cell
             guesses.append((xs[a], Ps[col]))
+    guesses += _spinodal_extrema_guesses(th, xlo, xhi, Plo, Phi, xs, Ps, F)
     found = []
     for g in guesses:
         sol = _newton(th, *g)
@@ -272,6 +308,45 @@ def _scanned_candidates(th: Thermodynamics, pressure_range=None, state_range=Non
                        for f in found):
                 found.append(sol)
     return found, {"x": [float(xlo), float(xhi)], "P": [float(Plo), float(Phi)]}
+
+
+def _spinodal_extrema_guesses(th, xlo, xhi, Plo, Phi, xs, Ps, F, n_fine: int = 40000):
+    """Critical points are the extrema of the spinodal curve P*(x) defined by T_x(x, P*) = 0
+    (there dP*/dx = -T_xx/T_xP = 0).  Extrema of a 1D curve on a fine grid are found
+    even when two critical points are close together, where counting extrema of T(x)
+    on a pressure grid can step over them."""
+    guesses = []
+    if th.derivation.eos.form != "parametric":
+        # T linear in P: the spinodal curve is explicit, P* = P0 - T_x(x, P0) / T_xP(x, P0)
+        xf = np.geomspace(xlo, xhi, n_fine)
+        P0 = math.sqrt(Plo * Phi)
+        with np.errstate(all="ignore"):
+            Pst = P0 - th.d("T", "x", xf, P0) / th.d("T", "xP", xf, P0)
+        curves = [(xf, Pst)]
+    else:
+        # general: the roots of T_x along P at each x of the coarse grid (first two)
+        curves = []
+        sg = np.where(F >= 0, 1.0, -1.0)
+        ch = (sg[:, 1:] * sg[:, :-1] < 0) & np.isfinite(F[:, 1:]) & np.isfinite(F[:, :-1])
+        for k in range(2):
+            Pk = np.full(len(xs), np.nan)
+            for i in range(len(xs)):
+                idx = np.nonzero(ch[i])[0]
+                if len(idx) > k:
+                    j = idx[k]
+                    f0, f1 = F[i, j], F[i, j + 1]
+                    w = f0 / (f0 - f1)
+                    Pk[i] = math.exp(math.log(Ps[j]) + w * math.log(Ps[j + 1] / Ps[j]))
+            curves.append((xs, Pk))
+    for xg, Pg in curves:
+        ok = np.isfinite(Pg) & (Pg > Plo) & (Pg < Phi)
+        dP = np.diff(Pg)
+        good = ok[1:] & ok[:-1]
+        s = np.where(dP >= 0, 1.0, -1.0)
+        idx = np.nonzero(good[1:] & good[:-1] & (s[1:] * s[:-1] < 0))[0]
+        for i in idx[:200]:
+            guesses.append((float(xg[i + 1]), float(Pg[i + 1])))
+    return guesses
 
 
 def _newton(th: Thermodynamics, x: float, P: float, max_iter: int = 60):
@@ -313,41 +388,90 @@ def _residuals(th: Thermodynamics, x: float, P: float) -> dict:
     return {"x*dT/dx/T": abs(x * Tx) / scale, "x^2*d2T/dx2/T": abs(x * x * Txx) / scale}
 
 
+def _isotherm_residuals(th: Thermodynamics, x_c: float, P_c: float, T_c: float) -> dict:
+    """x P_x / P and x^2 P_xx / P on the isotherm P = T u - w (60 digits)."""
+    u, w, x = _isotherm_form(th)
+    xr, Tr = sp.Rational(x_c), sp.Rational(T_c)
+    ev = lambda e: sp.N(e.subs(x, xr), 60)  # noqa: E731
+    Pval = abs(Tr * ev(u) - ev(w)) + sp.Float(1e-300)
+    r1 = abs(xr * (Tr * ev(sp.diff(u, x)) - ev(sp.diff(w, x)))) / Pval
+    r2 = abs(xr**2 * (Tr * ev(sp.diff(u, x, 2)) - ev(sp.diff(w, x, 2)))) / Pval
+    return {"x*dP/dx/P": float(r1), "x^2*d2P/dx2/P": float(r2)}
+
+
 def _count_extrema(th: Thermodynamics, x_c: float, P: float, half_width: float = 0.7) -> int:
-    xs = x_c * np.exp(np.linspace(-half_width, half_width, 6001))
+    xs = x_c * np.exp(np.linspace(-half_width, half_width, 20001))
     F = th.d("T", "x", xs, P)
     s = np.where(F[np.isfinite(F)] >= 0, 1.0, -1.0)
     return int(np.sum(s[1:] * s[:-1] < 0))
 
 
-def _classify(th: Thermodynamics, x_c: float, P_c: float) -> str:
+def _classify(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
+              gap_x: float = 1.0) -> str:
     TP = float(th.d("T", "P", x_c, P_c))
     TxP = float(th.d("T", "xP", x_c, P_c))
     if TP != 0 and abs(x_c * TxP / TP) < ISOLATED_TOLERANCE:
         return "isolated"
-    for eps in (1e-3, 1e-2, 3e-2):
-        below = _count_extrema(th, x_c, P_c * (1 - eps))
-        above = _count_extrema(th, x_c, P_c * (1 + eps))
+    width = min(0.7, 0.45 * gap_x)
+    top = min(3e-2, gap_P / 3)
+    for eps in sorted({min(e, top) for e in (top * 1e-4, top * 1e-2, 1e-3, 1e-2, 3e-2)}):
+        if eps <= 1e-14:
+            continue
+        below = _count_extrema(th, x_c, P_c * (1 - eps), width)
+        above = _count_extrema(th, x_c, P_c * (1 + eps), width)
         if abs(below - above) == 2:
             return "standard"
     return "degenerate"
 
 
-def _assemble(th: Thermodynamics, x_c: float, P_c: float) -> CriticalPoint | None:
+def _high_precision(th: Thermodynamics, name: str, x_c: float, P_c: float) -> float:
+    """A quantity at a removable singularity of its compiled form (0/0 at an isolated
+    critical point): cancel symbolically at P_c, then evaluate at 60 digits."""
+    der = th.derivation
+    subs = {s: _exact(th.values[s.name]) for s in der.parameters}
+    e = sp.cancel(sp.together(sp.sympify(der.quantities[name]).subs(subs)
+                              .subs(sy.P, sp.Rational(P_c))))
+    return float(sp.N(e.subs(der.state, sp.Rational(x_c)), 60))
+
+
+def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
+              gap_x: float = 1.0, T_known=None, isolated: bool = False) -> CriticalPoint | None:
     if not (np.isfinite(x_c) and np.isfinite(P_c)) or x_c <= 0:
         return None
     T_c = float(th.T(x_c, P_c))
+    G_c = float(th.G(x_c, P_c))
+    # an isolated critical point sits on a removable singularity of T(x, P): the compiled
+    # value there is 0/0 garbage, so use the exact T_c and a cancelled G
+    singular = isolated or not (np.isfinite(T_c) and np.isfinite(G_c))
+    if T_known is not None:
+        T_c = float(T_known)
+    if singular and T_known is not None:
+        G_c = float(th.M(x_c, P_c) - T_c * th.S(x_c, P_c))  # M and S are regular there
     if not np.isfinite(T_c):
         return None
     v_c = float(th.v(x_c, P_c)) if th.has("v") else None
     r_c = float(th.quantity("r_plus", x_c, P_c)) if th.has("r_plus") else None
-    G_c = float(th.G(x_c, P_c))
     ratio = P_c * v_c / T_c if (v_c is not None and T_c != 0) else None
-    physical = bool(T_c > 0 and P_c > 0 and th.physical(x_c, P_c))
-    kind = _classify(th, x_c, P_c)
+    if singular:
+        # the compiled functions are 0/0 here: judge the domain just beside the point
+        physical = bool(T_c > 0 and P_c > 0 and th.physical(x_c * (1 + 1e-6), P_c))
+        kind = "isolated" if isolated else "degenerate"
+        residuals = _isotherm_residuals(th, x_c, P_c, T_c)
+    else:
+        physical = bool(T_c > 0 and P_c > 0 and th.physical(x_c, P_c))
+        kind = "isolated" if isolated else _classify(th, x_c, P_c, gap_P, gap_x)
+        residuals = _residuals(th, x_c, P_c)
+    note = ""
+    if not physical and T_c > 0 and P_c > 0:
+        # a point on the edge of the declared domain (a condition holding with equality,
+        # decided by rounding) belongs to its closure: test the neighbourhood
+        d = 1e-7
+        near = [(x_c * (1 + a * d), P_c * (1 + b * d)) for a in (-1, 0, 1) for b in (-1, 0, 1)]
+        if any(bool(th.physical(xx, pp)) for xx, pp in near):
+            physical = True
+            note = "on the boundary of the declared physical domain"
     cp = CriticalPoint(T=T_c, P=P_c, v=v_c, x=x_c, r=r_c, G=G_c, ratio=ratio, kind=kind,
-                       physical=physical, residuals=_residuals(th, x_c, P_c),
-                       scale_free={})
+                       physical=physical, residuals=residuals, scale_free={}, note=note)
     object.__setattr__(cp, "scale_free", scale_free_values(th, cp))
     return cp
 

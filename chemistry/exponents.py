@@ -80,7 +80,24 @@ class ExponentResult:
 
 
 def _series_coefficients(th: Thermodynamics, cp: CriticalPoint, jmax: int = 5) -> dict:
-    """a_ij of P/P_c in t = T/T_c - 1, omega = x/x_c - 1 (i <= 1, j <= jmax)."""
+    """a_ij of P/P_c in t = T/T_c - 1, omega = x/x_c - 1 (i <= 1, j <= jmax).
+
+    Closed equations of state: directly from P = T u(x) - w(x) (regular even at an
+    isolated critical point, where T(x, P) has a removable singularity); otherwise by
+    implicit differentiation of T(x, P) = T."""
+    from .critical import _isotherm_form
+    form = _isotherm_form(th)
+    if form is not None:
+        u, w, x = form
+        xr, Tr, Pr = sp.Rational(cp.x), sp.Rational(cp.T), sp.Rational(cp.P)
+        out = {}
+        for j in range(0, jmax + 1):
+            uj = sp.N(sp.diff(u, x, j).subs(x, xr), 50)
+            wj = sp.N(sp.diff(w, x, j).subs(x, xr), 50)
+            if j > 0:
+                out[(0, j)] = float(xr**j * (Tr * uj - wj) / (math.factorial(j) * Pr))
+            out[(1, j)] = float(Tr * xr**j * uj / (math.factorial(j) * Pr))
+        return out
     der = th.derivation
     x, P = der.state, sy.P
     Tv = sp.Symbol("T_var", positive=True)
@@ -246,6 +263,17 @@ def _fit_beta(th, cp) -> FittedExponent:
                           "coexisting volumes |v2 - v1|/v_c vs |1 - T/T_c| (equal-area on isobars)")
 
 
+def _safe(fit, th, cp) -> FittedExponent:
+    """A fit that cannot be done says so rather than raising or returning noise."""
+    try:
+        res = fit(th, cp)
+    except (ValueError, ZeroDivisionError, FloatingPointError, np.linalg.LinAlgError) as exc:
+        return FittedExponent(None, None, None, f"fit not possible: {exc}")
+    if res.value is not None and not (np.isfinite(res.value) and np.isfinite(res.uncertainty)):
+        return FittedExponent(None, None, res.fit_range, "fit gave a non-finite value")
+    return res
+
+
 def critical_exponents(th: Thermodynamics, cp: CriticalPoint) -> ExponentResult:
     """Exact and fitted exponents at a critical point (see module docstring)."""
     exact, coeffs, orders = exact_exponents(th, cp)
@@ -255,9 +283,15 @@ def critical_exponents(th: Thermodynamics, cp: CriticalPoint) -> ExponentResult:
         None, None, None,
         "C_V vanishes identically: alpha = 0, nothing to fit" if cv_zero
         else "C_V is finite at the critical point: alpha = 0 (not fitted)")
-    fitted["beta"] = _fit_beta(th, cp)
-    fitted["gamma"] = _fit_gamma(th, cp)
-    fitted["delta"] = _fit_delta(th, cp)
+    if cp.kind == "isolated":
+        why = ("isolated critical point: T(x, P) has a removable singularity at x_c and every "
+               "isotherm passes through it; {} is taken from the series only")
+        fitted["beta"] = FittedExponent(None, None, None, why.format("beta"))
+        fitted["gamma"] = FittedExponent(None, None, None, why.format("gamma"))
+    else:
+        fitted["beta"] = _safe(_fit_beta, th, cp)
+        fitted["gamma"] = _safe(_fit_gamma, th, cp)
+    fitted["delta"] = _safe(_fit_delta, th, cp)
     disagreements = []
     for k in ("beta", "gamma", "delta"):
         f = fitted[k]

@@ -371,7 +371,14 @@ def _end(th, members, side, k, anchors, cps, raw) -> dict:
                 xs = [s.x for s in t.states]
                 if min(xs) <= cp.x * 1.5 and max(xs) >= cp.x / 1.5:
                     return {"type": "critical point", "P": cp.P, "T": cp.T, "_cp": cp}
-    # another line ending or starting in the same gap: triple or terminal point
+    # locate the end precisely (bisection in P on "does this transition still exist"),
+    # then look for a triple point there: three states with equal T and G
+    P_end, t_end, iso_end = _bisect_end(th, t, P_in, P_out)
+    if t.kind in ("first-order", "hawking-page"):
+        tp = _triple_at(th, t_end, iso_end)
+        if tp is not None:
+            return {"type": "triple point", "P": tp.P, "T": tp.T, "_tp": tp}
+    # another line ending or starting in the same gap: terminal point
     others = []
     for m in raw:
         if m is members:
@@ -390,8 +397,60 @@ def _end(th, members, side, k, anchors, cps, raw) -> dict:
         return {"type": "terminal point", "P": 0.5 * (lo_gap + hi_gap), "T": t.T,
                 "note": "where a zeroth-order line meets another line (located to the "
                         "anchor spacing)"}
-    return {"type": "vanishes", "P": P_in, "T": t.T,
-            "note": "the transition disappears between anchors without another line"}
+    return {"type": "vanishes", "P": P_end, "T": t_end.T,
+            "note": "the transition disappears here without meeting another line"}
+
+
+def _bisect_end(th, t, P_in, P_out, rel: float = 1e-9, max_iter: int = 60):
+    """Bisection (geometric) between an anchor where transition ``t`` exists and one where
+    it does not; returns (P, transition, isobar) on the existing side, closest to the end."""
+    best_iso = None
+    lo, hi = P_in, P_out
+    t_cur = t
+    for _ in range(max_iter):
+        mid = math.sqrt(lo * hi)
+        iso = analyze_isobar(th, mid)
+        match = next((u for u in iso.transitions if _continuous(t_cur, u)), None)
+        if match is not None:
+            lo, t_cur, best_iso = mid, match, iso
+        else:
+            hi = mid
+        if abs(hi / lo - 1) < rel:
+            break
+    if best_iso is None:
+        best_iso = analyze_isobar(th, P_in)
+    return lo, t_cur, best_iso
+
+
+def _triple_at(th, t, iso):
+    """A triple point next to transition t on isobar ``iso``: another transition of the
+    isobar (or a crossing of the swallowtail) at nearly the same T supplies the third state."""
+    cands = [s.x for s in t.states if not math.isnan(s.x)]
+    for u in iso.transitions:
+        if u is t or abs(u.T - t.T) > 1e-3 * t.T:
+            continue
+        cands += [s.x for s in u.states if not math.isnan(s.x)]
+    for c in iso.crossings:
+        if abs(c.T - t.T) <= 1e-3 * t.T:
+            for br in iso.branches:
+                if br.label in c.branches and br.stable:
+                    from .isobar import _x_of_T
+                    x = _x_of_T(th, iso.pressure, br, c.T)
+                    if x is not None:
+                        cands.append(x)
+    xs = sorted(set(round(math.log(x), 6) for x in cands))
+    if len(xs) < 3:
+        return None
+    pick = [math.exp(xs[0]), math.exp(xs[len(xs) // 2]), math.exp(xs[-1])]
+    res = refine_triple_point(th, iso.pressure, pick)
+    if res is None:
+        return None
+    Pt, x1, x2, x3, r = res
+    T = float(np.mean(th.T(np.array([x1, x2, x3]), Pt)))
+    names = sorted({lab for br in analyze_isobar(th, Pt * (1 + 1e-9)).branches
+                    for lab in [br.label] if br.stable})
+    return TriplePoint(T=T, P=Pt, phases=tuple(names), states=(x1, x2, x3),
+                       G=float(th.G(x1, Pt)), residual=r)
 
 
 def _triple_from(th, t, others, P):
