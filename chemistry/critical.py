@@ -284,6 +284,11 @@ def _scanned_candidates(th: Thermodynamics, pressure_range=None, state_range=Non
     Plo, Phi = pressure_range if pressure_range else (P0 * 1e-5, P0 * 1e4)
     xs = np.geomspace(xlo, xhi, nx)
     Ps = np.geomspace(Plo, Phi, nP)
+    if th.derivation.eos.form != "parametric":
+        # T linear in P: every critical point is an extremum of the explicit spinodal
+        # curve P*(x), found on a fine 1D grid (cheaper and more reliable than a 2D grid)
+        nP = 2
+        Ps = np.array([Plo, Phi])
     F = th.d("T", "x", xs[:, None], Ps[None, :])
     ok = np.isfinite(F)
     sgn = np.where(F >= 0, 1.0, -1.0)  # a grid point exactly at a root counts as a sign
