@@ -217,6 +217,35 @@ def cmd_demo(args) -> int:
     return 0
 
 
+def cmd_scan(args) -> int:
+    from .atlas import parse_grid, scan
+    axes = [parse_grid(g) for g in args.grid]
+    fixed = {k: float(v) for k, v in parse_assignments(args.param).items()}
+    executor, client = None, None
+    if args.scheduler:
+        try:
+            from distributed import Client
+        except ImportError:
+            raise BhchemError("--scheduler needs Dask: pip install 'bhchem[dask]'") from None
+        try:
+            client = executor = Client(args.scheduler, timeout="10s")
+        except (OSError, TimeoutError) as exc:
+            raise BhchemError(f"cannot reach the Dask scheduler at {args.scheduler}: {exc}") from None
+    try:
+        family_file = (args.family_file or [None])[-1]
+        doc = scan(args.family, axes, fixed, args.output, family_file=family_file,
+                   workers=args.workers, executor=executor, quiet=args.quiet,
+                   refine=args.refine)
+    finally:
+        if client is not None:
+            client.close()
+    print(f"wrote {args.output}/atlas.csv, atlas.json, atlas.png: {len(doc['rows'])} points, "
+          f"{doc['distinct_scale_free_points']} distinct scale-free points, structures "
+          f"{', '.join(doc['structures'])}; {doc['errors']} failed point(s)")
+    print(f"note: {doc['scale_invariance']}")
+    return 0
+
+
 def _stage_progress(args):
     if getattr(args, "quiet", False) or not sys.stderr.isatty():
         return None
@@ -303,6 +332,22 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--force", action="store_true", help="replace an existing folder")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_report)
+
+    p = sub.add_parser("scan", parents=[common],
+                       help="parameter atlas: structure across a grid of couplings")
+    p.add_argument("family", help="family name")
+    p.add_argument("--grid", action="append", required=True, metavar="NAME=START:STOP:N",
+                   help="grid axis (repeatable, up to 3); NAME=log:START:STOP:N for log spacing")
+    p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
+                   help="fixed parameter values")
+    p.add_argument("-o", "--output", required=True, metavar="DIR",
+                   help="output folder (rerun the same command to resume)")
+    p.add_argument("--workers", type=int, default=1, help="local worker processes (1)")
+    p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster (tcp://...)")
+    p.add_argument("--refine", type=int, default=8,
+                   help="bisection steps for signature boundaries (8; 0 to skip)")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(func=cmd_scan)
 
     p = sub.add_parser("demo", parents=[common],
                        help="the whole job on a bundled invented scenario")

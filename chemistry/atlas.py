@@ -1,0 +1,434 @@
+"""Parameter atlas: how the phase structure changes across couplings.
+
+For every point of a grid over one to three parameters the atlas records the physical
+critical points (scale-free values), the structure signature of the phase diagram
+(:func:`chemistry.phases.structure_signature`) and its key numbers (triple point,
+ends of a reentrant window), or the error that stopped that point (never dropped).
+
+Scale invariance: the results depend only on the scale-free combinations of the
+parameters (q / ell^(n_q), with ell set by a reference parameter).  Grid points with
+equal combinations are computed once; the atlas says how many distinct combinations
+it scanned.
+
+Execution: the grid is cut into chunks; a chunk runs in one worker (numpy inside);
+chunks run in local processes (``workers``), or on any executor with ``submit``
+(a ``concurrent.futures`` executor or a Dask ``distributed.Client``).  Every finished
+chunk is written atomically to ``DIR/chunks/``; rerunning the same scan into the same
+folder computes only the missing chunks, and the final table is assembled from the
+chunks in grid order, so an interrupted and resumed scan gives the identical table.
+
+Signature boundaries: along every grid edge whose two ends differ in signature, the
+boundary is located by bisection (``refine`` steps) and stored with the atlas.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import itertools
+import json
+import math
+import os
+import sys
+import tempfile
+import time
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import BhchemError
+
+CHUNK_SIZE = 8
+ATLAS_ANCHORS = 48  # isobar anchors per phase diagram (narrow reentrant windows need them)
+
+
+@dataclass(frozen=True)
+class GridAxis:
+    name: str
+    values: tuple
+    spacing: str
+
+    @property
+    def spec(self) -> str:
+        lo, hi, n = self.values[0], self.values[-1], len(self.values)
+        return f"{self.name}={'log:' if self.spacing == 'log' else ''}{lo!r}:{hi!r}:{n}"
+
+
+def parse_grid(spec: str) -> GridAxis:
+    """'NAME=START:STOP:N' (linear) or 'NAME=log:START:STOP:N'."""
+    name, sep, rest = str(spec).partition("=")
+    name = name.strip()
+    if not sep or not name:
+        raise BhchemError(f"grid {spec!r} must look like NAME=START:STOP:N or NAME=log:START:STOP:N")
+    spacing = "linear"
+    if rest.startswith("log:"):
+        spacing, rest = "log", rest[4:]
+    parts = rest.split(":")
+    if len(parts) != 3:
+        raise BhchemError(f"grid {spec!r} must look like NAME=START:STOP:N")
+    try:
+        lo, hi, n = float(parts[0]), float(parts[1]), int(parts[2])
+    except ValueError:
+        raise BhchemError(f"grid {spec!r}: START and STOP must be numbers and N an integer") from None
+    if not (math.isfinite(lo) and math.isfinite(hi)) or n < 1 or n > 10**6:
+        raise BhchemError(f"grid {spec!r}: finite START/STOP and 1 <= N <= 10^6 required")
+    if spacing == "log":
+        if lo <= 0 or hi <= 0:
+            raise BhchemError(f"grid {spec!r}: log spacing needs positive START and STOP")
+        vals = np.geomspace(lo, hi, n)
+    else:
+        vals = np.linspace(lo, hi, n)
+    return GridAxis(name, tuple(float(v) for v in vals), spacing)
+
+
+# -- one grid point ----------------------------------------------------------------------------
+def _family(family_name, family_file):
+    from .registry import get_family, load_family_file
+    if family_file:
+        load_family_file(family_file)
+    return get_family(family_name)
+
+
+def scale_free_key(th) -> tuple:
+    """The scale-free combinations that determine every dimensionless result."""
+    der = th.derivation
+    dims = der.length_dimensions
+    ref = next(((nm, n) for nm, n in dims.items() if n != 0 and th.values[nm] != 0), None)
+    key = [("discrete", tuple(sorted(der.discrete.items())))]
+    for nm, n in dims.items():
+        v = float(th.values[nm])
+        if ref is None or n == 0:
+            key.append((nm, round(v, 12)))
+        elif nm != ref[0]:
+            ell = abs(float(th.values[ref[0]])) ** (1.0 / ref[1])
+            key.append((f"{nm}/{ref[0]}^({n}/{ref[1]})", float(f"{v / ell ** n:.12g}")))
+    if ref is None:
+        key.append(("scale", "none"))
+    return tuple(key)
+
+
+def analyse_point(family_name, family_file, params: dict) -> dict:
+    """Critical points, structure and key numbers at one parameter point (never raises)."""
+    from .compiled import bind
+    from .critical import find_critical_points
+    from .phases import phase_diagram
+    row = {"error": ""}
+    try:
+        th = bind(_family(family_name, family_file), **params)
+        search = find_critical_points(th)
+        cps = search.physical
+        row["n_critical"] = len(cps)
+        for i, cp in enumerate(cps[:3], 1):
+            for k, v in cp.scale_free.items():
+                row[f"cp{i}:{k}"] = v
+            row[f"cp{i}:kind"] = cp.kind
+            row[f"cp{i}:ratio"] = cp.ratio
+        pd = phase_diagram(th, n_anchor=ATLAS_ANCHORS, n_dense=4)
+        row["structure"] = pd.structure
+        if pd.triple_points:
+            tp = pd.triple_points[0]
+            row["triple_T"], row["triple_P"] = tp.T, tp.P
+        zero = [ln for ln in pd.lines if ln.kind == "zeroth-order"]
+        if zero:
+            row["reentrant_P_low"] = min(ln.ends["low"]["P"] for ln in zero)
+            row["reentrant_P_high"] = max(ln.ends["high"]["P"] for ln in zero)
+    except Exception as exc:  # recorded, never dropped
+        row["error"] = f"{type(exc).__name__}: {exc}"
+        row.setdefault("n_critical", None)
+        row.setdefault("structure", "error")
+    return row
+
+
+def run_chunk(family_name, family_file, fixed, points) -> list:
+    """Worker: analyse a chunk of (index, params) points."""
+    out = []
+    for index, params in points:
+        row = analyse_point(family_name, family_file, {**fixed, **params})
+        row.update({"index": index, **params})
+        out.append(row)
+    return out
+
+
+# -- the scan ------------------------------------------------------------------------------------
+def _atomic_write(path, text):
+    d = os.path.dirname(path)
+    fd, tmp = tempfile.mkstemp(dir=d, prefix=".tmp-")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        os.replace(tmp, path)
+    finally:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+
+
+def _dumps(obj) -> str:
+    from .report import dumps
+    return dumps(obj)
+
+
+class _Progress:
+    def __init__(self, total, quiet):
+        self.total, self.done = total, 0
+        self.quiet = quiet or not sys.stderr.isatty()
+        self.t0 = time.perf_counter()
+
+    def add(self, n):
+        self.done += n
+        if self.quiet:
+            return
+        dt = time.perf_counter() - self.t0
+        rate = self.done / dt if dt > 0 else 0.0
+        eta = (self.total - self.done) / rate if rate > 0 else float("inf")
+        sys.stderr.write(f"\rscan: {self.done}/{self.total} points, {rate:.2f}/s, "
+                         f"ETA {eta:.0f} s   ")
+        sys.stderr.flush()
+
+    def close(self):
+        if not self.quiet:
+            sys.stderr.write("\n")
+
+
+def _as_completed(executor, futures):
+    if hasattr(executor, "gather"):  # a Dask distributed Client
+        from distributed import as_completed
+        return as_completed(futures)
+    from concurrent.futures import as_completed
+    return as_completed(futures)
+
+
+def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, workers=1,
+         executor=None, chunk_size=CHUNK_SIZE, refine=8, quiet=True,
+         stop_after_chunks=None) -> dict:
+    """Run (or resume) an atlas scan; write atlas.csv, atlas.json, atlas.png into out_dir.
+
+    Returns the atlas document (as written to atlas.json).  ``stop_after_chunks`` stops
+    after that many new chunks (to test resuming).
+    """
+    fixed = dict(fixed or {})
+    fam = _family(family_name, family_file)
+    names = [a.name for a in axes]
+    if len(set(names)) != len(names):
+        raise BhchemError("each grid parameter may appear once")
+    if not 1 <= len(axes) <= 3:
+        raise BhchemError("give one to three --grid parameters")
+    from .compiled import validate_values
+    for a in axes:
+        for v in (a.values[0], a.values[-1]):
+            validate_values(fam, {**fixed, a.name: v})
+    for nm in fixed:
+        if nm in names:
+            raise BhchemError(f"parameter {nm} is both fixed (-p) and on the grid")
+    points = [dict(zip(names, combo)) for combo in itertools.product(*(a.values for a in axes))]
+    # scale invariance: one computation per distinct set of scale-free combinations
+    from .compiled import bind
+    keys = [scale_free_key(bind(fam, **{**fixed, **p})) for p in points]
+    rep_of, reps = {}, []
+    for i, k in enumerate(keys):
+        if k not in rep_of:
+            rep_of[k] = i
+            reps.append(i)
+    manifest = {"family": family_name, "family_file": os.path.abspath(family_file) if family_file else None,
+                "grid": [a.spec for a in axes], "fixed": fixed, "chunk_size": chunk_size,
+                "anchors": ATLAS_ANCHORS}
+    out_dir = os.path.abspath(out_dir)
+    chunk_dir = os.path.join(out_dir, "chunks")
+    os.makedirs(chunk_dir, exist_ok=True)
+    man_path = os.path.join(out_dir, "manifest.json")
+    if os.path.exists(man_path):
+        with open(man_path, encoding="utf-8") as fh:
+            old = json.load(fh)
+        if old != json.loads(_dumps(manifest)):
+            raise BhchemError(f"{out_dir} holds a different scan; use another folder")
+    else:
+        _atomic_write(man_path, _dumps(manifest))
+    rep_points = [(i, points[i]) for i in reps]
+    chunks = [rep_points[i:i + chunk_size] for i in range(0, len(rep_points), chunk_size)]
+    missing = [i for i in range(len(chunks))
+               if not os.path.exists(os.path.join(chunk_dir, f"chunk-{i:06d}.json"))]
+    progress = _Progress(len(rep_points), quiet)
+    progress.add(sum(len(chunks[i]) for i in range(len(chunks)) if i not in set(missing)))
+    own = None
+    if executor is None and workers > 1:
+        from concurrent.futures import ProcessPoolExecutor
+        own = executor = ProcessPoolExecutor(max_workers=workers)
+    written = 0
+    try:
+        if executor is None:
+            for i in missing:
+                rows = run_chunk(family_name, family_file, fixed, chunks[i])
+                _atomic_write(os.path.join(chunk_dir, f"chunk-{i:06d}.json"), _dumps(rows))
+                progress.add(len(rows))
+                written += 1
+                if stop_after_chunks is not None and written >= stop_after_chunks:
+                    return {"interrupted": True, "chunks_written": written}
+        else:
+            futs = {}
+            for i in missing:
+                f = executor.submit(run_chunk, family_name, family_file, fixed, chunks[i])
+                futs[f] = i
+            for f in _as_completed(executor, list(futs)):
+                i = futs[f]
+                rows = f.result()
+                _atomic_write(os.path.join(chunk_dir, f"chunk-{i:06d}.json"), _dumps(rows))
+                progress.add(len(rows))
+                written += 1
+                if stop_after_chunks is not None and written >= stop_after_chunks:
+                    for g in futs:
+                        g.cancel()
+                    return {"interrupted": True, "chunks_written": written}
+    finally:
+        if own is not None:
+            own.shutdown(wait=True, cancel_futures=True)
+        progress.close()
+    computed = {}
+    for i in range(len(chunks)):
+        with open(os.path.join(chunk_dir, f"chunk-{i:06d}.json"), encoding="utf-8") as fh:
+            for r in json.load(fh):
+                computed[r["index"]] = r
+    rows = []
+    for i, p in enumerate(points):
+        r = dict(computed[rep_of[keys[i]]])
+        r.update({"index": i, **p})
+        rows.append(r)
+    if executor is None and workers > 1:
+        from concurrent.futures import ProcessPoolExecutor
+        with ProcessPoolExecutor(max_workers=workers) as pool:
+            boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine, pool)
+    else:
+        boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine, executor)
+    doc = _assemble(family_name, fam, axes, fixed, rows, boundaries)
+    doc["distinct_scale_free_points"] = len(reps)
+    _write_outputs(out_dir, doc, axes)
+    return doc
+
+
+def refine_edge(family_name, family_file, fixed, base, name, lo, hi, log, s0, s1, refine):
+    """Bisection for one grid edge (a worker task): where the structure at the lower end
+    stops (a third structure in between becomes the upper side)."""
+    for _ in range(refine):
+        mid = math.sqrt(lo * hi) if log else 0.5 * (lo + hi)
+        s = analyse_point(family_name, family_file, {**fixed, **base, name: mid})["structure"]
+        if s == s0:
+            lo = mid
+        else:
+            hi, s1 = mid, s
+    point = dict(base)
+    point[name] = math.sqrt(lo * hi) if log else 0.5 * (lo + hi)
+    return {"along": name, "point": point, "between": [s0, s1], "bracket": [lo, hi]}
+
+
+def _boundaries(family_name, family_file, fixed, axes, rows, refine, executor=None):
+    """Bisection along grid edges whose two ends differ in structure signature."""
+    if refine <= 0:
+        return []
+    shape = [len(a.values) for a in axes]
+    grid = np.array([r["structure"] for r in rows], dtype=object).reshape(shape)
+    tasks = []
+    for dim, a in enumerate(axes):
+        for idx in itertools.product(*(range(s) for s in shape)):
+            if idx[dim] + 1 >= shape[dim]:
+                continue
+            nxt = list(idx)
+            nxt[dim] += 1
+            s0, s1 = grid[idx], grid[tuple(nxt)]
+            if s0 == s1 or "error" in (s0, s1):
+                continue
+            base = {ax.name: ax.values[i] for ax, i in zip(axes, idx)}
+            del base[a.name]
+            tasks.append((family_name, family_file, fixed, base, a.name, a.values[idx[dim]],
+                          a.values[idx[dim] + 1], a.spacing == "log", s0, s1, refine))
+    if executor is None:
+        return [refine_edge(*t) for t in tasks]
+    futs = [executor.submit(refine_edge, *t) for t in tasks]
+    return [f.result() for f in futs]  # in edge order: deterministic
+
+
+def _assemble(family_name, fam, axes, fixed, rows, boundaries):
+    from . import __version__
+    from .compiled import bind
+    ex = bind(fam, **{**fixed, **{a.name: a.values[0] for a in axes}})
+    dims = ex.derivation.length_dimensions
+    ref = next(((nm, n) for nm, n in dims.items() if n != 0 and ex.values[nm] != 0), None)
+    combos = []
+    if ref:
+        for nm, n in dims.items():
+            if nm != ref[0] and n != 0:
+                combos.append(f"{nm} * {ref[0]}^({-n}/{ref[1]})")
+    note = (f"results depend only on the scale-free combinations "
+            f"{', '.join(combos) if combos else '(none: the family has one scale)'} "
+            f"(reference length from {ref[0]}); grid points with equal combinations were "
+            f"computed once" if ref else "the family has no dimensionful parameter")
+    return {"family": family_name, "grid": [a.spec for a in axes], "fixed": fixed,
+            "scale_invariance": note, "rows": rows, "boundaries": boundaries,
+            "structures": sorted({r["structure"] for r in rows}),
+            "errors": sum(1 for r in rows if r["error"]),
+            "version": __version__}
+
+
+def _columns(rows, axes):
+    first = [a.name for a in axes] + ["n_critical", "structure"]
+    extra = sorted({k for r in rows for k in r} - set(first) - {"index", "error"})
+    return first + extra + ["error"]
+
+
+def _write_outputs(out_dir, doc, axes):
+    rows = doc["rows"]
+    cols = _columns(rows, axes)
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(cols)
+    for r in rows:
+        w.writerow(["" if r.get(c) is None else (repr(r[c]) if isinstance(r.get(c), float)
+                                                  else r.get(c, "")) for c in cols])
+    _atomic_write(os.path.join(out_dir, "atlas.csv"), buf.getvalue())
+    _atomic_write(os.path.join(out_dir, "atlas.json"), _dumps(doc))
+    try:
+        _figure(out_dir, doc, axes)
+    except Exception as exc:  # the table is the result; say why the figure is missing
+        doc["figure_error"] = str(exc)
+        _atomic_write(os.path.join(out_dir, "atlas.json"), _dumps(doc))
+
+
+def _figure(out_dir, doc, axes):
+    from .plots import PALETTE, PlotResult, _styled, save
+    rows = doc["rows"]
+    structures = doc["structures"]
+    color = {s: PALETTE[i % len(PALETTE)] for i, s in enumerate(structures)}
+    with _styled() as plt:
+        if len(axes) == 1:
+            fig, ax = plt.subplots(figsize=(6.0, 2.2))
+            x = np.array(axes[0].values)
+            for s in structures:
+                m = np.array([r["structure"] == s for r in rows])
+                ax.scatter(x[m], np.zeros(m.sum()), s=60, marker="s", color=color[s], label=s)
+            for b in doc["boundaries"]:
+                ax.axvline(b["point"][axes[0].name], color="black", lw=0.8, ls="--")
+            ax.set_yticks([])
+            ax.set_xlabel(axes[0].name)
+            if axes[0].spacing == "log":
+                ax.set_xscale("log")
+        else:
+            fig, ax = plt.subplots(figsize=(5.6, 4.2))
+            a0, a1 = axes[0], axes[1]
+            shape = (len(a0.values), len(a1.values)) + tuple(len(a.values) for a in axes[2:])
+            grid = np.array([structures.index(r["structure"]) for r in rows]).reshape(shape)
+            if grid.ndim == 3:
+                grid = grid[:, :, 0]
+            from matplotlib.colors import ListedColormap
+            cmap = ListedColormap([color[s] for s in structures])
+            ax.pcolormesh(a0.values, a1.values, grid.T, cmap=cmap, shading="nearest",
+                          vmin=-0.5, vmax=len(structures) - 0.5)
+            bx = [b["point"][a0.name] for b in doc["boundaries"]]
+            by = [b["point"][a1.name] for b in doc["boundaries"]]
+            ax.plot(bx, by, ".", color="black", ms=3, label="refined boundary")
+            for s in structures:
+                ax.plot([], [], "s", color=color[s], label=s)
+            ax.set_xlabel(a0.name)
+            ax.set_ylabel(a1.name)
+            if a0.spacing == "log":
+                ax.set_xscale("log")
+            if a1.spacing == "log":
+                ax.set_yscale("log")
+        ax.set_title(f"{doc['family']}: structure signature")
+        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0))
+        save(PlotResult(fig, "atlas"), os.path.join(out_dir, "atlas.png"))
