@@ -97,7 +97,8 @@ def coexistence_newton(th: Thermodynamics, P, x1, x2, max_iter: int = 40):
     T1, T2 = th.T(a, P), th.T(b, P)
     G1, G2 = th.G(a, P), th.G(b, P)
     rT = np.abs(T1 - T2) / np.abs(T1)
-    rG = np.abs(G1 - G2) / (np.abs(G1) + np.abs(T1 * th.S(a, P)) + 1e-300)
+    rG = np.abs(G1 - G2) / (np.abs(th.M(a, P)) + np.abs(th.M(b, P)) + np.abs(T1 * th.S(a, P))
+                            + np.abs(T2 * th.S(b, P)) + 1e-300)
     ok = (rT < 1e-13) & (rG < 1e-13) & (b > a * (1 + 1e-12)) & np.isfinite(rT)
     return a, b, ok
 
@@ -244,7 +245,9 @@ def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool 
         G=0.5 * (G1 + G2), latent_heat=T * (S2 - S1),
         delta_v=None if v1 is None else v2 - v1,
         residual_T=abs(T1 - T2) / abs(T),
-        residual_G=abs(G1 - G2) / (abs(G1) + abs(T * S1) + 1e-300))
+        # relative to the terms G = M - T S is computed from (both states)
+        residual_G=abs(G1 - G2) / (abs(float(th.M(x1, P))) + abs(float(th.M(x2, P)))
+                                   + abs(T * S1) + abs(T * S2) + 1e-300))
     if checks:
         object.__setattr__(pt, "equal_area_residual", equal_area_residual(th, T, P, x1, x2))
         object.__setattr__(pt, "clapeyron_residual", clapeyron_residual(th, P, T, x1, x2))

@@ -343,9 +343,10 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
                             f"T = {Ts[k]:.6g} and {Ts[k + 1]:.6g}")
             continue
         kind, T_t = T_edge
-        segments.append((float(start), float(T_t), names[a]))
-        start = T_t
-        transitions.append(_transition(th, P, kind, T_t, a, b, names, branches, G_of, has_bg))
+        tr = _transition(th, P, kind, T_t, a, b, names, branches, G_of, has_bg)
+        segments.append((float(start), float(tr.T), names[a]))
+        start = tr.T
+        transitions.append(tr)
     segments.append((float(start), float(Ts[valid[-1]]), names[Gmin_idx[valid[-1]]]))
 
     # second order at a critical pressure
@@ -416,6 +417,15 @@ def _state(th, P, name, x, T, G) -> StateData:
 def _transition(th, P, kind, T, a, b, names, branches, G_of, has_bg) -> Transition:
     ga, xa = G_of(a, T)
     gb, xb = G_of(b, T)
+    if kind == "first-order" and xa is not None and xb is not None:
+        # polish the bracketed crossing: Newton on (T1 - T2, G1 - G2) in the two states
+        from .coexistence import coexistence_newton
+        lo, hi = (xa, xb) if xa < xb else (xb, xa)
+        n1, n2, ok = coexistence_newton(th, np.array([P]), np.array([lo]), np.array([hi]))
+        if ok[0] and abs(np.log(n1[0] / lo)) < 0.1 and abs(np.log(n2[0] / hi)) < 0.1:
+            xa, xb = (n1[0], n2[0]) if xa < xb else (n2[0], n1[0])
+            T = 0.5 * float(th.T(xa, P) + th.T(xb, P))
+            ga, gb = float(th.G(xa, P)), float(th.G(xb, P))
     sa, sb = _state(th, P, names[a], xa, T, ga), _state(th, P, names[b], xb, T, gb)
     dG = float(gb - ga)
     if kind == "zeroth-order":
@@ -423,7 +433,10 @@ def _transition(th, P, kind, T, a, b, names, branches, G_of, has_bg) -> Transiti
         residual = 0.0
     else:
         L = float(T * (sb.S - sa.S))
-        residual = abs(dG) / (abs(ga) + abs(gb) + abs(T * sa.S) + 1e-300)
+        # relative to the size of the terms G = M - T S is computed from, in both states
+        size = sum(abs(float(th.M(x, P))) + abs(T * s.S) for x, s in ((xa, sa), (xb, sb))
+                   if x is not None) + abs(ga) + abs(gb)
+        residual = abs(dG) / (size + 1e-300)
         dG = 0.0 if kind != "zeroth-order" else dG
     dv = None if (sa.v is None or sb.v is None) else float(sb.v - sa.v)
     return Transition(kind, float(T), float(P), names[a], names[b], (sa, sb), L, dv, dG,
