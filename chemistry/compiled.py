@@ -173,6 +173,10 @@ class State:
     potentials: Mapping[str, np.ndarray]
 
 
+#: largest spacetime dimension the symbolic derivation is asked to handle
+MAX_DIMENSION = 30
+
+
 def validate_values(family: Family, values: Mapping[str, object]) -> dict:
     """Fill defaults and check every value against its declared domain.
 
@@ -198,6 +202,9 @@ def validate_values(family: Family, values: Mapping[str, object]) -> dict:
             raise ParameterDomainError(
                 f"{name} = {raw} is outside its domain {p.domain.describe(name)} "
                 f"(family {family.name})")
+        if name == "d" and p.discrete and value > MAX_DIMENSION:
+            raise ParameterDomainError(
+                f"d = {raw} is too large: the symbolic derivation supports d <= {MAX_DIMENSION}")
         if value == 0.0:
             value = 0.0  # normalise -0.0
         out[name] = int(value) if p.discrete and value.is_integer() else value
@@ -355,4 +362,31 @@ def bind(family, **values) -> Thermodynamics:
         family = get_family(family)
     vals = validate_values(family, values)
     discrete = {p.name: vals[p.name] for p in family.discrete_parameters}
-    return Thermodynamics(family, vals, derive(family, **discrete))
+    th = Thermodynamics(family, vals, derive(family, **discrete))
+    _check_representable(th)
+    return th
+
+
+def _check_representable(th: "Thermodynamics") -> None:
+    """Refuse parameter values whose length scale double precision cannot carry.
+
+    Quantities involve powers of the length scale up to ell^(2(d-1)); beyond
+    |log10 ell| = 250/(2(d-1)) they overflow or underflow.  Results are scale-free, so
+    the remedy is to compute at a moderate scale and rescale.
+    """
+    dims = th.derivation.length_dimensions
+    logs = []
+    for name, n in dims.items():
+        v = th.values[name]
+        if n != 0 and v != 0:
+            logs.append((name, math.log10(abs(v)) / n))
+    if not logs:
+        return
+    d = th.derivation.dimension
+    limit = 250.0 / (2 * (d - 1))
+    for name, lg in logs:
+        if abs(lg) > limit:
+            raise ParameterDomainError(
+                f"{name} = {th.values[name]:g} puts the length scale at 1e{lg:+.0f}, beyond what "
+                f"double precision can evaluate in d = {d} (|log10 scale| <= {limit:.0f}); "
+                f"results are scale-free: compute at a moderate value and rescale")

@@ -27,6 +27,7 @@ Example
 """
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass, field
 from typing import Mapping, Sequence
@@ -263,6 +264,7 @@ def validate_family(fam: Family) -> None:
                 f"family {who}: a variable dimension must be an integer parameter named d")
         if not fam.dimension.domain.lower >= 3:
             raise MalformedFamilyError(f"family {who}: the dimension domain must have d >= 3")
+
     elif not (isinstance(fam.dimension, int) and fam.dimension >= 3):
         raise MalformedFamilyError(
             f"family {who}: dimension must be an integer >= 3 or a Parameter named d")

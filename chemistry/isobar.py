@@ -161,10 +161,18 @@ def _refine_boundary(th, P, a, b, inside_a: bool):
     return a  # the physical side
 
 
-def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000) -> list[Branch]:
-    """Split the physical isobar into monotone branches (see module docstring)."""
+def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000,
+                  focus=()) -> list[Branch]:
+    """Split the physical isobar into monotone branches (see module docstring).
+
+    ``focus``: state values (critical points) around which the grid is made dense, so that
+    the small swallowtail just off a critical pressure is resolved."""
     lo, hi = x_range if x_range else state_range(th, P)
     xs = np.geomspace(lo, hi, n)
+    extra = [xc * np.exp(np.linspace(-0.15, 0.15, 6001)) for xc in focus if lo < xc < hi]
+    if extra:
+        xs = np.unique(np.concatenate([xs, *extra]))
+    n = len(xs)
     phys = th.physical(xs, P)
     Tx = th.d("T", "x", xs, P)
     phys &= np.isfinite(Tx)
@@ -268,7 +276,11 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
         from .errors import StateDomainError
         raise StateDomainError(f"pressure P = {P} is not positive: there is no AdS black hole")
     xr = x_range if x_range else state_range(th, P)
-    branches = find_branches(th, P, xr)
+    if critical_points is None:
+        from .critical import find_critical_points
+        critical_points = find_critical_points(th).physical
+    focus = [cp.x for cp in critical_points if abs(cp.P / P - 1) < 0.05]
+    branches = find_branches(th, P, xr, focus=focus)
     if not branches:
         from .errors import StateDomainError
         raise StateDomainError(

@@ -178,6 +178,10 @@ def _load_python(p: Path) -> list[Family]:
         sys.modules.pop(modname, None)
         raise MalformedFamilyError(
             f"family file {p}, line {exc.lineno}: syntax error: {exc.msg}") from None
+    except SystemExit as exc:
+        sys.modules.pop(modname, None)
+        raise MalformedFamilyError(
+            f"family file {p}: called sys.exit({exc.code}) while loading") from None
     except Exception as exc:
         sys.modules.pop(modname, None)
         raise MalformedFamilyError(

@@ -65,7 +65,7 @@ FAMILY = Family(
     summary="charged Gauss-Bonnet AdS black hole, d >= 5, horizon curvature k (Wald entropy)",
     reference="Cai, Cao, Li & Yang, JHEP 09 (2013) 005, arXiv:1306.6233; "
               "Wei & Liu, PRD 90 (2014) 044057, arXiv:1402.2837",
-    dimension=Parameter("d", 5, length_dimension=0, domain=Domain.integers(5),
+    dimension=Parameter("d", 5, length_dimension=0, domain=Domain.integers(5, 26),
                         description="spacetime dimension"),
     parameters=(
         Parameter("k", 1, length_dimension=0, domain=Domain.one_of(1, 0, -1),

@@ -99,7 +99,7 @@ FAMILY = Family(
     summary="charged third-order Lovelock AdS black hole, d >= 7, horizon curvature k",
     reference="Frassino, Kubiznak, Mann & Simovic, JHEP 09 (2014) 080, arXiv:1406.7015; "
               "Dolan, Kostouki, Kubiznak & Mann, CQG 31 (2014) 242001, arXiv:1407.4783",
-    dimension=Parameter("d", 7, length_dimension=0, domain=Domain.integers(7),
+    dimension=Parameter("d", 7, length_dimension=0, domain=Domain.integers(7, 26),
                         description="spacetime dimension"),
     parameters=(
         Parameter("k", 1, length_dimension=0, domain=Domain.one_of(1, 0, -1),

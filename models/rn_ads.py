@@ -32,7 +32,7 @@ FAMILY = Family(
     summary="charged (Reissner-Nordstrom) AdS black hole, spherical horizon, d >= 4",
     reference="Gunasekaran, Kubiznak & Mann, JHEP 11 (2012) 110, arXiv:1208.6251; "
               "4D: Kubiznak & Mann, JHEP 07 (2012) 033, arXiv:1205.0559",
-    dimension=Parameter("d", 4, length_dimension=0, domain=Domain.integers(4),
+    dimension=Parameter("d", 4, length_dimension=0, domain=Domain.integers(4, 26),
                         description="spacetime dimension"),
     parameters=(
         Parameter("Q", 1.0, length_dimension=d - 3, domain=Domain.nonnegative(),

@@ -22,7 +22,7 @@ FAMILY = Family(
     summary="neutral static AdS black hole, spherical horizon, d >= 4, thermal AdS background",
     reference="Hawking & Page, Commun. Math. Phys. 87 (1983) 577; "
               "Kubiznak, Mann & Teo, CQG 34 (2017) 063001, arXiv:1608.06147",
-    dimension=Parameter("d", 4, length_dimension=0, domain=Domain.integers(4),
+    dimension=Parameter("d", 4, length_dimension=0, domain=Domain.integers(4, 26),
                         description="spacetime dimension"),
     parameters=(),
     enthalpy=(d - 2) * _Om / (16 * pi) * (
