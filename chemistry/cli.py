@@ -354,6 +354,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("-o", "--output", metavar="DIR", help="output folder (bhchem-demo)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_demo)
+
+    from .cli_analyses import register
+    register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
+                           "BhchemError": BhchemError})
     return parser
 
 

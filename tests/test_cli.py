@@ -98,3 +98,19 @@ def test_plugin_file_via_cli(tmp_path, capsys):
     code, out, err = run(capsys, "show", "cli-plugin-family", "--family-file", str(path), "--json")
     assert code == 0, err
     assert json.loads(out)["smarr"]["holds"] is True
+
+
+def test_analysis_commands_through_main(capsys, tmp_path):
+    """expansion / engine / curvature are wired into the main CLI: JSON keys and one-line errors."""
+    assert main(["expansion", "rn-ads", "-p", "Q=1", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert set(doc) >= {"inversion", "isenthalps", "convention"}
+    assert doc["inversion"]["ratio_to_Tc"] == pytest.approx(0.5, rel=1e-10)
+    assert main(["engine", "rn-ads", "-p", "Q=1", "--cycle", "0.01,400 0.01,600 0.005,600 0.005,400",
+                 "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert set(doc) >= {"work", "heat_in", "heat_out", "efficiency", "carnot", "T_hot", "T_cold"}
+    assert doc["efficiency"] < doc["carnot"]
+    assert main(["engine", "rn-ads", "--cycle", "1,2 3"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "Traceback" not in err

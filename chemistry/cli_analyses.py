@@ -1,0 +1,158 @@
+"""Command-line subcommands for the analyses of issue 7: ``expansion``, ``engine``,
+``curvature``.
+
+Wired into ``bhchem`` by one call in :mod:`chemistry.cli`::
+
+    from .cli_analyses import register
+    register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
+                           "BhchemError": BhchemError})
+
+``sub`` is the argparse subparsers object, ``common`` the parent parser carrying
+``--family-file``.  Every handler takes the parsed ``args`` and returns an exit code;
+bad input raises a :class:`~chemistry.errors.BhchemError` (one line, exit 2 in
+``bhchem``'s main).  With ``--json`` the document goes to stdout and any
+"wrote FILE" message to stderr, so the JSON stays parseable.
+"""
+from __future__ import annotations
+
+import json
+import math
+import sys
+
+from .errors import BhchemError
+
+
+def _family_args(p, figure_help: str):
+    p.add_argument("family", help="family name (see 'bhchem families')")
+    p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
+                   help="parameter value (repeatable, or comma-separated)")
+    p.add_argument("--json", action="store_true", help="machine-readable output")
+    p.add_argument("-o", "--output", metavar="FIG", help=figure_help + " (.png, .pdf or .svg)")
+
+
+def _number(text: str, what: str) -> float:
+    try:
+        value = float(text)
+    except (TypeError, ValueError):
+        raise BhchemError(f"{what} {text!r} is not a number") from None
+    if not math.isfinite(value):
+        raise BhchemError(f"{what} {text!r} must be finite")
+    return value
+
+
+def _finish(args, doc: dict, text: str, figure) -> int:
+    if args.output:
+        from .plots import save
+        path = save(figure(), args.output)
+        print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
+    if args.json:
+        # every JSON result carries the conventions it uses (project rule)
+        from .conventions import convention_record
+        from .registry import get_family
+        if "convention" not in doc:
+            doc = {**doc, "convention": convention_record(get_family(args.family))}
+        print(json.dumps(_clean(doc), indent=2, sort_keys=True, allow_nan=False,
+                         default=_jsonable))
+    else:
+        print(text)
+    return 0
+
+
+def _clean(obj):
+    """Non-finite floats become null (strict JSON has no NaN or Infinity)."""
+    if isinstance(obj, dict):
+        return {k: _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    return obj
+
+
+def _jsonable(obj):
+    try:
+        import numpy as np
+        if isinstance(obj, np.generic):
+            return obj.item()
+        if isinstance(obj, np.ndarray):
+            return obj.tolist()
+    except ImportError:  # pragma: no cover
+        pass
+    raise TypeError(f"not JSON serialisable: {type(obj).__name__}")
+
+
+def register(sub, common, helpers: dict) -> None:
+    """Add the ``expansion``, ``engine`` and ``curvature`` subcommands to ``sub``.
+
+    Parameters
+    ----------
+    sub : argparse subparsers object
+    common : argparse.ArgumentParser
+        Parent parser (``--family-file``).
+    helpers : dict
+        ``'bound'`` (args -> Thermodynamics), ``'parse_pressure'`` ((text, th) -> float),
+        ``'BhchemError'`` (the exception class for bad input).
+    """
+    bound = helpers["bound"]
+    parse_pressure = helpers["parse_pressure"]
+
+    def cmd_expansion(args) -> int:
+        from .expansion import expansion_json, expansion_text, joule_thomson_expansion, plot_expansion
+        th = bound(args)
+        masses = None
+        if args.masses:
+            masses = [_number(m, "mass") for m in args.masses]
+            bad = [m for m in masses if m <= 0]
+            if bad:
+                raise BhchemError(f"masses must be positive (M is the enthalpy), got {bad[0]:g}")
+        Pmax = parse_pressure(args.pressure_max, th) if args.pressure_max else None
+        res = joule_thomson_expansion(th, masses=masses, pressure_max=Pmax)
+        return _finish(args, expansion_json(res), expansion_text(res),
+                       lambda: plot_expansion(res, th))
+
+    def cmd_engine(args) -> int:
+        from .engines import analyze_cycle, engine_json, engine_text, parse_cycle, plot_cycle
+        th = bound(args)
+        corners = parse_cycle(args.cycle, parse_pressure, th)
+        res = analyze_cycle(th, corners)
+        return _finish(args, engine_json(res), engine_text(res), lambda: plot_cycle(res, th))
+
+    def cmd_curvature(args) -> int:
+        from .curvature import (critical_amplitude, curvature_json, curvature_map,
+                                curvature_text, plot_curvature)
+        from .critical import find_critical_points
+        th = bound(args)
+        cmap = None
+        if args.output:
+            cmap = curvature_map(th)
+            amp = cmap.amplitude
+        else:
+            has_cp = any(c.kind == "standard" for c in find_critical_points(th).physical)
+            amp = critical_amplitude(th) if has_cp else None
+        return _finish(args, curvature_json(th, amp), curvature_text(th, amp),
+                       lambda: plot_curvature(cmap, th))
+
+    p = sub.add_parser("expansion", parents=[common],
+                       help="Joule-Thomson expansion: isenthalps, inversion curve, T_i,min/T_c")
+    _family_args(p, "figure of the isenthalps and the inversion curve")
+    p.add_argument("--masses", nargs="+", metavar="M",
+                   help="enthalpies of the isenthalps (default: those meeting the inversion "
+                        "curve at evenly spread pressures)")
+    p.add_argument("--pressure-max", metavar="P",
+                   help="top of the pressure range (absolute or like 50Pc); default from "
+                        "where the isenthalps meet the inversion curve")
+    p.set_defaults(func=cmd_expansion)
+
+    p = sub.add_parser("engine", parents=[common],
+                       help="heat engine cycle in the P-V plane: work, heat, efficiency, Carnot")
+    _family_args(p, "figure of the cycle in the P-V plane")
+    p.add_argument("--cycle", required=True, metavar='"P1,V1 P2,V2 ..."',
+                   help="corners in order of traversal (P absolute or like 0.5Pc; V the "
+                        "thermodynamic volume); sides must be isobars, isochores, isotherms "
+                        "or adiabats")
+    p.set_defaults(func=cmd_engine)
+
+    p = sub.add_parser("curvature", parents=[common],
+                       help="Ruppeiner curvature: R_N sign map and critical amplitude")
+    _family_args(p, "sign map of R_N on the T-v plane")
+    p.set_defaults(func=cmd_curvature)
