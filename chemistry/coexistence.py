@@ -99,7 +99,11 @@ def coexistence_newton(th: Thermodynamics, P, x1, x2, max_iter: int = 40):
     rT = np.abs(T1 - T2) / np.abs(T1)
     rG = np.abs(G1 - G2) / (np.abs(th.M(a, P)) + np.abs(th.M(b, P)) + np.abs(T1 * th.S(a, P))
                             + np.abs(T2 * th.S(b, P)) + 1e-300)
-    ok = (rT < 1e-13) & (rG < 1e-13) & (b > a * (1 + 1e-12)) & np.isfinite(rT)
+    # a coexisting pair is two distinct, locally stable states (the trivial solution
+    # x1 = x2 and pairs on unstable branches also solve the equations)
+    with np.errstate(all="ignore"):
+        stable = (th.quantity("C_P", a, P) > 0) & (th.quantity("C_P", b, P) > 0)
+    ok = (rT < 1e-13) & (rG < 1e-13) & (b > a * (1 + 1e-6)) & np.isfinite(rT) & stable
     return a, b, ok
 
 
@@ -315,7 +319,9 @@ def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anch
             g1 = np.exp(np.interp(cf, c[order], np.log(ax1)[order]))
             g2 = np.exp(np.interp(cf, c[order], np.log(ax2)[order]))
             a, b, ok = coexistence_newton(th, far, g1, g2)
-            for P, x1, x2, good in zip(far, a, b, ok):
+            # the same pair as the anchors: a solution far from its guess is another pair
+            near = (np.abs(np.log(a / g1)) < 0.5) & (np.abs(np.log(b / g2)) < 0.5)
+            for P, x1, x2, good in zip(far, a, b, ok & near):
                 if good:
                     solved[float(P)] = (x1, x2)
     failed = []

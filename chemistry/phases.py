@@ -141,13 +141,41 @@ def _assemble_lines(anchors, isobars):
 
 
 # -- densification ------------------------------------------------------------------------
-def _dense_first_order(th, members, anchors, n_dense, cp=None):
-    """The line on a dense pressure grid between its first and last anchors."""
+def _dense_first_order(th, members, anchors, n_dense, cp=None, ends=None):
+    """The line on a dense pressure grid between its ends (terminal and triple points
+    located by bisection) or, otherwise, its first and last anchors."""
     ks = [k for k, _ in members]
     P0, P1 = anchors[ks[0]], anchors[ks[-1]]
+    if ends:
+        if ends["low"]["type"] in ("terminal point", "triple point"):
+            P0 = min(P0, ends["low"]["P"] * (1 + 1e-9))
+        if ends["high"]["type"] in ("terminal point", "triple point"):
+            P1 = max(P1, ends["high"]["P"] * (1 - 1e-9))
     Ps = np.geomspace(P0, P1, n_dense) if len(ks) > 1 else np.array([P0])
     curve = coexistence_curve(th, Ps, critical_point=cp, checks=True)
     return list(curve.points), curve.failed_pressures
+
+
+def _dense_zeroth_order(th, members, anchors, ends, n):
+    """A zeroth-order line on a denser pressure grid between its (bisected) ends: the
+    transition of the same kind continuous with the anchors' one at each pressure."""
+    lo = ends["low"].get("P", anchors[members[0][0]])
+    hi = ends["high"].get("P", anchors[members[-1][0]])
+    lo, hi = min(lo, hi), max(lo, hi)
+    pts = [(t.T, anchors[k]) for k, t in members]
+    jumps = [abs(t.delta_G) for _, t in members]
+    ref = members[len(members) // 2][1]
+    if hi > lo * (1 + 1e-9):
+        for P in np.geomspace(lo, hi, max(n, 3))[1:-1]:
+            iso = analyze_isobar(th, P)
+            cand = [u for u in iso.transitions if u.kind == ref.kind and
+                    {u.from_phase, u.to_phase} == {ref.from_phase, ref.to_phase}]
+            if cand:
+                u = min(cand, key=lambda u: abs(math.log(u.T / ref.T)))
+                pts.append((u.T, P))
+                jumps.append(abs(u.delta_G))
+    pts.sort(key=lambda p: p[1])
+    return pts, jumps
 
 
 def _approach_critical(th, cp, P_last, direction):
@@ -269,7 +297,7 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
         line = PhaseLine(kind=kind, between=between, points=[], ends=ends)
         if kind == "first-order":
             cp_end = ends["high"].get("_cp") or ends["low"].get("_cp")
-            pts, failed = _dense_first_order(th, members, anchors, n_dense, cp_end)
+            pts, failed = _dense_first_order(th, members, anchors, n_dense, cp_end, ends)
             if failed:
                 warnings.append(f"first-order line {between[0]}/{between[1]}: no coexistence "
                                 f"found at {len(failed)} of {n_dense} pressures (omitted)")
@@ -287,8 +315,8 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
             line.points, resid = _dense_hawking_page(th, members, anchors, n_dense)
             line.checks = {"max_residual_G": resid}
         else:
-            line.points = [(t.T, anchors[k]) for k, t in members]
-            line.checks = {"max_delta_G": max(abs(t.delta_G) for _, t in members)}
+            line.points, jumps = _dense_zeroth_order(th, members, anchors, ends, n_dense // 3)
+            line.checks = {"max_delta_G": max(jumps)}
         for side in ("low", "high"):
             e = ends[side]
             if e["type"] == "critical point":
@@ -394,9 +422,9 @@ def _end(th, members, side, k, anchors, cps, raw) -> dict:
                 return {"type": "triple point", "P": tp.P, "T": tp.T, "_tp": tp}
             return {"type": "triple point", "P": 0.5 * (lo_gap + hi_gap), "T": t.T,
                     "note": "not refined"}
-        return {"type": "terminal point", "P": 0.5 * (lo_gap + hi_gap), "T": t.T,
-                "note": "where a zeroth-order line meets another line (located to the "
-                        "anchor spacing)"}
+        return {"type": "terminal point", "P": P_end, "T": t_end.T,
+                "note": "where a zeroth-order line meets another line (located by bisection "
+                        "in P to 1e-9)"}
     return {"type": "vanishes", "P": P_end, "T": t_end.T,
             "note": "the transition disappears here without meeting another line"}
 

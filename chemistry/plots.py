@@ -264,6 +264,7 @@ def plot_gt(th, pressures=None) -> PlotResult:
             T_lo, T_hi = _gt_window(th, res, cp)
             spin = [T for b in res.branches for e, T in zip(b.ends, (b.T_at_x_min, b.T_at_x_max))
                     if e == "spinodal" and T_lo <= T <= T_hi]
+            spin += [t.T for t in res.transitions if t.kind != "second-order"]
             core = (min(spin), max(spin)) if len(spin) >= 2 else (T_lo, T_hi)
             G_all, G_core = [], []
             for b in res.branches:
@@ -299,6 +300,8 @@ def plot_gt(th, pressures=None) -> PlotResult:
                     pad = (0.5 if len(spin) >= 2 else 0.08) * (hi_ - lo_ + 1e-300)
                     ax.set_ylim(lo_ - pad, hi_ + pad)
             ax.set_xlim(T_lo, T_hi)
+            from matplotlib.ticker import MaxNLocator
+            ax.xaxis.set_major_locator(MaxNLocator(4))
             lbl = f"$P/P_c={P / cp.P:.3g}$" if cp is not None else f"$P={P:.3g}$"
             ax.set_title(lbl)
             ax.set_xlabel(r"$T$")
@@ -319,8 +322,13 @@ def plot_gt(th, pressures=None) -> PlotResult:
 
 
 def _gt_window(th, res, cp):
-    """A temperature window that frames the swallowtail(s) and transitions."""
-    temps = [t.T for t in res.transitions if t.kind != "second-order"]
+    """A temperature window that frames the transitions (else the swallowtails)."""
+    trans = [t.T for t in res.transitions if t.kind != "second-order"]
+    if trans:
+        lo, hi = min(trans), max(trans)
+        pad = max(0.6 * (hi - lo), 0.06 * hi)
+        return max(lo - pad, 0.0), hi + pad
+    temps = []
     for b in res.branches:
         for e, T in zip(b.ends, (b.T_at_x_min, b.T_at_x_max)):
             if e == "spinodal":
@@ -389,11 +397,57 @@ def plot_pt(th, diagram=None) -> PlotResult:
         ax.set_xlim(0, Tmax)
         ax.set_ylim(0, Pmax)
         _label_regions(ax, th, pd, Tmax, Pmax)
+        _zoom_inset(ax, pd, Tmax, Pmax, data)
         ax.set_xlabel(r"temperature $T$")
         ax.set_ylabel(r"pressure $P$")
         ax.set_title(_title(th))
         ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0))
     return PlotResult(fig, "pt", data, [])
+
+
+def _zoom_inset(ax, pd, Tmax, Pmax, data):
+    """An inset around small features (zeroth-order lines, triple and terminal points) that
+    would otherwise be unreadable at the scale of the whole diagram."""
+    feats = []
+    for line in pd.lines:
+        if line.kind == "zeroth-order":
+            feats += list(line.points)
+        for side in ("low", "high"):
+            if line.ends[side]["type"] in ("terminal point", "triple point"):
+                feats.append((line.ends[side]["T"], line.ends[side]["P"]))
+    feats += [(tp.T, tp.P) for tp in pd.triple_points]
+    if not feats:
+        return
+    f = np.array(feats, float)
+    t0, t1 = f[:, 0].min(), f[:, 0].max()
+    p0, p1 = f[:, 1].min(), f[:, 1].max()
+    if (t1 - t0) > 0.15 * Tmax or (p1 - p0) > 0.15 * Pmax:
+        return
+    dt = max(t1 - t0, 0.01 * Tmax)
+    dp = max(p1 - p0, 0.01 * Pmax)
+    box = (t0 - 0.6 * dt, t1 + 0.6 * dt, p0 - 0.6 * dp, p1 + 0.6 * dp)
+    ins = ax.inset_axes([0.17, 0.56, 0.34, 0.36])
+    for line in pd.lines:
+        pts = np.array(line.points, float)
+        if pts.size:
+            ins.plot(pts[:, 0], pts[:, 1], LINE_STYLE.get(line.kind, "-"),
+                     color=LINE_COLOR.get(line.kind, "black"), lw=1.4)
+        for side in ("low", "high"):
+            e = line.ends[side]
+            if e["type"] == "terminal point":
+                ins.plot([e["T"]], [e["P"]], "s", ms=3.5, color=PALETTE[1])
+    for tp in pd.triple_points:
+        ins.plot([tp.T], [tp.P], "^", ms=5, color=PALETTE[2])
+    for cp in pd.critical_points:
+        ins.plot([cp.T], [cp.P], "o", ms=4, color="black")
+    ins.set_xlim(box[0], box[1])
+    ins.set_ylim(box[2], box[3])
+    ins.tick_params(labelsize=6)
+    from matplotlib.ticker import MaxNLocator
+    ins.xaxis.set_major_locator(MaxNLocator(3))
+    ins.yaxis.set_major_locator(MaxNLocator(3))
+    ax.indicate_inset_zoom(ins, edgecolor="#707070")
+    data["inset_box"] = np.array(box)
 
 
 def _label_regions(ax, th, pd, Tmax, Pmax):
