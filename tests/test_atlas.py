@@ -22,17 +22,17 @@ def test_rn_ads_scale_free_values_are_constant(tmp_path):
     assert (tmp_path / "a" / "atlas.png").stat().st_size > 1000
 
 
-@pytest.mark.parametrize("lo, hi, edge, tol", [
-    (0.34, 0.37, 1 / math.sqrt(8), 0.03 / 2**7),
+@pytest.mark.parametrize("lo, hi, edge, tol, steps", [
+    (0.34, 0.37, 1 / math.sqrt(8), 0.03 / 2**7, 7),
     # the reentrant pressure window closes as bQ -> 1/2; within ~1e-3 of the edge it is
     # narrower than the isobar anchors resolve, so the boundary is good to 1e-3 there
-    (0.49, 0.51, 0.5, 1e-3)])
-def test_born_infeld_boundaries_match_thresholds(tmp_path, lo, hi, edge, tol):
+    (0.49, 0.51, 0.5, 1e-3, 5)])
+def test_born_infeld_boundaries_match_thresholds(tmp_path, lo, hi, edge, tol, steps):
     """Signature boundaries along bQ (Q = 1) agree with the critical-point threshold
     bQ = 1/sqrt(8) (critical-point module; Gunasekaran, Kubiznak & Mann 2012) and with the
     upper edge 1/2 of the reentrant window (same paper, from memory)."""
     doc = scan("born-infeld-ads", [parse_grid(f"b={lo}:{hi}:2")], {"Q": 1.0}, tmp_path / "b",
-               refine=7)
+               refine=steps)
     (b,) = doc["boundaries"]
     assert abs(b["point"]["b"] - edge) <= tol
     assert b["between"][0] in ("no-transition", "reentrant+vdw-like")
