@@ -126,7 +126,8 @@ def load_family_file(path) -> list[Family]:
 
     A ``.py`` file is a Python plug-in with the same API as the bundled modules
     (it is executed: load only files you trust).  Declarative ``.toml`` files are
-    read by :mod:`chemistry.declarative` when available.
+    read by :mod:`chemistry.declarative` with a safe parser of our own (no Python
+    evaluation of their text).
 
     Raises
     ------
