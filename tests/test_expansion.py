@@ -129,15 +129,9 @@ def test_no_inversion_for_schwarzschild_ads():
 
 
 def _parser():
-    from chemistry.cli import _bound, parse_pressure
-    from chemistry.cli_analyses import register
-    parser = argparse.ArgumentParser(prog="bhchem")
-    common = argparse.ArgumentParser(add_help=False)
-    common.add_argument("--family-file", action="append")
-    sub = parser.add_subparsers(dest="command")
-    register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
-                           "BhchemError": BhchemError})
-    return parser
+    """The real command-line parser (the analysis commands are registered in it)."""
+    from chemistry.cli import build_parser
+    return build_parser()
 
 
 def test_cli_expansion_json_and_figure(capsys, tmp_path):
