@@ -265,6 +265,10 @@ def plot_gt(th, pressures=None) -> PlotResult:
             spin = [T for b in res.branches for e, T in zip(b.ends, (b.T_at_x_min, b.T_at_x_max))
                     if e == "spinodal" and T_lo <= T <= T_hi]
             spin += [t.T for t in res.transitions if t.kind != "second-order"]
+            # frame G on the swallowtail only when it spans a visible part of the window
+            # (just off a critical pressure it is infinitesimal)
+            if len(spin) >= 2 and max(spin) - min(spin) < 0.05 * (T_hi - T_lo):
+                spin = []
             core = (min(spin), max(spin)) if len(spin) >= 2 else (T_lo, T_hi)
             G_all, G_core = [], []
             for b in res.branches:
