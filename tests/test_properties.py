@@ -1,7 +1,9 @@
 """Property-based tests (hypothesis) over every bundled family and random physical parameters.
 
 Profiles (tests/conftest.py): the CI profile runs the number of examples set per property
-below; BHCHEM_HYPOTHESIS_PROFILE=long multiplies every count to at least 10^4:
+below, per family (about 100-200 per property across the nine families, fewer for the
+expensive isobar property); BHCHEM_HYPOTHESIS_PROFILE=long raises every count to at least
+10^4:
     BHCHEM_HYPOTHESIS_PROFILE=long python -m pytest tests/test_properties.py
 """
 import math
@@ -12,7 +14,7 @@ import pytest
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
-from chemistry import bind
+from chemistry import StateDomainError, bind
 from chemistry.checks import check_first_law, check_smarr
 from chemistry.critical import find_critical_points
 from chemistry.isobar import analyze_isobar
@@ -51,7 +53,7 @@ def family_params(draw, name):
 
 @pytest.mark.parametrize("name", FAMILIES)
 def test_first_law_and_smarr_hold(name):
-    @examples(8)
+    @examples(20)
     @given(family_params(name))
     def prop(params):
         th = bind(name, **params)
@@ -65,7 +67,7 @@ def test_first_law_and_smarr_hold(name):
 
 @pytest.mark.parametrize("name", FAMILIES)
 def test_critical_point_equations_hold(name):
-    @examples(6 if name.startswith("kerr") else 12)
+    @examples(8 if name.startswith("kerr") else 25)
     @given(family_params(name))
     def prop(params):
         s = find_critical_points(name, **params)
@@ -80,13 +82,16 @@ def test_critical_point_equations_hold(name):
 def test_coexisting_states_have_equal_T_P_G_and_G_is_continuous(name):
     """Every first-order/Hawking-Page transition: equal T and G (P is the isobar's); the
     preferred G(T) is continuous except at reported zeroth-order jumps."""
-    @examples(6)
+    @examples(12)
     @given(family_params(name), st.floats(0.05, 1.5))
     def prop(params, frac):
         th = bind(name, **params)
         cps = find_critical_points(th).physical
         P = frac * (cps[0].P if cps else th.typical_pressure())
-        res = analyze_isobar(th, P)
+        try:
+            res = analyze_isobar(th, P)
+        except StateDomainError:  # e.g. no AdS vacuum at this pressure: a clear refusal
+            assume(False)
         for t in res.transitions:
             if t.kind in ("first-order", "hawking-page"):
                 assert t.residual <= 1e-12, (params, t)
@@ -101,7 +106,7 @@ def test_coexisting_states_have_equal_T_P_G_and_G_is_continuous(name):
     prop()
 
 
-@examples(20)
+@examples(100)
 @given(st.floats(0.05, 0.95))
 def test_clausius_clapeyron_along_the_line(frac):
     """dP/dT = Delta S / Delta V along charged-AdS coexistence (Richardson slope, <= 1e-8)."""
@@ -119,7 +124,7 @@ def test_clausius_clapeyron_along_the_line(frac):
 def test_scale_invariance(name, param):
     """Results for a rescaled family equal the rescaled results: scale-free critical data
     are unchanged when every dimensionful parameter is rescaled by lambda^n."""
-    @examples(5 if name == "kerr-ads" else 10)
+    @examples(8 if name == "kerr-ads" else 40)
     @given(st.floats(-3, 3))
     def prop(log_lam):
         lam = 10.0 ** log_lam
