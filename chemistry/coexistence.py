@@ -258,6 +258,14 @@ def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool 
     return pt
 
 
+def _distance(pair, guess) -> float:
+    return max(abs(math.log(pair[0] / guess[0])), abs(math.log(pair[1] / guess[1])))
+
+
+def _close(pair, guess, tol: float = 0.5) -> bool:
+    return _distance(pair, guess) < tol
+
+
 @dataclass(frozen=True)
 class CoexistenceCurve:
     """Coexistence points at the requested pressures, and the pressures that failed."""
@@ -289,17 +297,21 @@ def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anch
     def coord(P):
         return np.sqrt(np.abs(1 - np.asarray(P) / cp.P)) if cp is not None else np.log(P)
 
-    def direct(P):
+    def direct(P, guess=None):
         if cp is not None:
             res = coexistence_near_critical(th, cp.x, cp.P, P)
-            if res is not None:
+            if res is not None and (guess is None or _close((res[1], res[2]), guess)):
                 return res[1], res[2]
-        tr = [t for t in analyze_isobar(th, P).transitions if t.kind == "first-order"]
-        if cp is not None:  # the transition of this line: the one whose T is nearest T_c
-            tr.sort(key=lambda t: abs(t.T - cp.T))
-        if tr:
-            return tuple(sorted((tr[0].states[0].x, tr[0].states[1].x)))
-        return None
+        tr = [tuple(sorted((t.states[0].x, t.states[1].x)))
+              for t in analyze_isobar(th, P).transitions if t.kind == "first-order"]
+        near = [pair for pair in tr if guess is not None and _close(pair, guess)]
+        if near:
+            # this line's pair: the one closest to the states interpolated along the line
+            near.sort(key=lambda pair: _distance(pair, guess))
+            return near[0]
+        if cp is not None:  # else the transition whose T is nearest T_c
+            tr.sort(key=lambda pair: abs(float(th.T(pair[0], P)) - cp.T))
+        return tr[0] if tr else None
 
     near = np.abs(1 - Ps / cp.P) < 1e-3 if cp is not None else np.zeros(Ps.shape, bool)
     far = Ps[~near]
@@ -324,11 +336,14 @@ def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anch
             for P, x1, x2, good in zip(far, a, b, ok & near):
                 if good:
                     solved[float(P)] = (x1, x2)
+    guesses = {}
+    if far.size and aP:
+        guesses = {float(P): (x1, x2) for P, x1, x2 in zip(far, g1, g2)}
     failed = []
     for P in Ps:
         if float(P) in solved:
             continue
-        pair = direct(P)
+        pair = direct(P, guesses.get(float(P)))
         if pair is None:
             failed.append(float(P))
         else:

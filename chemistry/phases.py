@@ -153,7 +153,19 @@ def _dense_first_order(th, members, anchors, n_dense, cp=None, ends=None):
             P1 = max(P1, ends["high"]["P"] * (1 - 1e-9))
     Ps = np.geomspace(P0, P1, n_dense) if len(ks) > 1 else np.array([P0])
     curve = coexistence_curve(th, Ps, critical_point=cp, checks=True)
-    return list(curve.points), curve.failed_pressures
+    # beyond the anchors (towards a triple or terminal point) a Newton-solved pair may be a
+    # metastable continuation of the line: keep it only if the preferred phase has it
+    a_lo, a_hi = anchors[ks[0]], anchors[ks[-1]]
+    pts = []
+    for p in curve.points:
+        if a_lo <= p.P <= a_hi or _preferred_transition_at(th, p):
+            pts.append(p)
+    return pts, curve.failed_pressures
+
+
+def _preferred_transition_at(th, p) -> bool:
+    iso = analyze_isobar(th, p.P)
+    return any(t.kind == "first-order" and abs(t.T - p.T) <= 1e-9 * p.T for t in iso.transitions)
 
 
 def _dense_zeroth_order(th, members, anchors, ends, n):
