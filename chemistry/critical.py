@@ -146,6 +146,19 @@ def find_critical_points(family, method: str = "auto", *, pressure_range=None,
         Parameter values (ignored when a Thermodynamics is passed).
     """
     th = family if isinstance(family, Thermodynamics) else bind(family, **params)
+    default = method == "auto" and pressure_range is None and state_range is None
+    if default:
+        # one search per bound family: isobars, plots and the phase diagram all ask for it
+        cached = getattr(th, "_critical_search", None)
+        if cached is not None:
+            return cached
+    result = _search(th, method, pressure_range, state_range)
+    if default:
+        th._critical_search = result
+    return result
+
+
+def _search(th, method, pressure_range, state_range) -> CriticalSearch:
     poly = None
     if method in ("auto", "certified"):
         poly = _certified_candidates(th)

@@ -161,11 +161,7 @@ def isotherm_pressure(th: Thermodynamics, x, T: float, P_guess) -> np.ndarray:
 
 def _critical_points(th: Thermodynamics):
     from .critical import find_critical_points
-    cached = getattr(th, "_response_cps", None)
-    if cached is None:
-        cached = find_critical_points(th).physical
-        th._response_cps = cached
-    return cached
+    return find_critical_points(th).physical  # computed once per bound family
 
 
 def _default_window(th: Thermodynamics) -> tuple[float, float]:
