@@ -123,12 +123,6 @@ def smarr_relation_text(th: Thermodynamics) -> str:
     return f"{_fmt_coef(d - 3)}M = " + " ".join(rhs)
 
 
-def _flatten(sample):
-    """Per-point arrays of (bound family, x, P) for every physical sample point."""
-    for bound, x, P in sample.points:
-        yield bound, x, P
-
-
 def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202) -> FirstLawResult:
     """Verify the first law at random physical states (see module docstring)."""
     der = th.derivation
@@ -162,7 +156,7 @@ def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202
                               "no physical state found to test the first law at")
     worst, worst_pt = 0.0, {}
     fd_worst = 0.0
-    for bound, xs, Ps in _flatten(sample):
+    for bound, xs, Ps in sample.points:
         pv = bound._param_values
         with np.errstate(all="ignore"):
             vals = [np.broadcast_to(np.asarray(v, float), xs.shape)
@@ -255,7 +249,7 @@ def check_smarr(th: Thermodynamics, n_points: int = 64, seed: int = 20261202) ->
                            "no physical state found to test the Smarr relation at")
     names = list(der.length_dimensions)
     rows_b, rows_A, scales = [], [], []
-    for bound, xs, Ps in _flatten(sample):
+    for bound, xs, Ps in sample.points:
         M = bound.M(xs, Ps)
         TS = bound.T(xs, Ps) * bound.S(xs, Ps)
         V = bound.V(xs, Ps) if der.volume_declared is None else _declared_volume(bound, xs, Ps)

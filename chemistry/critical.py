@@ -406,6 +406,12 @@ def _residuals(th: Thermodynamics, x: float, P: float) -> dict:
     return {"x*dT/dx/T": abs(x * Tx) / scale, "x^2*d2T/dx2/T": abs(x * x * Txx) / scale}
 
 
+def loop_side(th: Thermodynamics, cp: CriticalPoint) -> float:
+    """The sign of P - P_c on which the isobar has a loop (two extrema of T(x) near x_c):
+    -1 when the swallowtail lies below the critical pressure (as for charged AdS)."""
+    return -1.0 if _count_extrema(th, cp.x, cp.P * (1 - 1e-3)) >= 2 else 1.0
+
+
 def _isotherm_residuals(th: Thermodynamics, x_c: float, P_c: float, T_c: float) -> dict:
     """x P_x / P and x^2 P_xx / P on the isotherm P = T u - w (60 digits)."""
     u, w, x = _isotherm_form(th)
@@ -440,16 +446,6 @@ def _classify(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
         if abs(below - above) == 2:
             return "standard"
     return "degenerate"
-
-
-def _high_precision(th: Thermodynamics, name: str, x_c: float, P_c: float) -> float:
-    """A quantity at a removable singularity of its compiled form (0/0 at an isolated
-    critical point): cancel symbolically at P_c, then evaluate at 60 digits."""
-    der = th.derivation
-    subs = {s: _exact(th.values[s.name]) for s in der.parameters}
-    e = sp.cancel(sp.together(sp.sympify(der.quantities[name]).subs(subs)
-                              .subs(sy.P, sp.Rational(P_c))))
-    return float(sp.N(e.subs(der.state, sp.Rational(x_c)), 60))
 
 
 def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,

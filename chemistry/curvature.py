@@ -69,6 +69,7 @@ import sympy as sp
 
 from . import symbols as sy
 from .compiled import Thermodynamics, _lambdify
+from .critical import loop_side
 from .errors import BhchemError
 
 CONVENTION = {
@@ -209,11 +210,6 @@ class CriticalAmplitude:
     critical_point: object
 
 
-def _coexistence_side(th, cp) -> float:
-    from .critical import _count_extrema
-    return -1.0 if _count_extrema(th, cp.x, cp.P * (1 - 1e-3)) >= 2 else 1.0
-
-
 def critical_amplitude(th: Thermodynamics, cp=None, t_range=(1e-5, 1e-2), n: int = 40,
                        max_residual: float = 1e-6) -> CriticalAmplitude:
     """Fit the approach of R_N (1 - T/T_c)^2 along both coexisting branches.
@@ -237,7 +233,7 @@ def critical_amplitude(th: Thermodynamics, cp=None, t_range=(1e-5, 1e-2), n: int
             raise BhchemError(f"{th.family.name} has no standard critical point at these "
                               f"parameters: no critical amplitude")
         cp = cps[0]
-    side = _coexistence_side(th, cp)
+    side = loop_side(th, cp)
     rows = []
     # pressures whose coexistence temperatures cover t_range (t ~ |1 - P/P_c| up to O(1))
     for eps in np.geomspace(t_range[0] * 0.2, t_range[1] * 5, 4 * n):
@@ -380,7 +376,7 @@ def curvature_map(th: Thermodynamics, nx: int = 260, nT: int = 220, with_amplitu
 
 def _coexistence_rows(th, cp, n: int = 60) -> np.ndarray:
     from .coexistence import coexistence_curve
-    side = _coexistence_side(th, cp)
+    side = loop_side(th, cp)
     eps = np.unique(np.concatenate([np.geomspace(1e-6, 0.995, n), np.linspace(0.02, 0.995, n)]))
     Ps = cp.P * (1 + side * eps)
     Ps = Ps[Ps > 0]

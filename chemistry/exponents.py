@@ -32,11 +32,11 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 import sympy as sp
-from scipy.optimize import brentq
 
 from . import symbols as sy
 from .compiled import Thermodynamics
-from .critical import CriticalPoint, _count_extrema
+from .coexistence import _isotherm_pressure, coexistence_near_critical
+from .critical import CriticalPoint, loop_side
 
 ZERO_TOLERANCE = 1e-8
 
@@ -172,83 +172,27 @@ def _fit(xs, ys, sign: float = 1.0) -> tuple[float, float]:
     return sign * float(coef[1]), float(math.sqrt(max(cov[1, 1], 0.0)))
 
 
-def _pressure_at(th: Thermodynamics, x: float, T: float, P_guess: float) -> float:
-    """Solve T(x, P) = T for P by Newton (exact when T is linear in P)."""
-    P = P_guess
-    for _ in range(60):
-        f = float(th.T(x, P)) - T
-        fp = float(th.d("T", "P", x, P))
-        step = f / fp
-        P -= step
-        if abs(step) <= 1e-16 * abs(P):
-            break
-    return P
-
-
 def _fit_delta(th, cp) -> FittedExponent:
     om = np.geomspace(1e-3, 3e-2, 25)
-    vals = []
-    for w in om:
-        P = _pressure_at(th, cp.x * (1 + w), cp.T, cp.P)
-        vals.append(abs(P / cp.P - 1))
-    vals = np.array(vals)
+    vals = np.abs(_isotherm_pressure(th, cp.x * (1 + om), cp.T, cp.P) / cp.P - 1)
     e, s = _fit(om, vals)
     return FittedExponent(e, s, (1e-3, 3e-2), "critical isotherm, |P/P_c - 1| vs omega = x/x_c - 1")
 
 
 def _fit_gamma(th, cp) -> FittedExponent:
     ts = np.geomspace(1e-6, 1e-3, 25)
-    kap = []
-    for t in ts:
-        P = _pressure_at(th, cp.x, cp.T * (1 + t), cp.P)
-        kap.append(abs(float(th.quantity("kappa_T", cp.x, P))))
-    e, s = _fit(ts, np.array(kap), sign=-1.0)
+    # P on the critical isochore at each T (one vectorised Newton per temperature)
+    P = np.array([float(_isotherm_pressure(th, cp.x, cp.T * (1 + t), cp.P)) for t in ts])
+    kap = np.abs(th.quantity("kappa_T", cp.x, P))
+    e, s = _fit(ts, kap, sign=-1.0)
     return FittedExponent(e, s, (1e-6, 1e-3), "kappa_T on the critical isochore, t > 0")
 
 
-def coexistence_on_isobar_near_critical(th: Thermodynamics, cp: CriticalPoint, P: float,
-                                        half_width: float = 0.7):
-    """Equal T and G on the isobar P near a critical point: (T, x_small, x_large) or None.
-
-    Brackets the two spinodals (extrema of T(x)) within exp(+-half_width) of x_c,
-    then solves G(x_large(T)) = G(x_small(T)) for T between the spinodal temperatures.
-    """
-    xs = cp.x * np.exp(np.linspace(-half_width, half_width, 6001))
-    F = th.d("T", "x", xs, P)
-    s = np.where(F >= 0, 1.0, -1.0)
-    idx = np.nonzero(s[1:] * s[:-1] < 0)[0]
-    if len(idx) != 2:
-        return None
-    fx = lambda z: float(th.d("T", "x", z, P))  # noqa: E731
-    xa = brentq(fx, xs[idx[0]], xs[idx[0] + 1], xtol=1e-16, rtol=1e-15)
-    xb = brentq(fx, xs[idx[1]], xs[idx[1] + 1], xtol=1e-16, rtol=1e-15)
-    Ta, Tb = float(th.T(xa, P)), float(th.T(xb, P))
-    lo_x, hi_x = xs[0], xs[-1]
-
-    def branch(T, a, b):
-        return brentq(lambda z: float(th.T(z, P)) - T, a, b, xtol=1e-16, rtol=1e-15)
-
-    def dG(T):
-        x1 = branch(T, lo_x, xa)
-        x2 = branch(T, xb, hi_x)
-        return float(th.G(x2, P) - th.G(x1, P)), x1, x2
-
-    Tlo, Thi = min(Ta, Tb), max(Ta, Tb)
-    eps = 1e-14 * Thi
-    try:
-        T = brentq(lambda T: dG(T)[0], Tlo + eps, Thi - eps, xtol=1e-17, rtol=1e-15)
-    except ValueError:
-        return None
-    _, x1, x2 = dG(T)
-    return T, x1, x2
-
-
 def _fit_beta(th, cp) -> FittedExponent:
-    below = _count_extrema(th, cp.x, cp.P * (1 - 1e-3))
-    side = -1.0 if below == 2 else 1.0
+    side = loop_side(th, cp)
     taus, dvs = [], []
     for eps in np.geomspace(1e-5, 1e-2, 16):
-        res = coexistence_on_isobar_near_critical(th, cp, cp.P * (1 + side * eps))
+        res = coexistence_near_critical(th, cp.x, cp.P, cp.P * (1 + side * eps))
         if res is None:
             continue
         T, x1, x2 = res

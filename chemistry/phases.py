@@ -369,10 +369,10 @@ def takes_part_in_transition(th: Thermodynamics, cp, eps: float = 1e-4) -> bool 
     the side where the isobar has a loop, the preferred phase has a first-order
     transition whose coexisting states straddle x_c and whose T tends to T_c.
     None for degenerate or unphysical points."""
-    from .critical import _count_extrema
+    from .critical import loop_side
     if cp.kind == "degenerate" or not cp.physical:
         return None
-    side = -1.0 if _count_extrema(th, cp.x, cp.P * (1 - 1e-3)) >= 2 else 1.0
+    side = loop_side(th, cp)
     P = cp.P * (1 + side * eps)
     res = coexistence_near_critical(th, cp.x, cp.P, P)
     if res is None:

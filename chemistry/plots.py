@@ -205,9 +205,9 @@ def _coexistence_at_temperature(th, cp, T, solver):
     T: Brent's method in log P on the transition temperature of the isobar (full isobar
     analysis far from P_c, the near-critical solver close to it)."""
     from scipy.optimize import brentq
-    from .critical import _count_extrema
+    from .critical import loop_side
     from .isobar import analyze_isobar
-    side = 1.0 if _count_extrema(th, cp.x, cp.P * 1.001) >= 2 else -1.0
+    side = loop_side(th, cp)
 
     def transition(P):
         if abs(1 - P / cp.P) < 1e-3:
