@@ -256,11 +256,12 @@ def _stage_progress(args):
     return show
 
 
-def _add_family_args(p, json_help="machine-readable output"):
+def _add_family_args(p, json_help="machine-readable output", with_json=True):
     p.add_argument("family", help="family name (see 'bhchem families')")
     p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
                    help="parameter value (repeatable, or comma-separated)")
-    p.add_argument("--json", action="store_true", help=json_help)
+    if with_json:
+        p.add_argument("--json", action="store_true", help=json_help)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -313,9 +314,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("plot", parents=[common], help="a figure: pv, gt, pt, tr or cp")
     p.add_argument("kind", choices=KINDS, help="pv (isotherms), gt (G-T isobars), pt (phase "
                    "diagram), tr (T-r isobars), cp (heat capacity)")
-    p.add_argument("family", help="family name")
-    p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
-                   help="parameter value (repeatable, or comma-separated)")
+    _add_family_args(p, with_json=False)
     p.add_argument("-o", "--output", required=True, metavar="FILE",
                    help="output file (.png, .pdf or .svg)")
     p.add_argument("--pressure", action="append", metavar="P",
@@ -324,9 +323,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("report", parents=[common],
                        help="report bundle: figures, report.md, tables.tex, results.json")
-    p.add_argument("family", help="family name")
-    p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
-                   help="parameter value (repeatable, or comma-separated)")
+    _add_family_args(p, with_json=False)
     p.add_argument("-o", "--output", required=True, metavar="DIR", help="output folder")
     p.add_argument("--digits", type=int, default=6, help="significant digits in tables (6)")
     p.add_argument("--force", action="store_true", help="replace an existing folder")

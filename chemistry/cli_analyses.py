@@ -51,34 +51,11 @@ def _finish(args, doc: dict, text: str, figure) -> int:
         from .registry import get_family
         if "convention" not in doc:
             doc = {**doc, "convention": convention_record(get_family(args.family))}
-        print(json.dumps(_clean(doc), indent=2, sort_keys=True, allow_nan=False,
-                         default=_jsonable))
+        from .report import _finite
+        print(json.dumps(_finite(doc), indent=2, sort_keys=True, allow_nan=False))
     else:
         print(text)
     return 0
-
-
-def _clean(obj):
-    """Non-finite floats become null (strict JSON has no NaN or Infinity)."""
-    if isinstance(obj, dict):
-        return {k: _clean(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_clean(v) for v in obj]
-    if isinstance(obj, float) and not math.isfinite(obj):
-        return None
-    return obj
-
-
-def _jsonable(obj):
-    try:
-        import numpy as np
-        if isinstance(obj, np.generic):
-            return obj.item()
-        if isinstance(obj, np.ndarray):
-            return obj.tolist()
-    except ImportError:  # pragma: no cover
-        pass
-    raise TypeError(f"not JSON serialisable: {type(obj).__name__}")
 
 
 def register(sub, common, helpers: dict) -> None:

@@ -41,6 +41,8 @@ def _finite(x):
         return {str(k): _finite(v) for k, v in x.items()}
     if isinstance(x, (list, tuple)):
         return [_finite(v) for v in x]
+    if hasattr(x, "tolist") and getattr(x, "ndim", 0) > 0:  # numpy arrays
+        return _finite(x.tolist())
     if hasattr(x, "item") and not isinstance(x, (str, bytes)):  # numpy scalars
         try:
             return _finite(x.item())
