@@ -147,8 +147,8 @@ def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202
         rows.append((sp.diff(M, s), T * sp.diff(S, s), q[f"Phi_{s.name}"]))
     exprs = [e for row in rows for e in row]
     exprs = [e.replace(sp.exp_polar, sp.exp) if e.has(sp.exp_polar) else e for e in exprs]
-    from .compiled import _BROADCASTING
-    f = sp.lambdify(args, exprs, modules=[*_modules(exprs)[:-1], _BROADCASTING, "numpy"], cse=True)
+    from .compiled import lambdify_modules
+    f = sp.lambdify(args, exprs, modules=lambdify_modules(exprs), cse=True)
 
     sample = physical_sample(th, n_points, seed=seed)
     if sample.n_points == 0:
@@ -183,13 +183,6 @@ def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202
                f"(finite differences {fd_worst:.1e}) at x={worst_pt.get('x', float('nan')):.6g}, "
                f"P={worst_pt.get('P', float('nan')):.6g}")
     return FirstLawResult(holds, worst, fd_worst, sample.n_points, proved, msg, worst_pt)
-
-
-def _modules(exprs):
-    from .compiled import _special_functions
-    if any(e.has(sp.hyper) for e in exprs):
-        return [_special_functions(), "numpy"]
-    return ["numpy"]
 
 
 def _finite_difference_residual(bound: Thermodynamics, xs, Ps) -> float:

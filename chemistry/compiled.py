@@ -50,6 +50,13 @@ def _broadcast_reduce(op):
 _BROADCASTING = {"amax": _broadcast_reduce(np.maximum), "amin": _broadcast_reduce(np.minimum)}
 
 
+def lambdify_modules(exprs) -> list:
+    """The numeric namespace for lambdify: broadcasting max/min, and 2F1 when needed."""
+    if any(e.has(sp.hyper) for e in exprs):
+        return [_special_functions(), _BROADCASTING, "numpy"]
+    return [_BROADCASTING, "numpy"]
+
+
 def _lambdify_condition(args, expr) -> Callable:
     """Boolean combinations are compiled piecewise so that operands of different shapes
     (a parameter-only clause next to a state-dependent one) broadcast."""
@@ -74,10 +81,7 @@ def _lambdify(args, expr) -> Callable:
     # sympy's hypergeometric simplifications may leave exp_polar (branch bookkeeping);
     # on the real line it is plain exp
     expr = expr.replace(sp.exp_polar, sp.exp) if expr.has(sp.exp_polar) else expr
-    modules = [_BROADCASTING, "numpy"]
-    if expr.has(sp.hyper):
-        modules = [_special_functions(), _BROADCASTING, "numpy"]
-    f = sp.lambdify(args, expr, modules=modules, cse=True)
+    f = sp.lambdify(args, expr, modules=lambdify_modules([expr]), cse=True)
     if expr.free_symbols & {args[0], args[1]}:
         return f
 
