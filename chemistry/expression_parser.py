@@ -30,7 +30,7 @@ Implicit multiplication (``2r``, ``2 (r+1)``, ``r(r+1)``) is refused: write ``*`
 
 Names: the symbols the caller declares, the constants ``pi``, ``e`` (= ``E``)
 and the functions of :data:`FUNCTIONS` (sqrt, exp, log, sin, cos, tan, sinh,
-cosh, tanh, atan/arctan, abs, gamma, hyp2f1(a, b, c, z) = 2F1(a, b; c; z) and
+cosh, tanh, atan/arctan, abs, ln (= log), gamma, hyp2f1(a, b, c, z) = 2F1(a, b; c; z) and
 omega(d) = the volume of the unit (d-2)-sphere).
 
 Limits (every input, valid or not, is dealt with in well under a second):
@@ -207,6 +207,7 @@ FUNCTIONS: dict[str, Function] = {
     "sqrt": Function(1, sp.sqrt, "square root", cmath.sqrt),
     "exp": Function(1, sp.exp, "exponential", cmath.exp),
     "log": Function(1, sp.log, "natural logarithm", cmath.log),
+    "ln": Function(1, sp.log, "natural logarithm (same as log)", cmath.log),
     "sin": Function(1, sp.sin, "sine", cmath.sin),
     "cos": Function(1, sp.cos, "cosine", cmath.cos),
     "tan": Function(1, sp.tan, "tangent", cmath.tan),
