@@ -21,7 +21,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from chemistry.atlas import analyse_point, parse_grid, scan  # noqa: E402
+from bhchem.workflows.atlas import analyse_point, parse_grid, scan  # noqa: E402
 
 CASES = [("rn-ads", "Q=log:0.1:10:200", {}),
          ("born-infeld-ads", "b=0.36:0.6:12", {"Q": 1.0}),

@@ -28,14 +28,14 @@ def cold_show(repeats: int = 5) -> list[float]:
     times = []
     for _ in range(repeats):
         t0 = time.perf_counter()
-        subprocess.run([sys.executable, "-m", "chemistry", "show", "rn-ads", "-p", "Q=1"],
+        subprocess.run([sys.executable, "-m", "bhchem", "show", "rn-ads", "-p", "Q=1"],
                        check=True, capture_output=True)
         times.append(time.perf_counter() - t0)
     return times
 
 
 def tool_evaluation(n: int) -> tuple[float, np.ndarray]:
-    from chemistry import bind
+    from bhchem import bind
     th = bind("rn-ads", Q=1.0)
     rng = np.random.default_rng(1)
     x = rng.uniform(0.2, 5.0, n)

@@ -23,8 +23,8 @@ from scipy.optimize import fsolve
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from chemistry import bind  # noqa: E402
-from chemistry.critical_scan import critical_scan  # noqa: E402
+from bhchem import bind  # noqa: E402
+from bhchem.analysis.critical_scan import critical_scan  # noqa: E402
 
 
 def hand(th_for, values, guess):

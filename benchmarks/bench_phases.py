@@ -23,10 +23,10 @@ from scipy.optimize import fsolve
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from chemistry import bind  # noqa: E402
-from chemistry.coexistence import coexistence_curve  # noqa: E402
-from chemistry.critical import find_critical_points  # noqa: E402
-from chemistry.registry import available_families  # noqa: E402
+from bhchem import bind  # noqa: E402
+from bhchem.analysis.coexistence import coexistence_curve  # noqa: E402
+from bhchem.analysis.critical import find_critical_points  # noqa: E402
+from bhchem.declare.registry import available_families  # noqa: E402
 
 PC = 1 / (96 * math.pi)
 TC = math.sqrt(6) / (18 * math.pi)
@@ -82,7 +82,7 @@ def main() -> None:
     print("full 'bhchem phases' wall time per bundled family (default parameters):")
     for name in available_families():
         t0 = time.perf_counter()
-        proc = subprocess.run([sys.executable, "-m", "chemistry", "phases", name, "--quiet"],
+        proc = subprocess.run([sys.executable, "-m", "bhchem", "phases", name, "--quiet"],
                               capture_output=True, text=True)
         dt = time.perf_counter() - t0
         status = "ok" if proc.returncode == 0 else f"exit {proc.returncode}: {proc.stderr.strip()}"

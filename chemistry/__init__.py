@@ -1,45 +1,74 @@
-"""chemistry: the engine of bhchem, black hole chemistry in the extended phase space.
+"""bhchem: black hole chemistry in the extended phase space.
 
-Public API
-----------
-Family, Parameter, Domain        declare a family (see DEVELOPERS.md)
-bind(family, **params)           a family at parameter values -> Thermodynamics
-derive(family, **discrete)       the symbolic derivation (cached)
-check_first_law, check_smarr     verdicts with residuals
-get_family, available_families, load_family_file, register
+Layers (imports only go down; ``tests/test_layering.py`` holds the contract):
+
+=============  =============================================================
+``cli``        the ``bhchem`` command: parses arguments, calls workflows and analyses
+``workflows``  orchestration: report bundles, the demo, the parameter atlas
+``present``    JSON/text/LaTeX serialisation and figures: formats what it is given
+``analysis``   critical points, exponents, isobars, coexistence, phase diagrams,
+               response, expansion, engines, curvature: frozen result objects only
+``numerics``   shared numerical kernels (sign changes and brackets, isotherm pressure)
+``core``       derivation (sympy), compiled numerics (numpy), first-law/Smarr checks
+``declare``    families as data: Family, Parameter, Domain, symbols, file formats, registry
+base           ``errors``, ``conventions``, ``fileio``
+=============  =============================================================
 
 Conventions: G = c = hbar = k_B = 1; P = -Lambda/(8 pi) = (d-1)(d-2)/(16 pi L^2);
 M is the enthalpy; V = (dM/dP)_{S,q}; v = 4 r+/(d-2); G = M - T S.
+
+Examples
+--------
+The 4D charged AdS black hole has one critical point, T_c = sqrt(6)/(18 pi Q) and
+P_c = 1/(96 pi Q^2) (Kubiznak & Mann, JHEP 07 (2012) 033):
+
+>>> import math, bhchem
+>>> th = bhchem.bind("rn-ads", Q=1.0)
+>>> (cp,) = bhchem.find_critical_points(th).physical
+>>> abs(cp.T * 18 * math.pi / math.sqrt(6) - 1) < 1e-12, abs(cp.P * 96 * math.pi - 1) < 1e-12
+(True, True)
 """
-from .domain import Domain
-from .family import Family, Parameter
-from .errors import (BhchemError, ConvergenceError, DuplicateFamilyError,
-                     MalformedFamilyError, ParameterDomainError, StateDomainError,
-                     UnknownFamilyError, UnknownParameterError)
+from bhchem.errors import (BhchemError, ConvergenceError, DuplicateFamilyError,
+                           MalformedFamilyError, ParameterDomainError, StateDomainError,
+                           UnknownFamilyError, UnknownParameterError)
+from bhchem.declare.domain import Domain
+from bhchem.declare.family import Family, Parameter
+from bhchem.declare.registry import (available_families, get_family, load_family_file,
+                                     register)
+from bhchem.core.derive import Derivation, derive
+from bhchem.core.compiled import State, Thermodynamics, bind
+from bhchem.core.checks import FirstLawResult, SmarrResult, check_first_law, check_smarr
+from bhchem.analysis.critical import CriticalPoint, CriticalSearch, find_critical_points
+from bhchem.analysis.critical_scan import CriticalScan, critical_scan
+from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_exponents
+from bhchem.analysis.isobar import IsobarResult, Transition, analyze_isobar
+from bhchem.analysis.coexistence import CoexistenceCurve, coexistence_curve
+from bhchem.analysis.phases import PhaseDiagram, PhaseLine, TriplePoint, phase_diagram
+from bhchem.present.plots import (EmptyFigureError, PlotResult, plot_cp, plot_gt, plot_pt,
+                                  plot_pv, plot_tr, save)
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"
 
-
-def __getattr__(name):
-    # heavy parts load on first use, so that declaring a family stays cheap
-    if name in ("bind", "Thermodynamics", "State"):
-        from . import compiled
-        return getattr(compiled, name)
-    if name in ("derive", "Derivation"):
-        from . import derive as _d
-        return getattr(_d, name)
-    if name in ("check_first_law", "check_smarr", "FirstLawResult", "SmarrResult"):
-        from . import checks
-        return getattr(checks, name)
-    if name in ("get_family", "available_families", "load_family_file", "register"):
-        from . import registry
-        return getattr(registry, name)
-    raise AttributeError(f"module 'chemistry' has no attribute {name!r}")
-
-
-__all__ = ["Domain", "Family", "Parameter", "BhchemError", "ConvergenceError",
-           "DuplicateFamilyError", "MalformedFamilyError", "ParameterDomainError",
-           "StateDomainError", "UnknownFamilyError", "UnknownParameterError",
-           "bind", "Thermodynamics", "State", "derive", "Derivation", "check_first_law",
-           "check_smarr", "FirstLawResult", "SmarrResult", "get_family",
-           "available_families", "load_family_file", "register", "__version__"]
+__all__ = [
+    # declaring families
+    "Domain", "Family", "Parameter", "available_families", "get_family",
+    "load_family_file", "register",
+    # derivation and checks
+    "Derivation", "derive", "State", "Thermodynamics", "bind",
+    "FirstLawResult", "SmarrResult", "check_first_law", "check_smarr",
+    # analyses and their results
+    "CriticalPoint", "CriticalSearch", "find_critical_points",
+    "CriticalScan", "critical_scan",
+    "ExponentResult", "critical_exponents", "exact_exponents",
+    "IsobarResult", "Transition", "analyze_isobar",
+    "CoexistenceCurve", "coexistence_curve",
+    "PhaseDiagram", "PhaseLine", "TriplePoint", "phase_diagram",
+    # figures
+    "EmptyFigureError", "PlotResult", "plot_cp", "plot_gt", "plot_pt", "plot_pv",
+    "plot_tr", "save",
+    # errors
+    "BhchemError", "ConvergenceError", "DuplicateFamilyError", "MalformedFamilyError",
+    "ParameterDomainError", "StateDomainError", "UnknownFamilyError",
+    "UnknownParameterError",
+    "__version__",
+]

@@ -1,6 +1,6 @@
-"""``python -m chemistry`` is ``bhchem``."""
+"""``python -m bhchem`` is ``bhchem``."""
 import sys
 
-from .cli import main
+from bhchem.cli.main import main
 
 sys.exit(main())

@@ -29,7 +29,7 @@ with the Smarr relation M = 2TS - 2PV + Phi Q - B b (b has length dimension -1).
 
 Numerics: b^2 r^2 (1 - sqrt(1 + x)) is written as the algebraically identical
 -(Q^2/r^2)/(1 + sqrt(1 + x)), which has no cancellation as b -> infinity (x -> 0); the
-hypergeometric functions are evaluated by chemistry.special (scipy's hyp2f1, accurate to
+hypergeometric functions are evaluated by bhchem.core.special (scipy's hyp2f1, accurate to
 ~1e-14 over -1e12 <= z <= 0, checked against mpmath in tests/test_born_infeld_ads.py).
 M is declared as a plain sum of terms.  The engine's tidy() (sympy.simplify) keeps that
 form because it is already the shortest; written as r/2 [1 + ...] it would be put over the
@@ -40,8 +40,8 @@ to rn-ads in 4D.
 """
 import sympy as sp
 
-from chemistry import Domain, Family, Parameter
-from chemistry.symbols import P, parameter_symbol, pi, r
+from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.symbols import P, parameter_symbol, pi, r
 
 b = parameter_symbol("b")
 Q = parameter_symbol("Q")

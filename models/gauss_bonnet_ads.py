@@ -49,8 +49,8 @@ they keep the square root positive for all r >= r+.  S > 0 and T >= 0 are added 
 """
 import sympy as sp
 
-from chemistry import Domain, Family, Parameter
-from chemistry.symbols import P, d, k, omega, parameter_symbol, pi, r
+from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.symbols import P, d, k, omega, parameter_symbol, pi, r
 
 alpha = parameter_symbol("alpha")
 Q = parameter_symbol("Q")

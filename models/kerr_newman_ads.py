@@ -40,8 +40,8 @@ they never bind; they are declared to state the domain the relation describes.
 """
 import sympy as sp
 
-from chemistry import Domain, Family, Parameter
-from chemistry.symbols import P, S, parameter_symbol, pi
+from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.symbols import P, S, parameter_symbol, pi
 
 J = parameter_symbol("J")
 Q = parameter_symbol("Q")

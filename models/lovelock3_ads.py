@@ -55,8 +55,8 @@ m/r^(d-1) - q^2/r^(2d-4) stays below Upsilon(g*).
 """
 import sympy as sp
 
-from chemistry import Domain, Family, Parameter
-from chemistry.symbols import P, d, k, omega, parameter_symbol, pi, r
+from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.symbols import P, d, k, omega, parameter_symbol, pi, r
 
 alpha2 = parameter_symbol("alpha2")
 alpha3 = parameter_symbol("alpha3")

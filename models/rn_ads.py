@@ -20,8 +20,8 @@ In 4D, Q = q and M = r(1 + 8 pi P r^2/3 + Q^2/r^2)/2 (Kubiznak & Mann, JHEP 07
 """
 import sympy as sp
 
-from chemistry import Domain, Family, Parameter
-from chemistry.symbols import P, d, omega, parameter_symbol, pi, r
+from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.symbols import P, d, omega, parameter_symbol, pi, r
 
 Q = parameter_symbol("Q")
 _Om = omega(d)

@@ -12,8 +12,8 @@ Phys. 87 (1983) 577; d-dimensional form as in Kubiznak, Mann & Teo, CQG 34
 """
 import sympy as sp
 
-from chemistry import Domain, Family, Parameter
-from chemistry.symbols import P, d, omega, pi, r
+from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.symbols import P, d, omega, pi, r
 
 _Om = omega(d)
 

@@ -16,8 +16,8 @@ Critical point: v_c = 3b, T_c = 8a/(27b), P_c = a/(27 b^2).
 """
 import sympy as sp
 
-from chemistry import Domain, Family, Parameter
-from chemistry.symbols import P, parameter_symbol, v
+from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.symbols import P, parameter_symbol, v
 
 a = parameter_symbol("a")
 b = parameter_symbol("b")

@@ -20,10 +20,10 @@ import math
 import numpy as np
 import pytest
 
-from chemistry import ParameterDomainError, UnknownParameterError, bind
-from chemistry.checks import check_first_law, check_smarr
-from chemistry.derive import CORE_QUANTITIES
-from chemistry.registry import get_family
+from bhchem import ParameterDomainError, UnknownParameterError, bind
+from bhchem.core.checks import check_first_law, check_smarr
+from bhchem.core.derive import CORE_QUANTITIES
+from bhchem.declare.registry import get_family
 
 
 def _outside_values(domain):
@@ -85,7 +85,7 @@ class FamilyContract:
             assert st.T[i, j] == pytest.approx(float(th.T(x[i, 0], P[0, j])), rel=1e-14)
 
     def test_physical_states_exist(self):
-        from chemistry.sampling import physical_sample
+        from bhchem.core.sampling import physical_sample
         for values, th in self.bound():
             assert physical_sample(th, 16).n_points > 0, values
 

@@ -4,9 +4,9 @@ import math
 
 import pytest
 
-from chemistry.atlas import parse_grid, scan
-from chemistry.cli import main
-from chemistry.critical import find_critical_points
+from bhchem.workflows.atlas import parse_grid, scan
+from bhchem.cli.main import main
+from bhchem.analysis.critical import find_critical_points
 
 
 def test_rn_ads_scale_free_values_are_constant(tmp_path):
@@ -77,7 +77,7 @@ def test_dask_local_cluster_gives_identical_table(tmp_path):
 
 def test_failed_points_are_recorded(tmp_path):
     """A point that fails is a row with its error, never dropped."""
-    import chemistry.atlas as atlas
+    import bhchem.workflows.atlas as atlas
     doc = scan("schwarzschild-ads", [parse_grid("d=4:5:2")], {}, tmp_path / "f", refine=0)
     assert all(r["error"] == "" for r in doc["rows"])
     row = atlas.analyse_point("rn-ads", None, {"Q": -1.0})

@@ -24,9 +24,9 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from chemistry import bind
-from chemistry.checks import check_first_law, check_smarr
-from chemistry.special import hyp2f1_real
+from bhchem import bind
+from bhchem.core.checks import check_first_law, check_smarr
+from bhchem.core.special import hyp2f1_real
 from contract import FamilyContract
 
 
@@ -83,7 +83,7 @@ HYPER_PARAMETERS = [(0.25, 0.5, 1.25), (1.25, 1.5, 2.25), (2.25, 2.5, 3.25), (3.
 
 @pytest.mark.parametrize("a, b_, c", HYPER_PARAMETERS)
 def test_hyp2f1_matches_mpmath_over_the_whole_range(a, b_, c):
-    """chemistry.special.hyp2f1_real (scipy) against mpmath.hyp2f1 at 30 digits for
+    """bhchem.core.special.hyp2f1_real (scipy) against mpmath.hyp2f1 at 30 digits for
     -1e12 <= z <= -1e-8 (log-spaced, plus random points and the transformation region
     around z = -1): relative error below 5e-14 (measured: 1.1e-14 at worst)."""
     rng = np.random.default_rng(11)

@@ -1,9 +1,9 @@
 """The first-law and Smarr verdicts must fail, and say why, on faulty families."""
 import pytest
 
-from chemistry import Domain, Family, Parameter, bind
-from chemistry.checks import check_first_law, check_smarr
-from chemistry.symbols import P, parameter_symbol, pi, r
+from bhchem import Domain, Family, Parameter, bind
+from bhchem.core.checks import check_first_law, check_smarr
+from bhchem.declare.symbols import P, parameter_symbol, pi, r
 
 Q = parameter_symbol("Q")
 _M = r / 2 * (1 + 8 * pi * P * r**2 / 3 + Q**2 / r**2)  # 4D charged AdS (Kubiznak & Mann 2012)

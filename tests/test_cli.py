@@ -5,7 +5,7 @@ import sys
 
 import pytest
 
-from chemistry.cli import main
+from bhchem.cli.main import main
 
 
 def run(capsys, *argv):
@@ -81,7 +81,7 @@ def test_bad_input_one_line_exit_2(capsys, argv, match):
 def test_console_script_subprocess_no_traceback(tmp_path):
     bad = tmp_path / "broken.py"
     bad.write_text("FAMILY = ")
-    proc = subprocess.run([sys.executable, "-m", "chemistry", "show", "x", "--family-file",
+    proc = subprocess.run([sys.executable, "-m", "bhchem", "show", "x", "--family-file",
                            str(bad)], capture_output=True, text=True, timeout=120)
     assert proc.returncode == 2
     assert proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr
@@ -91,8 +91,8 @@ def test_console_script_subprocess_no_traceback(tmp_path):
 def test_plugin_file_via_cli(tmp_path, capsys):
     path = tmp_path / "cli_family.py"
     path.write_text(
-        "from chemistry import Domain, Family, Parameter\n"
-        "from chemistry.symbols import P, parameter_symbol, pi, r\n"
+        "from bhchem import Domain, Family, Parameter\n"
+        "from bhchem.declare.symbols import P, parameter_symbol, pi, r\n"
         "FAMILY = Family(name='cli-plugin-family', summary='plug-in', reference='none',\n"
         "                enthalpy=r / 2 * (1 + 8 * pi * P * r**2 / 3), entropy=pi * r**2)\n")
     code, out, err = run(capsys, "show", "cli-plugin-family", "--family-file", str(path), "--json")

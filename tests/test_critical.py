@@ -4,10 +4,10 @@ import math
 
 import pytest
 
-from chemistry import bind
-from chemistry.cli import main
-from chemistry.critical import find_critical_points
-from chemistry.exponents import critical_exponents
+from bhchem import bind
+from bhchem.cli.main import main
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.exponents import critical_exponents
 
 
 def rel(a, b):

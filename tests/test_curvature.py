@@ -1,4 +1,4 @@
-"""Ruppeiner curvature and the normalised curvature R_N (chemistry.curvature).
+"""Ruppeiner curvature and the normalised curvature R_N (bhchem.analysis.curvature).
 
 Sources: Wei, Liu & Mann, PRL 123 (2019) 071103, arXiv:1906.10840 (R_N = R C_V for C_V -> 0;
 universal amplitude -1/8 along the coexisting branches; abstract verified, the printed
@@ -16,11 +16,11 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from chemistry import Family, bind
-from chemistry.curvature import (_brioschi_R, critical_amplitude, curvature_map,
+from bhchem import Family, bind
+from bhchem.analysis.curvature import (_brioschi_R, critical_amplitude, curvature_map,
                                  isochore_amplitude, normalised_curvature, ruppeiner_scalar)
-from chemistry.errors import BhchemError
-from chemistry.symbols import P as Psym, v as vsym
+from bhchem.errors import BhchemError
+from bhchem.declare.symbols import P as Psym, v as vsym
 
 
 def test_sign_convention_two_sphere():
@@ -133,7 +133,7 @@ def test_amplitude_universal_in_higher_d():
 
 def _parser():
     """The real command-line parser (the analysis commands are registered in it)."""
-    from chemistry.cli import build_parser
+    from bhchem.cli.main import build_parser
     return build_parser()
 
 

@@ -13,12 +13,13 @@ import sympy as sp
 from hypothesis import given
 from hypothesis import strategies as st
 
-from chemistry import bind, registry
-from chemistry.checks import check_first_law, check_smarr
-from chemistry.declarative import load_declarative, parse_domain
-from chemistry.domain import Domain
-from chemistry.errors import MalformedFamilyError
-from chemistry.family import Family
+from bhchem import bind
+from bhchem.declare import registry
+from bhchem.core.checks import check_first_law, check_smarr
+from bhchem.declare.declarative import load_declarative, parse_domain
+from bhchem.declare.domain import Domain
+from bhchem.errors import MalformedFamilyError
+from bhchem.declare.family import Family
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLE = ROOT / "examples" / "families" / "rn_ads_declarative.toml"
@@ -27,19 +28,8 @@ EXAMPLE = ROOT / "examples" / "families" / "rn_ads_declarative.toml"
 @pytest.fixture
 def clean_registry():
     """The registry as it was before the test (other modules register families at import)."""
-    registry.available_families()  # discover first, so that the snapshot is complete
-    with registry._lock:
-        saved = dict(registry._families), dict(registry._origins), registry._discovered
-        for name in ("rn-ads-file", "toy"):
-            registry._families.pop(name, None)
-            registry._origins.pop(name, None)
-    yield
-    with registry._lock:
-        registry._families.clear()
-        registry._families.update(saved[0])
-        registry._origins.clear()
-        registry._origins.update(saved[1])
-        registry._discovered = saved[2]
+    with registry.registry_scope("rn-ads-file", "toy"):
+        yield
 
 
 @pytest.fixture(scope="module")
@@ -50,7 +40,7 @@ def file_family():
 
 # -- the example file -----------------------------------------------------------------------------
 def test_example_declares_rn_ads_under_another_name(file_family):
-    from models.rn_ads import FAMILY as bundled
+    from bhchem.models.rn_ads import FAMILY as bundled
     fam = file_family
     assert isinstance(fam, Family) and fam.name == "rn-ads-file"
     assert fam.reference == bundled.reference
@@ -97,7 +87,7 @@ def test_example_loads_through_the_registry(clean_registry):
 
 def _cli(*args, timeout=120):
     env = {**os.environ, "PYTHONPATH": str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", "")}
-    return subprocess.run([sys.executable, "-m", "chemistry", *args], cwd=ROOT, env=env,
+    return subprocess.run([sys.executable, "-m", "bhchem", *args], cwd=ROOT, env=env,
                           capture_output=True, text=True, timeout=timeout)
 
 

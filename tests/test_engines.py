@@ -1,4 +1,4 @@
-"""Holographic heat engines (chemistry.engines).
+"""Holographic heat engines (bhchem.analysis.engines).
 
 Sources: Johnson, CQG 31 (2014) 205002, arXiv:1404.5982 (holographic heat engines; for
 static holes C_V = 0, so isochores are adiabats and the Carnot cycle is isotherm-isochore-
@@ -15,9 +15,9 @@ import math
 
 import pytest
 
-from chemistry import bind
-from chemistry.engines import CycleError, analyze_cycle, parse_cycle
-from chemistry.errors import BhchemError, StateDomainError
+from bhchem import bind
+from bhchem.analysis.engines import CycleError, analyze_cycle, parse_cycle
+from bhchem.errors import BhchemError, StateDomainError
 
 Q = 1.0
 
@@ -156,7 +156,7 @@ def test_counter_clockwise_is_a_refrigerator_and_bad_sides_are_errors():
 
 def _parser():
     """The real command-line parser (the analysis commands are registered in it)."""
-    from chemistry.cli import build_parser
+    from bhchem.cli.main import build_parser
     return build_parser()
 
 

@@ -3,7 +3,8 @@ from pathlib import Path
 
 import sympy as sp
 
-from chemistry import bind, registry
+from bhchem import bind
+from bhchem.declare import registry
 from contract import FamilyContract
 
 EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "families" / "dressed_rn_ads.py"
@@ -17,7 +18,7 @@ class TestDressedRnAdsContract(FamilyContract):
 
 def test_smarr_relation_has_the_coupling_term():
     """Euler scaling with [lam] = L^4: M = 2TS - 2PV + Phi_Q Q + 4 Phi_lam lam (exact)."""
-    from chemistry.checks import check_smarr
+    from bhchem.core.checks import check_smarr
     res = check_smarr(bind("dressed-rn-ads"))
     assert res.relation == "M = 2 T S - 2 P V + Phi_Q Q + 4 Phi_lam lam"
     assert res.holds

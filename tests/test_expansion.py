@@ -1,4 +1,4 @@
-"""Joule-Thomson expansion (chemistry.expansion).
+"""Joule-Thomson expansion (bhchem.analysis.expansion).
 
 Sources: Okcu & Aydiner, EPJC 77 (2017) 24, arXiv:1611.06327 (charged AdS 4D:
 T_i,min / T_c = 1/2); Mo, Li, Lan & Xu, arXiv:1804.02650 (d-dimensional charged AdS: the
@@ -15,11 +15,11 @@ import math
 import numpy as np
 import pytest
 
-from chemistry import bind
-from chemistry.errors import BhchemError
-from chemistry.expansion import (inversion_curve, inversion_states, isenthalp,
+from bhchem import bind
+from bhchem.errors import BhchemError
+from bhchem.analysis.expansion import (inversion_curve, inversion_states, isenthalp,
                                  joule_thomson_coefficient, joule_thomson_expansion)
-from chemistry.response import response_functions
+from bhchem.analysis.response import response_functions
 
 Q = 1.0
 
@@ -130,7 +130,7 @@ def test_no_inversion_for_schwarzschild_ads():
 
 def _parser():
     """The real command-line parser (the analysis commands are registered in it)."""
-    from chemistry.cli import build_parser
+    from bhchem.cli.main import build_parser
     return build_parser()
 
 

@@ -13,10 +13,10 @@ import sympy as sp
 from hypothesis import given
 from hypothesis import strategies as st
 
-from chemistry import expression_parser as ep
-from chemistry import symbols as sy
-from chemistry.errors import MalformedFamilyError
-from chemistry.expression_parser import (ExpressionError, parse, parse_condition,
+from bhchem.declare import expression_parser as ep
+from bhchem.declare import symbols as sy
+from bhchem.errors import MalformedFamilyError
+from bhchem.declare.expression_parser import (ExpressionError, parse, parse_condition,
                                          parse_expression, time_limit)
 
 r = sp.Symbol("r", positive=True)

@@ -5,10 +5,10 @@ import math
 import numpy as np
 import pytest
 
-from chemistry import bind
-from chemistry.critical import find_critical_points
-from chemistry.exponents import critical_exponents
-from chemistry.phases import phase_diagram
+from bhchem import bind
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.exponents import critical_exponents
+from bhchem.analysis.phases import phase_diagram
 
 
 def rel(a, b):

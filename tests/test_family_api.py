@@ -1,4 +1,5 @@
 """Declaration API, domains, registry and plug-in files."""
+import dataclasses
 import math
 import textwrap
 
@@ -6,9 +7,10 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from chemistry import (Domain, DuplicateFamilyError, Family, MalformedFamilyError, Parameter,
-                       UnknownFamilyError, bind, registry)
-from chemistry.symbols import P, parameter_symbol, pi, r
+from bhchem import (Domain, DuplicateFamilyError, Family, MalformedFamilyError, Parameter,
+                       UnknownFamilyError, bind)
+from bhchem.declare import registry
+from bhchem.declare.symbols import P, parameter_symbol, pi, r
 
 Q = parameter_symbol("Q")
 _M = r / 2 * (1 + 8 * pi * P * r**2 / 3 + Q**2 / r**2)
@@ -102,8 +104,8 @@ def test_duplicate_name_is_an_error():
 def test_python_plugin_file(tmp_path):
     path = tmp_path / "my_family.py"
     path.write_text(textwrap.dedent("""
-        from chemistry import Domain, Family, Parameter
-        from chemistry.symbols import P, parameter_symbol, pi, r
+        from bhchem import Domain, Family, Parameter
+        from bhchem.declare.symbols import P, parameter_symbol, pi, r
         eta = parameter_symbol("eta")
         FAMILY = Family(name="plugin-test-family", summary="a plug-in", reference="none",
                         parameters=(Parameter("eta", 0.1, 2, Domain.nonnegative()),),
@@ -119,9 +121,9 @@ def test_python_plugin_file(tmp_path):
 @pytest.mark.parametrize("content, match", [
     ("x = (", "line 1: syntax error"),
     ("x = 1", "defines no family"),
-    ("FAMILY = 3", "must be a chemistry.Family"),
+    ("FAMILY = 3", "must be a bhchem.Family"),
     ("raise RuntimeError('boom')", "failed while loading: RuntimeError: boom"),
-    ("from chemistry import Family\nFAMILY = Family(name='x y', summary='s', reference='r')",
+    ("from bhchem import Family\nFAMILY = Family(name='x y', summary='s', reference='r')",
      "kebab-case"),
 ])
 def test_bad_plugin_files(tmp_path, content, match):
@@ -151,9 +153,15 @@ def test_entry_point_families(monkeypatch):
         def load(self):
             return fam
 
-    monkeypatch.setattr(registry, "_entry_points", lambda: [FakeEntryPoint()])
+    installed = registry._entry_points()
+    monkeypatch.setattr(registry, "_entry_points", lambda: [FakeEntryPoint(), *installed])
     monkeypatch.setattr(registry, "_families", {})
     monkeypatch.setattr(registry, "_origins", {})
     monkeypatch.setattr(registry, "_discovered", False)
-    assert registry.get_family("entry-point-family") is fam
+    got = registry.get_family("entry-point-family")
+    assert got == dataclasses.replace(fam, source="demo_pkg:FAMILY")  # source filled in a copy
+    assert fam.source == ""                                           # the declaration untouched
+    # the bundled families come through the same entry-point group
     assert "rn-ads" in registry.available_families()
+    assert all(ep.value.startswith("bhchem.models.") for ep in installed
+               if ep.name in registry.available_families() and ep.name != "demo")

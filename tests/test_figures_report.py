@@ -7,11 +7,11 @@ import re
 import numpy as np
 import pytest
 
-from chemistry import bind
-from chemistry.cli import main
-from chemistry.critical import find_critical_points
-from chemistry.phases import phase_diagram
-from chemistry.plots import EmptyFigureError, make_plot, save
+from bhchem import bind
+from bhchem.cli.main import main
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.phases import phase_diagram
+from bhchem.present.plots import EmptyFigureError, make_plot, save
 
 PC = 1 / (96 * math.pi)
 TC = math.sqrt(6) / (18 * math.pi)
@@ -138,7 +138,7 @@ def test_report_bundle_contents(bundle):
 def test_results_json_round_trips_with_provenance(bundle):
     text = (bundle / "results.json").read_text()
     doc = json.loads(text)
-    from chemistry.report import dumps
+    from bhchem.workflows.report import dumps
     assert dumps(doc) == text  # round trip, byte for byte
     prov = doc["provenance"]
     assert prov["family_source"] == "rn_ads.py" and len(prov["family_source_sha256"]) == 64
@@ -172,7 +172,7 @@ def test_report_refuses_existing_folder_and_leaves_nothing(tmp_path, capsys):
 
 
 def test_failed_report_leaves_no_folder(tmp_path, monkeypatch):
-    import chemistry.report as rep
+    import bhchem.workflows.report as rep
 
     def boom(*a, **k):
         raise RuntimeError("simulated failure in the middle")

@@ -10,10 +10,10 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from chemistry import bind
-from chemistry.cli import main
-from chemistry.critical import find_critical_points
-from chemistry.isobar import analyze_isobar
+from bhchem import bind
+from bhchem.cli.main import main
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.isobar import analyze_isobar
 
 NASTY = ["nan", "NaN", "inf", "-inf", "1e308", "-1e308", "1e-400", "-0", "0", "", " ", "１",
          "٣", "0x10", "1_000", "1e", "--1", "Q", "=", "é", "😀", "1,2", "None", "1e309",
@@ -107,7 +107,7 @@ def test_pressures_from_1e_minus_12_to_1e6_Pc(frac):
 
 def test_temperatures_within_1e_minus_10_of_Tc():
     """1 - T/T_c ~ 1e-10: the near-critical solver returns an accurate T or nothing."""
-    from chemistry.coexistence import coexistence_near_critical
+    from bhchem.analysis.coexistence import coexistence_near_critical
     th = bind("rn-ads", Q=1.0)
     cp = find_critical_points(th).points[0]
     for s in (3e-10, 1e-10):
@@ -138,7 +138,7 @@ def test_coupling_exactly_at_window_boundary():
                                   ["isobar", "gauss-bonnet-ads", "--pressure", "0.5Pc", "--json"]])
 def test_same_command_same_bytes(argv):
     env = dict(os.environ, SOURCE_DATE_EPOCH="1700000000")
-    outs = [subprocess.run([sys.executable, "-m", "chemistry", *argv], capture_output=True,
+    outs = [subprocess.run([sys.executable, "-m", "bhchem", *argv], capture_output=True,
                            env=env, timeout=600).stdout for _ in range(2)]
     assert outs[0] == outs[1] and len(outs[0]) > 100
     json.loads(outs[0])

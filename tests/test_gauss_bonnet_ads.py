@@ -25,8 +25,8 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from chemistry import bind
-from chemistry.checks import check_first_law, check_smarr
+from bhchem import bind
+from bhchem.core.checks import check_first_law, check_smarr
 from contract import FamilyContract
 
 

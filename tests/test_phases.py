@@ -6,12 +6,12 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from chemistry import bind
-from chemistry.cli import main
-from chemistry.coexistence import coexistence_near_critical
-from chemistry.critical import find_critical_points
-from chemistry.isobar import analyze_isobar
-from chemistry.phases import (distinct_phases, phase_diagram, same_structure,
+from bhchem import bind
+from bhchem.cli.main import main
+from bhchem.analysis.coexistence import coexistence_near_critical
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.isobar import analyze_isobar
+from bhchem.analysis.phases import (distinct_phases, phase_diagram, same_structure,
                               supercritical_connection)
 
 PC_RN = 1 / (96 * math.pi)
@@ -67,7 +67,7 @@ def test_schwarzschild_isobar_hawking_page(L):
 
 
 def test_no_black_hole_pressure_is_refused():
-    from chemistry import StateDomainError
+    from bhchem import StateDomainError
     with pytest.raises(StateDomainError, match="not positive"):
         analyze_isobar(bind("rn-ads"), -1.0)
 

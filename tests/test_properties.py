@@ -14,11 +14,11 @@ import pytest
 from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
-from chemistry import StateDomainError, bind
-from chemistry.checks import check_first_law, check_smarr
-from chemistry.critical import find_critical_points
-from chemistry.isobar import analyze_isobar
-from chemistry.registry import available_families
+from bhchem import StateDomainError, bind
+from bhchem.core.checks import check_first_law, check_smarr
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.isobar import analyze_isobar
+from bhchem.declare.registry import available_families
 
 LONG = os.environ.get("BHCHEM_HYPOTHESIS_PROFILE") == "long"
 
@@ -110,7 +110,7 @@ def test_coexisting_states_have_equal_T_P_G_and_G_is_continuous(name):
 @given(st.floats(0.05, 0.95))
 def test_clausius_clapeyron_along_the_line(frac):
     """dP/dT = Delta S / Delta V along charged-AdS coexistence (Richardson slope, <= 1e-8)."""
-    from chemistry.coexistence import coexistence_curve
+    from bhchem.analysis.coexistence import coexistence_curve
     th = bind("rn-ads", Q=1.0)
     cp = find_critical_points(th).points[0]
     curve = coexistence_curve(th, [frac * cp.P], critical_point=cp, checks=True)

@@ -1,4 +1,4 @@
-"""Response functions along isobars and isotherms (chemistry.response).
+"""Response functions along isobars and isotherms (bhchem.analysis.response).
 
 Sources: van der Waals closed forms (textbook, e.g. Callen, Thermodynamics, 2nd ed. 1985,
 Secs. 3.5, 3.9; the formulas are re-derived in each test from P = T/(v-b) - a/v^2);
@@ -12,9 +12,9 @@ import math
 import numpy as np
 import pytest
 
-from chemistry import bind
-from chemistry.errors import StateDomainError
-from chemistry.response import (along_isobar, along_isotherm, cv_vanishes, local_exponent,
+from bhchem import bind
+from bhchem.errors import StateDomainError
+from bhchem.analysis.response import (along_isobar, along_isotherm, cv_vanishes, local_exponent,
                                 response_functions)
 
 Q = 1.0

@@ -5,9 +5,9 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from chemistry import bind
-from chemistry.checks import check_smarr
-from chemistry.symbols import P, r
+from bhchem import bind
+from bhchem.core.checks import check_smarr
+from bhchem.declare.symbols import P, r
 from contract import FamilyContract
 from reference_values import REFERENCES
 

@@ -6,7 +6,7 @@ import pytest
 import sympy as sp
 from scipy.optimize import minimize_scalar
 
-from chemistry import bind
+from bhchem import bind
 from contract import FamilyContract
 from reference_values import ads_radius_to_pressure
 

@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from chemistry import bind
+from bhchem import bind
 from contract import FamilyContract
 
 

@@ -12,8 +12,8 @@ The competing terms give up to three critical points, reentrance and a triple
 point in parts of (lam, kap) space, which is what the demo exercises.  It is
 loaded as a plug-in file, the route a researcher's own family takes.
 """
-from chemistry import Domain, Family, Parameter
-from chemistry.symbols import P, parameter_symbol, pi, r
+from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.symbols import P, parameter_symbol, pi, r
 
 Q = parameter_symbol("Q")
 lam = parameter_symbol("lam")

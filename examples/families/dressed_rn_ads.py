@@ -14,8 +14,8 @@ M = 2TS - 2PV + Phi_Q Q + 4 Phi_lam lam.
 
 Use it with:  bhchem show dressed-rn-ads --family-file examples/families/dressed_rn_ads.py -p Q=1,lam=0.05
 """
-from chemistry import Domain, Family, Parameter
-from chemistry.symbols import P, parameter_symbol, pi, r
+from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.symbols import P, parameter_symbol, pi, r
 
 Q = parameter_symbol("Q")
 lam = parameter_symbol("lam")

@@ -4,7 +4,7 @@ Families write their expressions with these symbols (or with symbols of the
 same *name*: the engine canonicalises by name, so assumptions a plug-in author
 attaches do not matter).
 
-Conventions (stated once, see :mod:`chemistry.conventions`): G = c = hbar =
+Conventions (stated once, see :mod:`bhchem.conventions`): G = c = hbar =
 k_B = 1, P = -Lambda/(8 pi) = (d-1)(d-2)/(16 pi L^2).
 """
 from __future__ import annotations

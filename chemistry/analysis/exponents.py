@@ -33,10 +33,10 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 import sympy as sp
 
-from . import symbols as sy
-from .compiled import Thermodynamics
-from .coexistence import _isotherm_pressure, coexistence_near_critical
-from .critical import CriticalPoint, loop_side
+from bhchem.declare import symbols as sy
+from bhchem.core.compiled import Thermodynamics
+from bhchem.analysis.coexistence import _isotherm_pressure, coexistence_near_critical
+from bhchem.analysis.critical import CriticalPoint, loop_side
 
 ZERO_TOLERANCE = 1e-8
 
@@ -85,7 +85,7 @@ def _series_coefficients(th: Thermodynamics, cp: CriticalPoint, jmax: int = 5) -
     Closed equations of state: directly from P = T u(x) - w(x) (regular even at an
     isolated critical point, where T(x, P) has a removable singularity); otherwise by
     implicit differentiation of T(x, P) = T."""
-    from .critical import _isotherm_form
+    from bhchem.analysis.critical import _isotherm_form
     form = _isotherm_form(th)
     if form is not None:
         u, w, x = form

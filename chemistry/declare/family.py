@@ -14,9 +14,9 @@ then obtains S = -(dG/dT)_P and M = G + T S and proceeds identically.
 
 Example
 -------
->>> from chemistry.family import Family, Parameter
->>> from chemistry.domain import Domain
->>> from chemistry.symbols import r, P, pi, parameter_symbol
+>>> from bhchem.declare.family import Family, Parameter
+>>> from bhchem.declare.domain import Domain
+>>> from bhchem.declare.symbols import r, P, pi, parameter_symbol
 >>> Q = parameter_symbol("Q")
 >>> fam = Family(
 ...     name="toy-rn", summary="4D charged AdS", reference="Kubiznak & Mann, JHEP 07 (2012) 033",
@@ -34,9 +34,9 @@ from typing import Mapping, Sequence
 
 import sympy as sp
 
-from . import symbols as sy
-from .domain import Domain
-from .errors import MalformedFamilyError
+from bhchem.declare import symbols as sy
+from bhchem.declare.domain import Domain
+from bhchem.errors import MalformedFamilyError
 
 _NAME_RE = re.compile(r"^[a-z][a-z0-9]*(-[a-z0-9]+)*$")
 _PARAM_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")

@@ -34,8 +34,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
-from .compiled import Thermodynamics
-from .errors import BhchemError
+from bhchem.core.compiled import Thermodynamics
+from bhchem.errors import BhchemError
 
 
 def joule_thomson_coefficient(th: Thermodynamics, x, P) -> np.ndarray:
@@ -54,7 +54,7 @@ def _inversion_function(th: Thermodynamics, x, P) -> np.ndarray:
 
 
 def _x_grid(th: Thermodynamics, P_pos: float, n: int = 3000) -> np.ndarray:
-    from .isobar import state_range
+    from bhchem.analysis.isobar import state_range
     lo, hi = state_range(th, P_pos)
     return np.geomspace(lo, hi, n)
 
@@ -123,7 +123,7 @@ class InversionCurve:
 
 
 def _critical_point(th):
-    from .critical import find_critical_points
+    from bhchem.analysis.critical import find_critical_points
     cps = find_critical_points(th).physical
     return cps[0] if cps else None
 
@@ -520,7 +520,7 @@ def plot_expansion(res: ExpansionResult, th: Thermodynamics):
     """Isenthalps and the inversion curve in the T-P plane (left), and the low-pressure
     end of the inversion curve in units of the critical point, with T_i,min (right).
     Returns a PlotResult."""
-    from .plots import PALETTE, EmptyFigureError, PlotResult, _styled, _title
+    from bhchem.present.plots import PALETTE, EmptyFigureError, PlotResult, _styled, _title
     inv = res.inversion
     data = {}
     if inv.T.size == 0 and not any(c.T.size for c in res.isenthalps):

@@ -42,9 +42,9 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 import sympy as sp
 
-from . import symbols as sy
-from .compiled import Thermodynamics, bind
-from .conventions import convention_record
+from bhchem.declare import symbols as sy
+from bhchem.core.compiled import Thermodynamics, bind
+from bhchem.conventions import convention_record
 
 #: relative residual of the critical conditions accepted for a point
 RESIDUAL_TOLERANCE = 1e-9

@@ -34,7 +34,7 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 from scipy.optimize import brentq
 
-from .compiled import Thermodynamics
+from bhchem.core.compiled import Thermodynamics
 
 
 @dataclass(frozen=True)
@@ -290,7 +290,7 @@ def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anch
     solver, then to a full isobar analysis.  A pressure that still fails is listed in
     ``failed_pressures``, never dropped silently.
     """
-    from .isobar import analyze_isobar
+    from bhchem.analysis.isobar import analyze_isobar
     Ps = np.sort(np.asarray(pressures, float))
     cp = critical_point
 

@@ -10,12 +10,12 @@ a result (an empty list), not an error.
 """
 from __future__ import annotations
 
-from .compiled import Thermodynamics
-from .critical import find_critical_points
+from bhchem.core.compiled import Thermodynamics
+from bhchem.analysis.critical import find_critical_points
 
 
 def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
-    from .phases import takes_part_in_transition
+    from bhchem.analysis.phases import takes_part_in_transition
     search = find_critical_points(th)
     points = []
     for cp in search.points:
@@ -28,7 +28,7 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
                 d["fitted"] = None
                 d["exponents_note"] = f"not computed: the point is {'degenerate' if cp.kind == 'degenerate' else 'unphysical'}"
             else:
-                from .exponents import critical_exponents
+                from bhchem.analysis.exponents import critical_exponents
                 ex = critical_exponents(th, cp)
                 d["exponents"] = ex.exact
                 d["fitted"] = ex.fitted

@@ -1,11 +1,11 @@
 r"""A safe parser of ordinary mathematical notation into sympy expressions.
 
-Declarative family files (:mod:`chemistry.declarative`) give their formulas as
+Declarative family files (:mod:`bhchem.declare.declarative`) give their formulas as
 text.  That text is *never* evaluated by Python: no ``eval``, ``exec``,
 ``compile``, ``sympify`` or ``parse_expr`` ever sees it.  A small tokenizer and a
 recursive-descent parser build the sympy expression node by node from a fixed
 whitelist of symbols, functions and constants; anything else is refused with a
-one-line :class:`ExpressionError` (a :class:`~chemistry.errors.MalformedFamilyError`)
+one-line :class:`ExpressionError` (a :class:`~bhchem.errors.MalformedFamilyError`)
 naming the column and the fault.
 
 Grammar (EBNF; whitespace is ignored between tokens)::
@@ -54,7 +54,7 @@ Limits (every input, valid or not, is dealt with in well under a second):
 
 Example
 -------
->>> from chemistry.expression_parser import parse_expression
+>>> from bhchem.declare.expression_parser import parse_expression
 >>> parse_expression("r/2 * (1 + Q^2/r^2)", ["r", "Q"])
 r*(Q**2/r**2 + 1)/2
 """
@@ -73,8 +73,8 @@ from typing import Callable, Mapping
 
 import sympy as sp
 
-from . import symbols as sy
-from .errors import MalformedFamilyError
+from bhchem.declare import symbols as sy
+from bhchem.errors import MalformedFamilyError
 
 #: longest accepted text (characters)
 MAX_LENGTH = 10_000
@@ -970,7 +970,7 @@ def parse_expression(text, symbols=None, **options) -> sp.Expr:
     Raises
     ------
     ExpressionError
-        (a :class:`~chemistry.errors.MalformedFamilyError`) with one line naming
+        (a :class:`~bhchem.errors.MalformedFamilyError`) with one line naming
         the column and the fault.
     """
     return parse(text, symbols, condition=False, **options).expr

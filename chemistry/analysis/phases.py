@@ -2,14 +2,14 @@ r"""The phase diagram over a pressure range, and the phase graph.
 
 Algorithm (family-agnostic):
 
-1. *Anchors*: the isobar analysis (:mod:`chemistry.isobar`) at logarithmically
+1. *Anchors*: the isobar analysis (:mod:`bhchem.analysis.isobar`) at logarithmically
    spaced pressures (plus pressures just off every critical pressure) lists the
    transitions of the globally preferred phase at each.
 2. *Lines*: transitions at neighbouring anchors are joined into one line when they
    have the same kind and their states are continuous (|log x| and |log T| change
    by less than 0.5): so a line keeps its identity when branch names change.
 3. *Densify*: first-order lines are recomputed on a dense pressure grid by the
-   vectorised Newton solver of :mod:`chemistry.coexistence` (continuation from
+   vectorised Newton solver of :mod:`bhchem.analysis.coexistence` (continuation from
    the anchors), and approach a critical end by the near-critical solver down to
    1 - P/P_c = 1e-10; Hawking-Page lines by Newton on G(x, P) = G_background(P).
 4. *Ends*: each end is a critical point (a physical critical pressure lies in the
@@ -34,11 +34,11 @@ from dataclasses import asdict, dataclass, field
 import networkx as nx
 import numpy as np
 
-from .coexistence import (CoexistencePoint, coexistence_curve, coexistence_near_critical,
+from bhchem.analysis.coexistence import (CoexistencePoint, coexistence_curve, coexistence_near_critical,
                           make_point)
-from .compiled import Thermodynamics
-from .critical import find_critical_points
-from .isobar import IsobarResult, Transition, analyze_isobar
+from bhchem.core.compiled import Thermodynamics
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.isobar import IsobarResult, Transition, analyze_isobar
 
 
 @dataclass
@@ -369,7 +369,7 @@ def takes_part_in_transition(th: Thermodynamics, cp, eps: float = 1e-4) -> bool 
     the side where the isobar has a loop, the preferred phase has a first-order
     transition whose coexisting states straddle x_c and whose T tends to T_c.
     None for degenerate or unphysical points."""
-    from .critical import loop_side
+    from bhchem.analysis.critical import loop_side
     if cp.kind == "degenerate" or not cp.physical:
         return None
     side = loop_side(th, cp)
@@ -474,7 +474,7 @@ def _triple_at(th, t, iso):
         if abs(c.T - t.T) <= 1e-3 * t.T:
             for br in iso.branches:
                 if br.label in c.branches and br.stable:
-                    from .isobar import _x_of_T
+                    from bhchem.analysis.isobar import _x_of_T
                     x = _x_of_T(th, iso.pressure, br, c.T)
                     if x is not None:
                         cands.append(x)

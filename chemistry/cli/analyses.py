@@ -1,15 +1,15 @@
 """Command-line subcommands for the analyses of issue 7: ``expansion``, ``engine``,
 ``curvature``.
 
-Wired into ``bhchem`` by one call in :mod:`chemistry.cli`::
+Wired into ``bhchem`` by one call in :mod:`bhchem.cli`::
 
-    from .cli_analyses import register
+    from bhchem.cli.analyses import register
     register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
                            "BhchemError": BhchemError})
 
 ``sub`` is the argparse subparsers object, ``common`` the parent parser carrying
 ``--family-file``.  Every handler takes the parsed ``args`` and returns an exit code;
-bad input raises a :class:`~chemistry.errors.BhchemError` (one line, exit 2 in
+bad input raises a :class:`~bhchem.errors.BhchemError` (one line, exit 2 in
 ``bhchem``'s main).  With ``--json`` the document goes to stdout and any
 "wrote FILE" message to stderr, so the JSON stays parseable.
 """
@@ -19,7 +19,7 @@ import json
 import math
 import sys
 
-from .errors import BhchemError
+from bhchem.errors import BhchemError
 
 
 def _family_args(p, figure_help: str):
@@ -42,16 +42,16 @@ def _number(text: str, what: str) -> float:
 
 def _finish(args, doc: dict, text: str, figure) -> int:
     if args.output:
-        from .plots import save
+        from bhchem.present.plots import save
         path = save(figure(), args.output)
         print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     if args.json:
         # every JSON result carries the conventions it uses (project rule)
-        from .conventions import convention_record
-        from .registry import get_family
+        from bhchem.conventions import convention_record
+        from bhchem.declare.registry import get_family
         if "convention" not in doc:
             doc = {**doc, "convention": convention_record(get_family(args.family))}
-        from .report import _finite
+        from bhchem.workflows.report import _finite
         print(json.dumps(_finite(doc), indent=2, sort_keys=True, allow_nan=False))
     else:
         print(text)
@@ -74,7 +74,7 @@ def register(sub, common, helpers: dict) -> None:
     parse_pressure = helpers["parse_pressure"]
 
     def cmd_expansion(args) -> int:
-        from .expansion import expansion_json, expansion_text, joule_thomson_expansion, plot_expansion
+        from bhchem.analysis.expansion import expansion_json, expansion_text, joule_thomson_expansion, plot_expansion
         th = bound(args)
         masses = None
         if args.masses:
@@ -88,16 +88,16 @@ def register(sub, common, helpers: dict) -> None:
                        lambda: plot_expansion(res, th))
 
     def cmd_engine(args) -> int:
-        from .engines import analyze_cycle, engine_json, engine_text, parse_cycle, plot_cycle
+        from bhchem.analysis.engines import analyze_cycle, engine_json, engine_text, parse_cycle, plot_cycle
         th = bound(args)
         corners = parse_cycle(args.cycle, parse_pressure, th)
         res = analyze_cycle(th, corners)
         return _finish(args, engine_json(res), engine_text(res), lambda: plot_cycle(res, th))
 
     def cmd_curvature(args) -> int:
-        from .curvature import (critical_amplitude, curvature_json, curvature_map,
+        from bhchem.analysis.curvature import (critical_amplitude, curvature_json, curvature_map,
                                 curvature_text, plot_curvature)
-        from .critical import find_critical_points
+        from bhchem.analysis.critical import find_critical_points
         th = bound(args)
         cmap = None
         if args.output:

@@ -1,9 +1,9 @@
 r"""Declarative families: a small TOML file, read safely.
 
 A user can declare a family without writing Python.  Nothing in the file is ever
-executed: the formulas are read by :mod:`chemistry.expression_parser`, which
+executed: the formulas are read by :mod:`bhchem.declare.expression_parser`, which
 builds sympy expressions from a whitelist of symbols and functions.  Every fault
-is a one-line :class:`~chemistry.errors.MalformedFamilyError` naming the file,
+is a one-line :class:`~bhchem.errors.MalformedFamilyError` naming the file,
 the line (when it can be found), the key and the fault.
 
 Format
@@ -52,7 +52,7 @@ Formulas use the state variable, ``P``, ``d``, the parameters and the
 definitions; conditions may also use the temperature ``T``.  Operators, numbers,
 functions (sqrt, exp, log, sin, cos, tan, sinh, cosh, tanh, atan/arctan, abs,
 gamma, hyp2f1(a, b, c, z), omega(d)) and constants (pi, e) are those of
-:mod:`chemistry.expression_parser`; ``^`` is a power and implicit multiplication
+:mod:`bhchem.declare.expression_parser`; ``^`` is a power and implicit multiplication
 is not allowed.  A formula may also be a plain number (``G_background = 0``).
 
 Domains
@@ -84,12 +84,12 @@ from pathlib import Path
 
 import sympy as sp
 
-from . import symbols as sy
-from .domain import Domain
-from .errors import MalformedFamilyError
-from .expression_parser import (CONSTANTS, FUNCTIONS, ExpressionError, ParsedExpression, parse,
+from bhchem.declare import symbols as sy
+from bhchem.declare.domain import Domain
+from bhchem.errors import MalformedFamilyError
+from bhchem.declare.expression_parser import (CONSTANTS, FUNCTIONS, ExpressionError, ParsedExpression, parse,
                                 time_limit)
-from .family import Family, Parameter
+from bhchem.declare.family import Family, Parameter
 
 try:  # Python >= 3.11
     import tomllib as _toml
@@ -614,7 +614,7 @@ _DOMAIN_TOKEN = re.compile(r"\s*(?:(integer|real|any|in|and)\b|(<=|>=|<|>)|"
 
 
 def parse_domain(text: str) -> Domain:
-    """A :class:`~chemistry.domain.Domain` from its short text form (see module docstring).
+    """A :class:`~bhchem.declare.domain.Domain` from its short text form (see module docstring).
 
     Raises
     ------
@@ -705,7 +705,7 @@ def load_declarative(path) -> list[Family]:
     """Read the family declared in a TOML file (see the module docstring).
 
     Nothing in the file is executed.  The caller
-    (:func:`chemistry.registry.load_family_file`) registers the result.
+    (:func:`bhchem.declare.registry.load_family_file`) registers the result.
 
     Returns
     -------

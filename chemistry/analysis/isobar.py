@@ -30,7 +30,7 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 from scipy.optimize import brentq
 
-from .compiled import Thermodynamics
+from bhchem.core.compiled import Thermodynamics
 
 _XTOL = 1e-15
 
@@ -273,16 +273,16 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
                    critical_points=None) -> IsobarResult:
     """Branches, swallowtails, preferred phase and transitions at pressure P."""
     if not (np.isfinite(P) and P > 0):
-        from .errors import StateDomainError
+        from bhchem.errors import StateDomainError
         raise StateDomainError(f"pressure P = {P} is not positive: there is no AdS black hole")
     xr = x_range if x_range else state_range(th, P)
     if critical_points is None:
-        from .critical import find_critical_points
+        from bhchem.analysis.critical import find_critical_points
         critical_points = find_critical_points(th).physical
     focus = [cp.x for cp in critical_points if abs(cp.P / P - 1) < 0.05]
     branches = find_branches(th, P, xr, focus=focus)
     if not branches:
-        from .errors import StateDomainError
+        from bhchem.errors import StateDomainError
         raise StateDomainError(
             f"no physical {th.family.name} state at P = {P:g} with "
             f"{', '.join(f'{k} = {v:g}' for k, v in th.values.items())}")
@@ -333,7 +333,7 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     stable_rows = np.array([b.stable for b in branches] + ([True] if has_bg else []))
     Genv = np.where(stable_rows[:, None], Gs, np.nan)
     if not np.any(np.isfinite(Genv)):
-        from .errors import StateDomainError
+        from bhchem.errors import StateDomainError
         raise StateDomainError(
             f"no locally stable {th.family.name} state at P = {P:g}: every branch has C_P < 0")
     with np.errstate(invalid="ignore"):
@@ -431,7 +431,7 @@ def _transition(th, P, kind, T, a, b, names, branches, G_of, has_bg) -> Transiti
     gb, xb = G_of(b, T)
     if kind == "first-order" and xa is not None and xb is not None:
         # polish the bracketed crossing: Newton on (T1 - T2, G1 - G2) in the two states
-        from .coexistence import coexistence_newton
+        from bhchem.analysis.coexistence import coexistence_newton
         lo, hi = (xa, xb) if xa < xb else (xb, xa)
         n1, n2, ok = coexistence_newton(th, np.array([P]), np.array([lo]), np.array([hi]))
         if ok[0] and abs(np.log(n1[0] / lo)) < 0.1 and abs(np.log(n2[0] / hi)) < 0.1:

@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import sympy as sp
 
-from .checks import check_first_law, check_smarr
-from .compiled import Thermodynamics
-from .conventions import convention_record
+from bhchem.core.checks import check_first_law, check_smarr
+from bhchem.core.compiled import Thermodynamics
+from bhchem.conventions import convention_record
 
 _LABELS = {
     "M": "enthalpy (mass)", "S": "entropy", "T": "temperature",

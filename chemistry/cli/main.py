@@ -11,7 +11,7 @@ import json
 import os
 import sys
 
-from .errors import BhchemError
+from bhchem.errors import BhchemError
 
 EXIT_USAGE = 2
 
@@ -46,21 +46,21 @@ def parse_assignments(items) -> dict:
 
 
 def _load_files(args) -> None:
-    from .registry import load_family_file
+    from bhchem.declare.registry import load_family_file
     for path in getattr(args, "family_file", None) or []:
         load_family_file(path)
 
 
 def _bound(args):
-    from .compiled import bind
-    from .registry import get_family
+    from bhchem.core.compiled import bind
+    from bhchem.declare.registry import get_family
     family = get_family(args.family)
     return bind(family, **parse_assignments(args.param))
 
 
 # -- commands ---------------------------------------------------------------
 def cmd_families(args) -> int:
-    from .registry import available_families
+    from bhchem.declare.registry import available_families
     fams = available_families()
     if args.json:
         out = {name: {"summary": f.summary, "reference": f.reference,
@@ -80,7 +80,7 @@ def cmd_families(args) -> int:
 
 
 def cmd_show(args) -> int:
-    from .summary import show_json, show_text
+    from bhchem.present.summary import show_json, show_text
     th = _bound(args)
     if args.json:
         print(json.dumps(show_json(th), indent=2, sort_keys=True))
@@ -90,7 +90,7 @@ def cmd_show(args) -> int:
 
 
 def cmd_critical(args) -> int:
-    from .critical_report import critical_json, critical_text
+    from bhchem.present.critical_report import critical_json, critical_text
     th = _bound(args)
     doc = critical_json(th, with_exponents=args.command == "exponents")
     if args.json:
@@ -112,7 +112,7 @@ def parse_pressure(text: str, th) -> float:
             idx = int(which) if which.strip() else 1
         except ValueError:
             raise BhchemError(f"pressure {text!r} must look like 0.01 or 0.5Pc (or 0.5Pc2)") from None
-        from .critical import find_critical_points
+        from bhchem.analysis.critical import find_critical_points
         cps = find_critical_points(th).physical
         if not cps:
             raise BhchemError(f"pressure {text!r} is relative to a critical point, but "
@@ -132,8 +132,8 @@ def parse_pressure(text: str, th) -> float:
 
 
 def cmd_isobar(args) -> int:
-    from .critical import find_critical_points
-    from .isobar import analyze_isobar, isobar_json, isobar_text
+    from bhchem.analysis.critical import find_critical_points
+    from bhchem.analysis.isobar import analyze_isobar, isobar_json, isobar_text
     th = _bound(args)
     P = parse_pressure(args.pressure, th)
     res = analyze_isobar(th, P, critical_points=find_critical_points(th).physical)
@@ -143,7 +143,7 @@ def cmd_isobar(args) -> int:
 
 
 def cmd_phases(args) -> int:
-    from .phases import diagram_json, diagram_text, phase_diagram
+    from bhchem.analysis.phases import diagram_json, diagram_text, phase_diagram
     th = _bound(args)
     rng = None
     if args.pressure_range:
@@ -174,7 +174,7 @@ def _progress(args, what):
 
 
 def cmd_plot(args) -> int:
-    from .plots import make_plot, save
+    from bhchem.present.plots import make_plot, save
     th = _bound(args)
     kw = {}
     if args.pressure:
@@ -192,7 +192,7 @@ def cmd_plot(args) -> int:
 
 
 def cmd_report(args) -> int:
-    from .report import write_report
+    from bhchem.workflows.report import write_report
     th = _bound(args)
     progress = _stage_progress(args)
     path = write_report(th, args.output, digits=args.digits, force=args.force,
@@ -203,9 +203,9 @@ def cmd_report(args) -> int:
 
 def cmd_demo(args) -> int:
     import os
-    from .compiled import bind
-    from .registry import load_family_file
-    from .report import write_report
+    from bhchem.core.compiled import bind
+    from bhchem.declare.registry import load_family_file
+    from bhchem.workflows.report import write_report
     here = os.path.dirname(os.path.abspath(__file__))
     (fam,) = load_family_file(os.path.join(here, "demo", "layered_cloud_ads.py"))
     th = bind(fam)
@@ -218,7 +218,7 @@ def cmd_demo(args) -> int:
 
 
 def cmd_scan(args) -> int:
-    from .atlas import parse_grid, scan
+    from bhchem.workflows.atlas import parse_grid, scan
     axes = [parse_grid(g) for g in args.grid]
     fixed = {k: float(v) for k, v in parse_assignments(args.param).items()}
     executor, client = None, None
@@ -271,7 +271,7 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="bhchem", description="Black hole chemistry in the extended "
                      "phase space: derive, verify and analyse AdS black hole thermodynamics.",
                      parents=[common])
-    from . import __version__
+    from bhchem import __version__
     parser.add_argument("--version", action="version", version=f"bhchem {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 
@@ -310,7 +310,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_phases)
 
-    from .plots import KINDS
+    from bhchem.present.plots import KINDS
     p = sub.add_parser("plot", parents=[common], help="a figure: pv, gt, pt, tr or cp")
     p.add_argument("kind", choices=KINDS, help="pv (isotherms), gt (G-T isobars), pt (phase "
                    "diagram), tr (T-r isobars), cp (heat capacity)")
@@ -352,7 +352,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_demo)
 
-    from .cli_analyses import register
+    from bhchem.cli.analyses import register
     register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
                            "BhchemError": BhchemError})
     return parser

@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .errors import BhchemError
+from bhchem.errors import BhchemError
 
 KINDS = ("pv", "gt", "pt", "tr", "cp")
 
@@ -136,8 +136,8 @@ def _scales(th):
     cached = getattr(th, "_plot_scale_cp", False)
     if cached is not False:
         return cached
-    from .critical import find_critical_points
-    from .phases import takes_part_in_transition
+    from bhchem.analysis.critical import find_critical_points
+    from bhchem.analysis.phases import takes_part_in_transition
     cps = find_critical_points(th).physical
     main = next((cp for cp in cps if takes_part_in_transition(th, cp)), cps[0] if cps else None)
     th._plot_scale_cp = main
@@ -147,7 +147,7 @@ def _scales(th):
 # -- P-v isotherms --------------------------------------------------------------------
 def plot_pv(th, temperatures=None) -> PlotResult:
     """P-v isotherms around T_c with the equal-area (Maxwell) construction drawn."""
-    from .coexistence import _isotherm_pressure, coexistence_near_critical
+    from bhchem.analysis.coexistence import _isotherm_pressure, coexistence_near_critical
     cp = _scales(th)
     if cp is not None:
         Ts = temperatures or [f * cp.T for f in (0.85, 0.92, 0.97, 1.0, 1.05, 1.12)]
@@ -205,8 +205,8 @@ def _coexistence_at_temperature(th, cp, T, solver):
     T: Brent's method in log P on the transition temperature of the isobar (full isobar
     analysis far from P_c, the near-critical solver close to it)."""
     from scipy.optimize import brentq
-    from .critical import loop_side
-    from .isobar import analyze_isobar
+    from bhchem.analysis.critical import loop_side
+    from bhchem.analysis.isobar import analyze_isobar
     side = loop_side(th, cp)
 
     def transition(P):
@@ -249,7 +249,7 @@ def _default_pressures(th, cp):
 
 def plot_gt(th, pressures=None) -> PlotResult:
     """G-T isobars: every branch, the globally preferred one emphasised."""
-    from .isobar import analyze_isobar
+    from bhchem.analysis.isobar import analyze_isobar
     cp = _scales(th)
     pressures = pressures or _default_pressures(th, cp)
     data, notes = {}, []
@@ -348,7 +348,7 @@ def _gt_window(th, res, cp):
 
 
 def _preferred_G(th, res, P, Ts, phase):
-    from .isobar import _x_of_T
+    from bhchem.analysis.isobar import _x_of_T
     if phase == res.background:
         return np.full(Ts.shape, float(th.quantity("G_background", 1.0, P)))
     br = next(b for b in res.branches if b.label == phase)
@@ -360,7 +360,7 @@ def _preferred_G(th, res, P, Ts, phase):
 # -- P-T phase diagram ---------------------------------------------------------------------
 def plot_pt(th, diagram=None) -> PlotResult:
     """The P-T phase diagram: lines by kind, special points, regions labelled by phase."""
-    from .phases import phase_diagram
+    from bhchem.analysis.phases import phase_diagram
     pd = diagram or phase_diagram(th)
     data = {}
     with _styled() as plt:
@@ -379,7 +379,7 @@ def plot_pt(th, diagram=None) -> PlotResult:
                 e = line.ends[side]
                 if e["type"] == "terminal point":
                     ax.plot([e["T"]], [e["P"]], "s", ms=4.5, color=PALETTE[1], zorder=6)
-        from .phases import takes_part_in_transition
+        from bhchem.analysis.phases import takes_part_in_transition
         first = {True: True, False: True}
         for cp in pd.critical_points:
             on = bool(takes_part_in_transition(th, cp))
@@ -456,7 +456,7 @@ def _zoom_inset(ax, pd, Tmax, Pmax, data):
 
 def _label_regions(ax, th, pd, Tmax, Pmax):
     """Write each preferred phase's name at a point inside its region."""
-    from .isobar import analyze_isobar
+    from bhchem.analysis.isobar import analyze_isobar
     placed = set()
     for fy in (0.15, 0.45, 0.85):
         P = fy * Pmax
@@ -476,7 +476,7 @@ def _label_regions(ax, th, pd, Tmax, Pmax):
 # -- T-r+ isobars and C_P ------------------------------------------------------------------
 def plot_tr(th, pressures=None) -> PlotResult:
     """T along isobars against the horizon radius (or the state variable)."""
-    from .isobar import analyze_isobar
+    from bhchem.analysis.isobar import analyze_isobar
     cp = _scales(th)
     pressures = pressures or _default_pressures(th, cp)
     data = {}
@@ -510,7 +510,7 @@ def plot_tr(th, pressures=None) -> PlotResult:
 
 def plot_cp(th, pressure=None) -> PlotResult:
     """C_P along one isobar (symmetric-log scale), spinodals marked."""
-    from .isobar import analyze_isobar
+    from bhchem.analysis.isobar import analyze_isobar
     cp = _scales(th)
     P = pressure or (0.5 * cp.P if cp is not None else th.typical_pressure())
     res = analyze_isobar(th, P)

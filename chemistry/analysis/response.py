@@ -51,8 +51,8 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
-from .compiled import Thermodynamics
-from .errors import BhchemError, StateDomainError
+from bhchem.core.compiled import Thermodynamics
+from bhchem.errors import BhchemError, StateDomainError
 
 #: names of the response functions, in reporting order
 RESPONSE_NAMES = ("C_P", "C_V", "kappa_T", "kappa_S", "alpha_P")
@@ -160,7 +160,7 @@ def isotherm_pressure(th: Thermodynamics, x, T: float, P_guess) -> np.ndarray:
 
 
 def _critical_points(th: Thermodynamics):
-    from .critical import find_critical_points
+    from bhchem.analysis.critical import find_critical_points
     return find_critical_points(th).physical  # computed once per bound family
 
 
@@ -175,7 +175,7 @@ def _default_window(th: Thermodynamics) -> tuple[float, float]:
 
 
 def _search_range(th: Thermodynamics, P: float) -> tuple[float, float]:
-    from .isobar import state_range
+    from bhchem.analysis.isobar import state_range
     return state_range(th, P)
 
 

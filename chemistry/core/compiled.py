@@ -1,7 +1,7 @@
 """Compiled numerics: vectorised numpy functions of a derivation, and a family
 bound to parameter values.
 
-Every quantity of a :class:`~chemistry.derive.Derivation` is lambdified once
+Every quantity of a :class:`~bhchem.core.derive.Derivation` is lambdified once
 (with common-subexpression elimination) into a function of
 ``(x, P, *continuous_parameters)`` that broadcasts over numpy arrays.
 :func:`bind` validates parameter values against their declared domains and
@@ -17,15 +17,15 @@ from typing import Callable, Mapping
 import numpy as np
 import sympy as sp
 
-from .derive import Derivation, derive
-from .symbols import P as _P
-from .errors import ParameterDomainError, UnknownParameterError
-from .family import Family
+from bhchem.core.derive import Derivation, derive
+from bhchem.declare.symbols import P as _P
+from bhchem.errors import ParameterDomainError, UnknownParameterError
+from bhchem.declare.family import Family
 
 
 def _special_functions() -> dict:
     """Numeric implementations of special functions sympy cannot print to numpy."""
-    from .special import hyp2f1_real  # local: keeps scipy out of the cold path
+    from bhchem.core.special import hyp2f1_real  # local: keeps scipy out of the cold path
 
     def hyper(a, b, z):
         if len(a) != 2 or len(b) != 1:
@@ -330,8 +330,8 @@ class Thermodynamics:
         return 1.0 / (8 * math.pi * self.length_scale() ** 2) * 0.1
 
     def _evaluate_parameter_expression(self, e) -> float:
-        from .family import canonical_symbols, canonicalise
-        from . import symbols as sy
+        from bhchem.declare.family import canonical_symbols, canonicalise
+        from bhchem.declare import symbols as sy
         expr = canonicalise(e, canonical_symbols(self.family), "scale", self.family.name)
         subs = {sy.d: self.derivation.dimension}
         for p in self.family.all_parameters:
@@ -362,7 +362,7 @@ def bind(family, **values) -> Thermodynamics:
     UnknownFamilyError, UnknownParameterError, ParameterDomainError
     """
     if isinstance(family, str):
-        from .registry import get_family
+        from bhchem.declare.registry import get_family
         family = get_family(family)
     vals = validate_values(family, values)
     discrete = {p.name: vals[p.name] for p in family.discrete_parameters}

@@ -55,8 +55,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
-from .compiled import Thermodynamics
-from .errors import BhchemError, StateDomainError
+from bhchem.core.compiled import Thermodynamics
+from bhchem.errors import BhchemError, StateDomainError
 
 #: relative tolerance for detecting a side's kind from its corners
 KIND_TOLERANCE = 1e-9
@@ -82,7 +82,7 @@ def state_at(th: Thermodynamics, P: float, V: float) -> float:
     StateDomainError
         When no physical state (or more than one) has this P and V.
     """
-    from .isobar import state_range
+    from bhchem.analysis.isobar import state_range
     if not (np.isfinite(P) and P > 0 and np.isfinite(V) and V > 0):
         raise StateDomainError(f"corner (P, V) = ({P:g}, {V:g}): P and V must be positive")
     lo, hi = state_range(th, P)
@@ -521,7 +521,7 @@ def plot_cycle(res: EngineResult, th: Thermodynamics):
     """The cycle in the P-V plane, sides coloured by kind, the direction of traversal
     marked, and the isotherms T_hot and T_cold of the Carnot bound.  A PlotResult."""
     from matplotlib.lines import Line2D
-    from .plots import PALETTE, PlotResult, _styled, _title
+    from bhchem.present.plots import PALETTE, PlotResult, _styled, _title
     data = {}
     with _styled() as plt:
         fig, ax = plt.subplots(figsize=(5.4, 4.0))

@@ -67,10 +67,10 @@ from dataclasses import dataclass, field
 import numpy as np
 import sympy as sp
 
-from . import symbols as sy
-from .compiled import Thermodynamics, _lambdify
-from .critical import loop_side
-from .errors import BhchemError
+from bhchem.declare import symbols as sy
+from bhchem.core.compiled import Thermodynamics, _lambdify
+from bhchem.analysis.critical import loop_side
+from bhchem.errors import BhchemError
 
 CONVENTION = {
     "sign": "R = -2K (K the Gaussian curvature of the Ruppeiner metric): the 2-sphere has "
@@ -215,7 +215,7 @@ def critical_amplitude(th: Thermodynamics, cp=None, t_range=(1e-5, 1e-2), n: int
     """Fit the approach of R_N (1 - T/T_c)^2 along both coexisting branches.
 
     The coexisting states come from the near-critical solver of
-    :mod:`chemistry.coexistence` at pressures just off P_c on the side where the
+    :mod:`bhchem.analysis.coexistence` at pressures just off P_c on the side where the
     isobars have a loop; t = 1 - T/T_c with T the coexistence temperature.  Below
     t ~ 1e-5 the coexisting states are limited by double precision (the error of
     R_N t^2 grows like eps/t^(3/2): ~4e-8 at t = 1e-5, ~5e-6 at 1e-6), so the default
@@ -225,8 +225,8 @@ def critical_amplitude(th: Thermodynamics, cp=None, t_range=(1e-5, 1e-2), n: int
     critical point) the top of the range is halved until it does not; the range used
     and the residuals are reported.
     """
-    from .coexistence import coexistence_near_critical
-    from .critical import find_critical_points
+    from bhchem.analysis.coexistence import coexistence_near_critical
+    from bhchem.analysis.critical import find_critical_points
     if cp is None:
         cps = [c for c in find_critical_points(th).physical if c.kind == "standard"]
         if not cps:
@@ -276,7 +276,7 @@ def critical_amplitude(th: Thermodynamics, cp=None, t_range=(1e-5, 1e-2), n: int
 def isochore_amplitude(th: Thermodynamics, cp, t_range=(1e-5, 1e-2), n: int = 40) -> float:
     """Fitted lim R_N (T/T_c - 1)^2 along the critical isochore above T_c (x = x_c fixed,
     P from T(x_c, P) = T); mean field: -1/2."""
-    from .response import isotherm_pressure
+    from bhchem.analysis.response import isotherm_pressure
     ts = np.geomspace(*t_range, n)
     ys = []
     for t in ts:
@@ -321,7 +321,7 @@ def _v_of(th, x, P):
 
 def spinodal_curve(th: Thermodynamics, xs) -> np.ndarray:
     """Rows (x, P, T) of states with T_x = 0 (Newton in P at each x), P > 0 only."""
-    from .response import _isotherm_guess
+    from bhchem.analysis.response import _isotherm_guess
     P = np.full(np.shape(xs), _isotherm_guess(th))
     with np.errstate(all="ignore"):
         for _ in range(60):
@@ -339,8 +339,8 @@ def spinodal_curve(th: Thermodynamics, xs) -> np.ndarray:
 
 def curvature_map(th: Thermodynamics, nx: int = 260, nT: int = 220, with_amplitude: bool = True) -> CurvatureMap:
     """R_N over the T-v plane around the critical point (or the family's typical state)."""
-    from .critical import find_critical_points
-    from .response import isotherm_pressure
+    from bhchem.analysis.critical import find_critical_points
+    from bhchem.analysis.response import isotherm_pressure
     cps = [c for c in find_critical_points(th).physical if c.kind == "standard"]
     cp = cps[0] if cps else None
     notes = []
@@ -375,7 +375,7 @@ def curvature_map(th: Thermodynamics, nx: int = 260, nT: int = 220, with_amplitu
 
 
 def _coexistence_rows(th, cp, n: int = 60) -> np.ndarray:
-    from .coexistence import coexistence_curve
+    from bhchem.analysis.coexistence import coexistence_curve
     side = loop_side(th, cp)
     eps = np.unique(np.concatenate([np.geomspace(1e-6, 0.995, n), np.linspace(0.02, 0.995, n)]))
     Ps = cp.P * (1 + side * eps)
@@ -429,7 +429,7 @@ def plot_curvature(cmap: CurvatureMap, th: Thermodynamics):
     from matplotlib.colors import ListedColormap
     from matplotlib.patches import Patch
     from matplotlib.lines import Line2D
-    from .plots import PALETTE, EmptyFigureError, PlotResult, _styled, _title
+    from bhchem.present.plots import PALETTE, EmptyFigureError, PlotResult, _styled, _title
     if not np.any(np.isfinite(cmap.R_N)):
         raise EmptyFigureError("nothing to plot: no physical state on the T-v grid")
     cp = cmap.critical_point

@@ -2,7 +2,7 @@
 
 For every point of a grid over one to three parameters the atlas records the physical
 critical points (scale-free values), the structure signature of the phase diagram
-(:func:`chemistry.phases.structure_signature`) and its key numbers (triple point,
+(:func:`bhchem.analysis.phases.structure_signature`) and its key numbers (triple point,
 ends of a reentrant window), or the error that stopped that point (never dropped).
 
 Scale invariance: the results depend only on the scale-free combinations of the
@@ -35,7 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import BhchemError
+from bhchem.errors import BhchemError
 
 CHUNK_SIZE = 8
 ATLAS_ANCHORS = 48  # isobar anchors per phase diagram (narrow reentrant windows need them)
@@ -82,7 +82,7 @@ def parse_grid(spec: str) -> GridAxis:
 
 # -- one grid point ----------------------------------------------------------------------------
 def _family(family_name, family_file):
-    from .registry import get_family, load_family_file
+    from bhchem.declare.registry import get_family, load_family_file
     if family_file:
         load_family_file(family_file)
     return get_family(family_name)
@@ -108,9 +108,9 @@ def scale_free_key(th) -> tuple:
 
 def analyse_point(family_name, family_file, params: dict) -> dict:
     """Critical points, structure and key numbers at one parameter point (never raises)."""
-    from .compiled import bind
-    from .critical import find_critical_points
-    from .phases import phase_diagram
+    from bhchem.core.compiled import bind
+    from bhchem.analysis.critical import find_critical_points
+    from bhchem.analysis.phases import phase_diagram
     row = {"error": ""}
     try:
         th = bind(_family(family_name, family_file), **params)
@@ -162,7 +162,7 @@ def _atomic_write(path, text):
 
 
 def _dumps(obj) -> str:
-    from .report import dumps
+    from bhchem.workflows.report import dumps
     return dumps(obj)
 
 
@@ -211,7 +211,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         raise BhchemError("each grid parameter may appear once")
     if not 1 <= len(axes) <= 3:
         raise BhchemError("give one to three --grid parameters")
-    from .compiled import validate_values
+    from bhchem.core.compiled import validate_values
     for a in axes:
         for v in (a.values[0], a.values[-1]):
             validate_values(fam, {**fixed, a.name: v})
@@ -220,7 +220,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             raise BhchemError(f"parameter {nm} is both fixed (-p) and on the grid")
     points = [dict(zip(names, combo)) for combo in itertools.product(*(a.values for a in axes))]
     # scale invariance: one computation per distinct set of scale-free combinations
-    from .compiled import bind
+    from bhchem.core.compiled import bind
     keys = [scale_free_key(bind(fam, **{**fixed, **p})) for p in points]
     rep_of, reps = {}, []
     for i, k in enumerate(keys):
@@ -344,8 +344,8 @@ def _boundaries(family_name, family_file, fixed, axes, rows, refine, executor=No
 
 
 def _assemble(family_name, fam, axes, fixed, rows, boundaries):
-    from . import __version__
-    from .compiled import bind
+    from bhchem import __version__
+    from bhchem.core.compiled import bind
     ex = bind(fam, **{**fixed, **{a.name: a.values[0] for a in axes}})
     dims = ex.derivation.length_dimensions
     ref = next(((nm, n) for nm, n in dims.items() if n != 0 and ex.values[nm] != 0), None)
@@ -390,7 +390,7 @@ def _write_outputs(out_dir, doc, axes):
 
 
 def _figure(out_dir, doc, axes):
-    from .plots import PALETTE, PlotResult, _styled, save
+    from bhchem.present.plots import PALETTE, PlotResult, _styled, save
     rows = doc["rows"]
     structures = doc["structures"]
     color = {s: PALETTE[i % len(PALETTE)] for i, s in enumerate(structures)}

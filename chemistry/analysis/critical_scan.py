@@ -1,6 +1,6 @@
 """Critical points for many values of one parameter at once.
 
-Two routes, both exact to the tolerance of :mod:`chemistry.critical`:
+Two routes, both exact to the tolerance of :mod:`bhchem.analysis.critical`:
 
 *scale invariance*: when the varied parameter is the only dimensionful one that
 moves the family's scale (every other dimensionful parameter is zero), the
@@ -23,8 +23,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .compiled import bind
-from .critical import RESIDUAL_TOLERANCE, find_critical_points
+from bhchem.core.compiled import bind
+from bhchem.analysis.critical import RESIDUAL_TOLERANCE, find_critical_points
 
 
 @dataclass

@@ -32,9 +32,9 @@ from dataclasses import dataclass, field
 
 import sympy as sp
 
-from . import symbols as sy
-from .errors import MalformedFamilyError
-from .family import Family, canonical_symbols, canonicalise
+from bhchem.declare import symbols as sy
+from bhchem.errors import MalformedFamilyError
+from bhchem.declare.family import Family, canonical_symbols, canonicalise
 
 #: quantities every derivation provides (plus Phi_<q> for each continuous q)
 CORE_QUANTITIES = ("M", "S", "T", "V", "G", "v", "C_P", "C_V", "kappa_T")

@@ -1,24 +1,25 @@
-"""Where families come from: the bundled ``models`` package, installed packages
-(entry-point group ``bhchem.families``) and plug-in files given by the user.
+"""Where families come from: installed packages (entry-point group ``bhchem.families``,
+through which the bundled ``bhchem.models`` are found too) and plug-in files given by the user.
 
 A module contributes families through a module-level ``FAMILY`` (one
-:class:`~chemistry.family.Family`) or ``FAMILIES`` (a sequence of them).  An
+:class:`~bhchem.declare.family.Family`) or ``FAMILIES`` (a sequence of them).  An
 entry point may name such a module or a Family object directly.  Two families
 with one name are an error, wherever they come from.
 """
 from __future__ import annotations
 
+import contextlib
+import dataclasses
 import importlib
 import importlib.util
-import pkgutil
 import sys
 import threading
 from importlib import metadata
 from pathlib import Path
 
-from .errors import (BhchemError, DuplicateFamilyError, MalformedFamilyError,
+from bhchem.errors import (BhchemError, DuplicateFamilyError, MalformedFamilyError,
                      UnknownFamilyError)
-from .family import Family
+from bhchem.declare.family import Family
 
 ENTRY_POINT_GROUP = "bhchem.families"
 
@@ -43,7 +44,7 @@ def _families_of(obj, origin: str) -> list[Family]:
     for f in fams:
         if not isinstance(f, Family):
             raise MalformedFamilyError(
-                f"{origin}: FAMILY must be a chemistry.Family, not {type(f).__name__}")
+                f"{origin}: FAMILY must be a bhchem.Family, not {type(f).__name__}")
     return fams
 
 
@@ -60,34 +61,34 @@ def register(family: Family, origin: str = "API") -> Family:
     return family
 
 
+def _with_source(fam: Family, source: str) -> Family:
+    """The family with ``source`` filled in (a new frozen object; the original is untouched)."""
+    return fam if fam.source else dataclasses.replace(fam, source=source)
+
+
 def _discover() -> None:
+    """Register every family of the entry-point group, bundled ones included.
+
+    The bundled families are entry points of this distribution like any third-party
+    package's (``[project.entry-points."bhchem.families"]`` in pyproject.toml), so the
+    engine never imports its own data by name.
+    """
     global _discovered
     with _lock:
         if _discovered:
             return
-        import models
-        for info in sorted(pkgutil.iter_modules(models.__path__), key=lambda i: i.name):
-            if info.name.startswith("_"):
-                continue
-            module = importlib.import_module(f"models.{info.name}")
-            for fam in _families_of(module, f"bundled module models/{info.name}.py"):
-                if not fam.source:
-                    object.__setattr__(fam, "source", getattr(module, "__file__", ""))
-                register(fam, f"bundled module models/{info.name}.py")
-        for ep in _entry_points():
+        for ep in sorted(_entry_points(), key=lambda e: (e.value, e.name)):
+            origin = f"entry point {ep.name} ({ep.value})"
             try:
                 obj = ep.load()
-                fams = _families_of(obj, f"entry point {ep.name} ({ep.value})")
+                fams = _families_of(obj, origin)
             except BhchemError:
                 raise
             except Exception as exc:  # a broken third-party package: say which
-                raise MalformedFamilyError(
-                    f"entry point {ep.name} ({ep.value}) failed to load: {exc}") from None
+                raise MalformedFamilyError(f"{origin} failed to load: {exc}") from None
+            module = sys.modules.get(ep.value.split(":")[0])
             for fam in fams:
-                if not fam.source:
-                    mod = __import__("sys").modules.get(ep.value.split(":")[0])
-                    object.__setattr__(fam, "source", getattr(mod, "__file__", "") or ep.value)
-                register(fam, f"entry point {ep.name} ({ep.value})")
+                register(_with_source(fam, getattr(module, "__file__", "") or ep.value), origin)
         _discovered = True
 
 
@@ -126,7 +127,7 @@ def load_family_file(path) -> list[Family]:
 
     A ``.py`` file is a Python plug-in with the same API as the bundled modules
     (it is executed: load only files you trust).  Declarative ``.toml`` files are
-    read by :mod:`chemistry.declarative` with a safe parser of our own (no Python
+    read by :mod:`bhchem.declare.declarative` with a safe parser of our own (no Python
     evaluation of their text).
 
     Raises
@@ -146,7 +147,7 @@ def load_family_file(path) -> list[Family]:
         fams = _load_python(p)
     elif p.suffix == ".toml":
         try:
-            from .declarative import load_declarative
+            from bhchem.declare.declarative import load_declarative
         except ImportError:
             raise MalformedFamilyError(
                 f"family file {path}: declarative .toml families are not supported by this "
@@ -155,8 +156,8 @@ def load_family_file(path) -> list[Family]:
     else:
         raise MalformedFamilyError(
             f"family file {path}: expected a .py plug-in or a .toml declaration")
+    fams = [dataclasses.replace(fam, source=str(p)) for fam in fams]
     for fam in fams:
-        object.__setattr__(fam, "source", str(p))
         register(fam, f"file {p}")
     with _lock:
         _loaded_files[key] = list(fams)
@@ -191,6 +192,35 @@ def _load_python(p: Path) -> list[Family]:
         return _families_of(module, f"family file {p}")
     except MalformedFamilyError:
         raise
+
+
+@contextlib.contextmanager
+def registry_scope(*forget: str):
+    """A block after which the registry is as it was before it.
+
+    Families registered (or files loaded) inside the block are forgotten when it
+    ends; the names in ``forget`` are also hidden inside the block.  For tests and
+    notebooks that try out families under names that may be taken.
+
+    Examples
+    --------
+    >>> from bhchem.declare import registry
+    >>> with registry_scope():
+    ...     _ = registry.available_families()
+    """
+    _discover()
+    with _lock:
+        saved = dict(_families), dict(_origins), dict(_loaded_files)
+        for name in forget:
+            _families.pop(name, None)
+            _origins.pop(name, None)
+    try:
+        yield
+    finally:
+        with _lock:
+            for live, old in zip((_families, _origins, _loaded_files), saved):
+                live.clear()
+                live.update(old)
 
 
 def _reset_for_tests() -> None:

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .compiled import Thermodynamics, bind
+from bhchem.core.compiled import Thermodynamics, bind
 
 
 @dataclass(frozen=True)

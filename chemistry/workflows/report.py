@@ -21,10 +21,10 @@ import os
 import shutil
 import tempfile
 
-from . import __version__
-from .compiled import Thermodynamics
-from .conventions import convention_record
-from .errors import BhchemError
+from bhchem import __version__
+from bhchem.core.compiled import Thermodynamics
+from bhchem.conventions import convention_record
+from bhchem.errors import BhchemError
 
 FIGURES = (("pv", "P-v isotherms with the equal-area construction"),
            ("gt", "G-T isobars"),
@@ -77,9 +77,9 @@ def provenance(th: Thermodynamics) -> dict:
 
 def compute_results(th: Thermodynamics, progress=None) -> tuple[dict, object]:
     """Every number of the report, as a JSON-ready dict, and the phase diagram."""
-    from .critical_report import critical_json
-    from .phases import diagram_json, phase_diagram
-    from .summary import show_json
+    from bhchem.present.critical_report import critical_json
+    from bhchem.analysis.phases import diagram_json, phase_diagram
+    from bhchem.present.summary import show_json
     show = show_json(th)
     if progress:
         progress("critical points and exponents")
@@ -265,7 +265,7 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
 def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = False,
                  progress=None) -> str:
     """Compute and write the report bundle atomically into ``out_dir``."""
-    from .plots import EmptyFigureError, make_plot, save
+    from bhchem.present.plots import EmptyFigureError, make_plot, save
     out_dir = os.path.abspath(os.fspath(out_dir))
     if os.path.exists(out_dir) and not force:
         raise BhchemError(f"output folder {out_dir} exists; choose another or pass --force")

@@ -1,0 +1,2 @@
+"""Presentation layer: JSON/text/LaTeX serialisation and figures.  Formats and draws the
+results it is given; it does not search, solve or fit."""
