@@ -202,12 +202,11 @@ def cmd_report(args) -> int:
 
 
 def cmd_demo(args) -> int:
-    import os
     from bhchem.core.compiled import bind
     from bhchem.declare.registry import load_family_file
+    from bhchem.demo import FAMILY_FILE
     from bhchem.workflows.report import write_report
-    here = os.path.dirname(os.path.abspath(__file__))
-    (fam,) = load_family_file(os.path.join(here, "demo", "layered_cloud_ads.py"))
+    (fam,) = load_family_file(FAMILY_FILE)
     th = bind(fam)
     out = args.output or "bhchem-demo"
     print(f"demo: {fam.name} ({fam.summary})")
