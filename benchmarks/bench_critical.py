@@ -21,7 +21,6 @@ from pathlib import Path
 import numpy as np
 from scipy.optimize import fsolve
 
-sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from bhchem import bind  # noqa: E402
 from bhchem.analysis.critical_scan import critical_scan  # noqa: E402

@@ -47,7 +47,7 @@ from bhchem.analysis.phases import PhaseDiagram, PhaseLine, TriplePoint, phase_d
 from bhchem.present.plots import (EmptyFigureError, PlotResult, plot_cp, plot_gt, plot_pt,
                                   plot_pv, plot_tr, save)
 
-__version__ = "0.2.0"
+from bhchem.version import __version__
 
 __all__ = [
     # declaring families

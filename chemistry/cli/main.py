@@ -270,7 +270,7 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="bhchem", description="Black hole chemistry in the extended "
                      "phase space: derive, verify and analyse AdS black hole thermodynamics.",
                      parents=[common])
-    from bhchem import __version__
+    from bhchem.version import __version__
     parser.add_argument("--version", action="version", version=f"bhchem {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 

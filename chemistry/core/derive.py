@@ -32,6 +32,7 @@ from dataclasses import dataclass, field
 
 import sympy as sp
 
+from bhchem.core import derivation_cache
 from bhchem.declare import symbols as sy
 from bhchem.errors import MalformedFamilyError
 from bhchem.declare.family import Family, canonical_symbols, canonicalise
@@ -175,6 +176,9 @@ def _discrete_values(family: Family, discrete: dict) -> tuple[int, dict]:
     return dim, vals
 
 
+#: derivations kept in memory (keyed by the family object; each holds its family, so an
+#: id is never reused while its entry lives)
+_MEMORY_ENTRIES = 128
 _cache: dict = {}
 _cache_lock = threading.Lock()
 
@@ -183,7 +187,10 @@ def derive(family: Family, **discrete) -> Derivation:
     """Derive the thermodynamics of ``family`` at the given structural parameters.
 
     Results are cached: a family is derived once per process for each set of
-    discrete values (d, k, ...).  Continuous parameters stay symbolic.
+    discrete values (d, k, ...), and kept on disk across processes by
+    :mod:`bhchem.core.derivation_cache` (keyed by the family's content and the
+    derivation code, so a stale result is never served).  Continuous parameters
+    stay symbolic.
 
     Raises
     ------
@@ -197,8 +204,13 @@ def derive(family: Family, **discrete) -> Derivation:
         hit = _cache.get(key)
     if hit is not None and hit.family is family:
         return hit
-    result = _derive(family, dim, vals)
+    result = derivation_cache.load(family, vals)
+    if result is None:
+        result = _derive(family, dim, vals)
+        derivation_cache.store(result, vals)
     with _cache_lock:
+        while len(_cache) >= _MEMORY_ENTRIES:   # bounded: forget the oldest
+            _cache.pop(next(iter(_cache)))
         _cache[key] = result
     return result
 

@@ -66,6 +66,25 @@ def _with_source(fam: Family, source: str) -> Family:
     return fam if fam.source else dataclasses.replace(fam, source=source)
 
 
+def _load_entry_point(ep) -> None:
+    """Register the families of one entry point (once: a module already loaded by an
+    earlier lookup registers the same objects again, which is not a duplicate)."""
+    origin = f"entry point {ep.name} ({ep.value})"
+    try:
+        obj = ep.load()
+        fams = _families_of(obj, origin)
+    except BhchemError:
+        raise
+    except Exception as exc:  # a broken third-party package: say which
+        raise MalformedFamilyError(f"{origin} failed to load: {exc}") from None
+    module = sys.modules.get(ep.value.split(":")[0])
+    for fam in fams:
+        live = _families.get(fam.name)
+        if live is not None and _origins.get(fam.name) == origin:
+            continue
+        register(_with_source(fam, getattr(module, "__file__", "") or ep.value), origin)
+
+
 def _discover() -> None:
     """Register every family of the entry-point group, bundled ones included.
 
@@ -78,17 +97,7 @@ def _discover() -> None:
         if _discovered:
             return
         for ep in sorted(_entry_points(), key=lambda e: (e.value, e.name)):
-            origin = f"entry point {ep.name} ({ep.value})"
-            try:
-                obj = ep.load()
-                fams = _families_of(obj, origin)
-            except BhchemError:
-                raise
-            except Exception as exc:  # a broken third-party package: say which
-                raise MalformedFamilyError(f"{origin} failed to load: {exc}") from None
-            module = sys.modules.get(ep.value.split(":")[0])
-            for fam in fams:
-                register(_with_source(fam, getattr(module, "__file__", "") or ep.value), origin)
+            _load_entry_point(ep)
         _discovered = True
 
 
@@ -114,6 +123,18 @@ def get_family(name: str) -> Family:
     UnknownFamilyError
         Naming the known families.
     """
+    with _lock:
+        if name in _families:
+            return _families[name]
+        if not _discovered:
+            # a cold command needs one family: load the entry point of that name first
+            # (the bundled ones are named after their family); the full discovery, which
+            # also reports duplicate names across packages, runs for anything else
+            for ep in _entry_points():
+                if ep.name == name and ep.value.startswith("bhchem.models."):
+                    _load_entry_point(ep)
+            if name in _families:
+                return _families[name]
     fams = available_families()
     if name not in fams:
         raise UnknownFamilyError(

@@ -344,7 +344,7 @@ def _boundaries(family_name, family_file, fixed, axes, rows, refine, executor=No
 
 
 def _assemble(family_name, fam, axes, fixed, rows, boundaries):
-    from bhchem import __version__
+    from bhchem.version import __version__
     from bhchem.core.compiled import bind
     ex = bind(fam, **{**fixed, **{a.name: a.values[0] for a in axes}})
     dims = ex.derivation.length_dimensions

@@ -21,7 +21,7 @@ import os
 import shutil
 import tempfile
 
-from bhchem import __version__
+from bhchem.version import __version__
 from bhchem.core.compiled import Thermodynamics
 from bhchem.conventions import convention_record
 from bhchem.errors import BhchemError

@@ -1,0 +1,2 @@
+"""The version of bhchem (one place; pyproject.toml reads it from here)."""
+__version__ = "0.2.0"
