@@ -1,0 +1,109 @@
+"""Golden outputs: the JSON of ``show``, ``critical``, ``isobar`` (at 0.5 P_c, or a fixed P
+where there is no critical point) and ``phases`` for every bundled family, recorded with
+version 0.1 before the 0.2 layout moved any code (``tests/golden/*.json``).
+
+The layout change must not change a result.  Differences allowed, each an intended
+contract fix of 0.2, and nothing else:
+
+* the non-standard token ``NaN`` of 0.1 is ``null`` now (strict JSON);
+* keys that 0.1 lacked may be added (listed in ``ADDED_KEYS``; e.g. ``convention`` on
+  every result), never removed or renamed;
+* numbers agree to a relative 1e-9 (the promised residual bound of the analyses; the
+  shared numerical kernels of 0.2 may round differently in the last digits).
+
+To re-record after a deliberate change of results, run ``python tests/test_golden.py``
+and say in the commit what changed and why.
+"""
+from __future__ import annotations
+
+import io
+import json
+import math
+import sys
+from contextlib import redirect_stdout
+from pathlib import Path
+
+import pytest
+
+from bhchem.cli.main import main
+
+GOLDEN = Path(__file__).resolve().parent / "golden"
+FAMILIES = ("schwarzschild-ads", "rn-ads", "born-infeld-ads", "gauss-bonnet-ads",
+            "lovelock3-ads", "kerr-newman-ads", "kerr-ads", "vdw-fluid")
+COMMANDS = ("show", "critical", "isobar", "phases")
+#: keys a 0.2 result may carry that 0.1 did not (intended additions)
+ADDED_KEYS = {"convention", "non_finite", "warnings", "admissibility", "excluded",
+              "ensemble", "topological_charge", "end_explanation", "polynomial"}
+RTOL = 1e-9
+
+
+def argv(family: str, command: str) -> list[str]:
+    args = [command, family, "--json"]
+    if command == "isobar":
+        args += ["--pressure", "0.01" if family == "schwarzschild-ads" else "0.5Pc"]
+    return args
+
+
+def run(family: str, command: str) -> str:
+    buf = io.StringIO()
+    with redirect_stdout(buf):
+        code = main(argv(family, command))
+    assert code == 0
+    return buf.getvalue()
+
+
+def compare(old, new, path="$") -> list[str]:
+    """Differences between a 0.1 golden value and a 0.2 value, as readable lines."""
+    if isinstance(old, float) and math.isnan(old):
+        return [] if new is None or (isinstance(new, float) and math.isnan(new)) else [
+            f"{path}: NaN became {new!r}"]
+    if isinstance(old, bool) or old is None or isinstance(old, str):
+        return [] if old == new else [f"{path}: {old!r} -> {new!r}"]
+    if isinstance(old, (int, float)):
+        if not isinstance(new, (int, float)) or isinstance(new, bool):
+            return [f"{path}: {old!r} -> {new!r}"]
+        if old == new or abs(new - old) <= RTOL * max(abs(old), abs(new)):
+            return []
+        return [f"{path}: {old!r} -> {new!r}"]
+    if isinstance(old, list):
+        if not isinstance(new, list) or len(new) != len(old):
+            return [f"{path}: list of {len(old)} -> "
+                    f"{len(new) if isinstance(new, list) else type(new).__name__}"]
+        return [d for i, (a, b) in enumerate(zip(old, new)) for d in compare(a, b, f"{path}[{i}]")]
+    if isinstance(old, dict):
+        if not isinstance(new, dict):
+            return [f"{path}: object -> {type(new).__name__}"]
+        out = [f"{path}: key {k!r} removed" for k in old if k not in new]
+        out += [f"{path}: key {k!r} added" for k in new if k not in old and k not in ADDED_KEYS]
+        for k in old:
+            if k in new:
+                out += compare(old[k], new[k], f"{path}.{k}")
+        return out
+    return [f"{path}: unexpected type {type(old).__name__}"]
+
+
+@pytest.mark.parametrize("family", FAMILIES)
+@pytest.mark.parametrize("command", COMMANDS)
+def test_output_matches_the_recorded_golden_file(family, command):
+    text = run(family, command)
+    new = json.loads(text, parse_constant=lambda c: pytest.fail(f"non-standard JSON {c}"))
+    old = json.loads((GOLDEN / f"{family}.{command}.json").read_text())
+    diffs = compare(old, new)
+    assert not diffs, f"{len(diffs)} difference(s):\n" + "\n".join(diffs[:30])
+
+
+def test_the_comparison_is_not_vacuous():
+    assert compare({"a": 1.0, "b": [1, 2]}, {"a": 1.0 + 1e-6, "b": [1, 2]})
+    assert compare({"a": 1.0}, {})
+    assert compare({"a": 1.0}, {"a": 1.0, "z": 2})
+    assert compare({"a": [1, 2]}, {"a": [1]})
+    assert compare({"a": "first-order"}, {"a": "zeroth-order"})
+    assert not compare({"a": float("nan"), "b": 2.0}, {"a": None, "b": 2.0 * (1 + 1e-12),
+                                                       "convention": {}})
+
+
+if __name__ == "__main__":  # re-record (see the module docstring)
+    for fam in FAMILIES:
+        for cmd in COMMANDS:
+            (GOLDEN / f"{fam}.{cmd}.json").write_text(run(fam, cmd))
+    print(f"recorded {len(FAMILIES) * len(COMMANDS)} files in {GOLDEN}", file=sys.stderr)
