@@ -147,9 +147,13 @@ def _check_nonempty(data: dict, what: str):
         raise EmptyFigureError(f"nothing to plot for the {what}: no physical state in range")
 
 
-def _title(th, extra=""):
+def figure_title(th, extra=""):
+    """The title of a figure: family name and parameter values, then ``extra``."""
     params = ", ".join(f"{k}={v:g}" for k, v in th.values.items())
     return f"{th.family.name} ({params}){extra}"
+
+
+_title = figure_title  # the name other modules of the package import
 
 
 def _scales(th):
