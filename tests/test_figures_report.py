@@ -180,3 +180,23 @@ def test_failed_report_leaves_no_folder(tmp_path, monkeypatch):
     with pytest.raises(RuntimeError):
         rep.write_report(bind("rn-ads"), tmp_path / "out")
     assert list(tmp_path.iterdir()) == []
+
+
+def test_tables_tex_math_has_no_e_notation(bundle):
+    """LaTeX math mode has no 'e' exponent notation (common practice): a fitted exponent
+    is typeset as $0.5000 \\pm 2\\times10^{-10}$, never $0.5000\\pm2e-10$."""
+    tex = (bundle / "tables.tex").read_text()
+    spreads = re.findall(r"\\pm ([^$]*)\$", tex)
+    assert len(spreads) >= 3  # beta, gamma, delta of the rn-ads point are fitted
+    for s in spreads:
+        assert re.fullmatch(r"\d(\.\d+)?(\\times10\^\{-?\d+\})?", s), s
+    for math_text in re.findall(r"\$([^$]*)\$", tex):
+        assert not re.search(r"\d[eE][-+]?\d", math_text), math_text
+
+
+def test_results_json_is_strict_json(bundle):
+    """RFC 8259: NaN/Infinity are not JSON; results.json parses with a strict parser."""
+    def refuse(token):
+        raise ValueError(token)
+    doc = json.loads((bundle / "results.json").read_text(), parse_constant=refuse)
+    assert doc["convention"]["pressure"].startswith("P = -Lambda/(8 pi)")

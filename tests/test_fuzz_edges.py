@@ -68,7 +68,7 @@ def test_random_parameter_text(value):
 
 
 @pytest.mark.parametrize("content", ["", "\x00\x01\x02", "FAMILY = None", "import sys; sys.exit(3)",
-                                     "from chemistry import Family\nFAMILY = Family()",
+                                     "from bhchem import Family\nFAMILY = Family()",
                                      "\ufeffFAMILY = 1", "def f(:\n"])
 def test_garbage_python_family_files(capsys, tmp_path, content):
     path = tmp_path / "garbage.py"

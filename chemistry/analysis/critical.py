@@ -69,7 +69,11 @@ class CriticalPoint:
         T > 0, P > 0 and every declared state condition holds.
     on_preferred_branch : bool or None
         Whether the point takes part in a transition of the globally preferred
-        phase; None until a phase-structure analysis has decided it.
+        phase (:func:`bhchem.analysis.phases.takes_part_in_transition`: just off P_c the
+        preferred phase has a first-order transition ending there).  Decided when the
+        search is asked to (``find_critical_points(..., preferred_branch=True)``, as
+        ``bhchem critical`` and the report do); None otherwise, and always None for
+        degenerate or unphysical points.
     residuals : dict
         Relative residuals x T_x / T and x^2 T_xx / T at the point.
     scale_free : dict
@@ -132,7 +136,8 @@ class CriticalSearch:
 
 # -- entry point -------------------------------------------------------------------
 def find_critical_points(family, method: str = "auto", *, pressure_range=None,
-                         state_range=None, **params) -> CriticalSearch:
+                         state_range=None, preferred_branch: bool = False,
+                         **params) -> CriticalSearch:
     """All critical points of a family at given parameters.
 
     Parameters
@@ -142,10 +147,17 @@ def find_critical_points(family, method: str = "auto", *, pressure_range=None,
         'auto' uses the certified elimination when the equation of state allows it.
     pressure_range, state_range : (float, float), optional
         Ranges for the scanned method (default: from the family's own scales).
+    preferred_branch : bool
+        Also decide ``on_preferred_branch`` for every point (the points of the result
+        are created with it).  This analyses the isobar just off each physical P_c
+        (:func:`bhchem.analysis.phases.takes_part_in_transition`), so it is off by default and
+        ``on_preferred_branch`` is then None.
     **params
         Parameter values (ignored when a Thermodynamics is passed).
     """
     th = family if isinstance(family, Thermodynamics) else bind(family, **params)
+    if preferred_branch:
+        return _with_preferred_branch(th, method, pressure_range, state_range)
     default = method == "auto" and pressure_range is None and state_range is None
     if default:
         # one search per bound family: isobars, plots and the phase diagram all ask for it
@@ -155,6 +167,25 @@ def find_critical_points(family, method: str = "auto", *, pressure_range=None,
     result = _search(th, method, pressure_range, state_range)
     if default:
         th._critical_search = result
+    return result
+
+
+def _with_preferred_branch(th, method, pressure_range, state_range) -> CriticalSearch:
+    """The search with every point created carrying ``on_preferred_branch``."""
+    from dataclasses import replace
+    from bhchem.analysis.phases import takes_part_in_transition
+    default = method == "auto" and pressure_range is None and state_range is None
+    if default:
+        cached = getattr(th, "_critical_search_preferred", None)
+        if cached is not None:
+            return cached
+    base = find_critical_points(th, method, pressure_range=pressure_range,
+                                state_range=state_range)
+    points = tuple(replace(cp, on_preferred_branch=takes_part_in_transition(th, cp))
+                   for cp in base.points)
+    result = replace(base, points=points)
+    if default:
+        th._critical_search_preferred = result
     return result
 
 

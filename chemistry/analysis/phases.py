@@ -655,8 +655,13 @@ def diagram_text(pd: PhaseDiagram) -> str:
                    f"{', '.join(tp.phases)} (residual {tp.residual:.1e})")
     for line in pd.lines:
         lo, hi = line.ends["low"], line.ends["high"]
+        n_checked = line.checks.get("n_points")  # what the JSON holds: points and checks
+        counted = f"{len(line.points)} points" + (
+            f" ({n_checked} checked coexistence states, {len(line.points) - n_checked} "
+            f"critical end point(s))" if n_checked is not None and n_checked != len(line.points)
+            else "")
         out.append(f"  {line.kind} line {line.between[0]} / {line.between[1]}: "
-                   f"{len(line.points)} points, from {lo['type']} (P = {lo['P']:.6g}) to "
+                   f"{counted}, from {lo['type']} (P = {lo['P']:.6g}) to "
                    f"{hi['type']} (P = {hi['P']:.6g})")
         if line.checks:
             out.append("    checks: " + ", ".join(

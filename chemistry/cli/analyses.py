@@ -15,11 +15,11 @@ bad input raises a :class:`~bhchem.errors.BhchemError` (one line, exit 2 in
 """
 from __future__ import annotations
 
-import json
 import math
 import sys
 
 from bhchem.errors import BhchemError
+from bhchem.present.serialize import to_json
 
 
 def _family_args(p, figure_help: str):
@@ -46,13 +46,9 @@ def _finish(args, doc: dict, text: str, figure) -> int:
         path = save(figure(), args.output)
         print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     if args.json:
-        # every JSON result carries the conventions it uses (project rule)
-        from bhchem.conventions import convention_record
+        # one serializer: non-finite -> null, sorted keys, the family's conventions added
         from bhchem.declare.registry import get_family
-        if "convention" not in doc:
-            doc = {**doc, "convention": convention_record(get_family(args.family))}
-        from bhchem.workflows.report import _finite
-        print(json.dumps(_finite(doc), indent=2, sort_keys=True, allow_nan=False))
+        print(to_json(doc, family=get_family(args.family)))
     else:
         print(text)
     return 0

@@ -7,11 +7,11 @@ Bad input ends with one line on stderr and exit code 2, never a traceback.
 from __future__ import annotations
 
 import argparse
-import json
 import os
 import sys
 
 from bhchem.errors import BhchemError
+from bhchem.present.serialize import to_json
 
 EXIT_USAGE = 2
 
@@ -63,13 +63,16 @@ def cmd_families(args) -> int:
     from bhchem.declare.registry import available_families
     fams = available_families()
     if args.json:
+        from bhchem.conventions import convention_record
         out = {name: {"summary": f.summary, "reference": f.reference,
+                      "convention": convention_record(f),
                       "parameters": {p.name: {"default": p.default,
                                               "dimension": str(p.length_dimension),
                                               "domain": p.domain.describe(p.name)}
                                      for p in f.all_parameters}}
                for name, f in fams.items()}
-        print(json.dumps(out, indent=2, sort_keys=True))
+        # keys are family names: each entry carries its own conventions
+        print(to_json(out, convention=False))
         return 0
     width = max(len(n) for n in fams)
     for name, f in fams.items():
@@ -83,7 +86,7 @@ def cmd_show(args) -> int:
     from bhchem.present.summary import show_json, show_text
     th = _bound(args)
     if args.json:
-        print(json.dumps(show_json(th), indent=2, sort_keys=True))
+        print(to_json(show_json(th), family=th.family))
     else:
         print(show_text(th))
     return 0
@@ -94,7 +97,7 @@ def cmd_critical(args) -> int:
     th = _bound(args)
     doc = critical_json(th, with_exponents=args.command == "exponents")
     if args.json:
-        print(json.dumps(doc, indent=2, sort_keys=True))
+        print(to_json(doc, family=th.family))
     else:
         print(critical_text(doc))
     return 0
@@ -137,8 +140,7 @@ def cmd_isobar(args) -> int:
     th = _bound(args)
     P = parse_pressure(args.pressure, th)
     res = analyze_isobar(th, P, critical_points=find_critical_points(th).physical)
-    doc = isobar_json(res)
-    print(json.dumps(doc, indent=2, sort_keys=True) if args.json else isobar_text(res))
+    print(to_json(isobar_json(res), family=th.family) if args.json else isobar_text(res))
     return 0
 
 
@@ -154,8 +156,7 @@ def cmd_phases(args) -> int:
     pd = phase_diagram(th, pressure_range=rng, progress=progress)
     if progress:
         progress(None, None)
-    print(json.dumps(diagram_json(pd), indent=2, sort_keys=True) if args.json
-          else diagram_text(pd))
+    print(to_json(diagram_json(pd), family=th.family) if args.json else diagram_text(pd))
     return 0
 
 
@@ -196,12 +197,13 @@ def cmd_report(args) -> int:
     th = _bound(args)
     progress = _stage_progress(args)
     path = write_report(th, args.output, digits=args.digits, force=args.force,
-                        progress=progress)
+                        progress=progress, include_unphysical=args.include_unphysical)
     print(f"wrote {path}/ (report.md, tables.tex, results.json, figures)")
     return 0
 
 
 def cmd_demo(args) -> int:
+    import os
     from bhchem.core.compiled import bind
     from bhchem.declare.registry import load_family_file
     from bhchem.demo import FAMILY_FILE
@@ -326,6 +328,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("-o", "--output", required=True, metavar="DIR", help="output folder")
     p.add_argument("--digits", type=int, default=6, help="significant digits in tables (6)")
     p.add_argument("--force", action="store_true", help="replace an existing folder")
+    p.add_argument("--include-unphysical", action="store_true",
+                   help="list unphysical critical points in tables.tex too (default: "
+                        "physical only; results.json and report.md list all)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_report)
 

@@ -10,17 +10,24 @@ a result (an empty list), not an error.
 """
 from __future__ import annotations
 
+import math
+
 from bhchem.core.compiled import Thermodynamics
 from bhchem.analysis.critical import find_critical_points
+from bhchem.workflows.report import EXPONENT_DEFINITIONS
 
 
 def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
-    from bhchem.analysis.phases import takes_part_in_transition
-    search = find_critical_points(th)
+    """The JSON document of ``bhchem critical`` / ``exponents``.
+
+    ``on_preferred_branch`` comes from the analysis itself
+    (``find_critical_points(th, preferred_branch=True)``), so the Python API and the JSON
+    carry the same flag.
+    """
+    search = find_critical_points(th, preferred_branch=True)
     points = []
     for cp in search.points:
         d = cp.to_dict()
-        d["on_preferred_branch"] = takes_part_in_transition(th, cp)
         d["state_variable"] = th.derivation.state.name
         if with_exponents:
             if cp.kind == "degenerate" or not cp.physical:
@@ -43,8 +50,12 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
             "critical_points": points}
 
 
+def _finite(v) -> bool:
+    return v is not None and math.isfinite(v)
+
+
 def _g(v) -> str:
-    return "-" if v is None else f"{v:.12g}"
+    return f"{v:.12g}" if _finite(v) else "-"
 
 
 def critical_text(doc: dict) -> str:
@@ -63,22 +74,26 @@ def critical_text(doc: dict) -> str:
         lines.append(f"      {state}r_c = {_g(cp['r'])}   "
                      f"G_c = {_g(cp['G'])}   P_c v_c / T_c = {_g(cp['ratio'])}")
         if cp["scale_free"]:
-            sf = "   ".join(f"{k} = {v:.12g}" for k, v in cp["scale_free"].items())
+            sf = "   ".join(f"{k} = {_g(v)}" for k, v in cp["scale_free"].items())
             lines.append(f"      scale-free: {sf}")
-        res = ", ".join(f"{k} = {v:.1e}" for k, v in cp["residuals"].items())
+        res = ", ".join(f"{k} = {v:.1e}" if _finite(v) else f"{k} = not computed"
+                        for k, v in cp["residuals"].items())
         lines.append(f"      residuals: {res}")
         if "exponents" in cp:
             if cp["exponents"] is None:
                 lines.append(f"      exponents: {cp['exponents_note']}")
                 continue
             ex = cp["exponents"]
-            lines.append("      exponents (exact):  " + "  ".join(
-                f"{k} = {ex[k]}" for k in ("alpha", "beta", "gamma", "delta")))
-            fit = []
+            lines.append("      critical exponents (t = T/T_c - 1), exact and fitted:")
             for k in ("alpha", "beta", "gamma", "delta"):
                 f = cp["fitted"][k]
-                fit.append(f"{k} = -" if f["value"] is None else
-                           f"{k} = {f['value']:.5f} +- {f['uncertainty']:.1e}")
-            lines.append("      exponents (fitted): " + "  ".join(fit))
+                if not _finite(f["value"]):
+                    fitted = f"not fitted ({f['note']})" if f.get("note") else "not fitted"
+                elif not _finite(f["uncertainty"]):
+                    fitted = f"{f['value']:.5f}"
+                else:
+                    fitted = f"{f['value']:.5f} +- {f['uncertainty']:.1e}"
+                head = f"exponent {k} ({EXPONENT_DEFINITIONS[k]})"
+                lines.append(f"        {head:<50} exact {ex[k] or '-':<5} fitted {fitted}")
             lines.append(f"      {cp['exponents_note']}")
     return "\n".join(lines)

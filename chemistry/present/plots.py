@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import math
 import os
-import tempfile
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 
@@ -63,31 +62,63 @@ class EmptyFigureError(BhchemError):
 
 @dataclass
 class PlotResult:
+    """A figure and the data it drew.
+
+    ``figure`` is a :class:`matplotlib.figure.Figure` made without pyplot: it is not
+    registered with pyplot's global figure list, so drawing any number of figures never
+    accumulates open figures, and the caller owns it (``figure.savefig(...)``, or
+    ``display(figure)`` in a notebook; freed like any object when no longer referenced).
+    """
+
     figure: object
     kind: str
     data: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
 
 
-def _mpl():
-    import matplotlib
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+class FigureFactory:
+    """What :func:`styled` yields: ``subplots`` like pyplot's, but the figure is a plain
+    :class:`matplotlib.figure.Figure` (no pyplot state, no backend chosen or changed)."""
+
+    @staticmethod
+    def subplots(nrows: int = 1, ncols: int = 1, *, figsize=None, **kw):
+        """``(figure, axes)`` as :func:`matplotlib.pyplot.subplots` returns them."""
+        from matplotlib.figure import Figure
+        fig = Figure(figsize=figsize)
+        return fig, fig.subplots(nrows, ncols, **kw)
+
+
+def _style() -> dict:
     from cycler import cycler
     style = dict(STYLE)
     style["axes.prop_cycle"] = cycler(color=PALETTE)
-    return plt, style
+    return style
 
 
 @contextmanager
-def _styled():
-    plt, style = _mpl()
-    with plt.rc_context(style):
-        yield plt
+def styled():
+    """Draw in the bhchem style: ``with styled() as mk: fig, ax = mk.subplots()``.
+
+    The style is applied with :func:`matplotlib.rc_context`, so the caller's rcParams
+    are restored on exit; the backend is never touched (a library must not call
+    ``matplotlib.use``).
+    """
+    import matplotlib
+    with matplotlib.rc_context(_style()):
+        yield FigureFactory()
+
+
+_styled = styled  # the name other modules of the package import
 
 
 def save(result: PlotResult, path) -> str:
-    """Write the figure atomically (format from the extension: png, pdf, svg)."""
+    """Write the figure atomically (format from the extension: png, pdf, svg).
+
+    Written through :func:`bhchem.present.serialize.atomic_file`, so the file ends with
+    0666 & ~umask like any other file; the figure itself stays the caller's.
+    """
+    import matplotlib
+    from bhchem.present.serialize import atomic_file
     path = os.fspath(path)
     ext = os.path.splitext(path)[1].lower().lstrip(".")
     if ext not in ("png", "pdf", "svg"):
@@ -95,17 +126,8 @@ def save(result: PlotResult, path) -> str:
     directory = os.path.dirname(os.path.abspath(path))
     if not os.path.isdir(directory):
         raise BhchemError(f"output {path}: directory {directory} does not exist")
-    fd, tmp = tempfile.mkstemp(suffix="." + ext, dir=directory)
-    os.close(fd)
-    try:
-        _, style = _mpl()
-        import matplotlib.pyplot as plt
-        with plt.rc_context(style):
-            result.figure.savefig(tmp, format=ext, metadata=_metadata(ext))
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
+    with atomic_file(path, "wb") as fh, matplotlib.rc_context(_style()):
+        result.figure.savefig(fh, format=ext, metadata=_metadata(ext))
     return path
 
 
@@ -125,23 +147,21 @@ def _check_nonempty(data: dict, what: str):
         raise EmptyFigureError(f"nothing to plot for the {what}: no physical state in range")
 
 
-def _title(th, extra=""):
+def figure_title(th, extra=""):
+    """The title of a figure: family name and parameter values, then ``extra``."""
     params = ", ".join(f"{k}={v:g}" for k, v in th.values.items())
     return f"{th.family.name} ({params}){extra}"
+
+
+_title = figure_title  # the name other modules of the package import
 
 
 def _scales(th):
     """The critical point that sets the figure scales: the first (by pressure) that lies
     on the globally preferred branch; else the first physical one; else None."""
-    cached = getattr(th, "_plot_scale_cp", False)
-    if cached is not False:
-        return cached
     from bhchem.analysis.critical import find_critical_points
-    from bhchem.analysis.phases import takes_part_in_transition
-    cps = find_critical_points(th).physical
-    main = next((cp for cp in cps if takes_part_in_transition(th, cp)), cps[0] if cps else None)
-    th._plot_scale_cp = main
-    return main
+    cps = find_critical_points(th, preferred_branch=True).physical
+    return next((cp for cp in cps if cp.on_preferred_branch), cps[0] if cps else None)
 
 
 # -- P-v isotherms --------------------------------------------------------------------
@@ -160,8 +180,8 @@ def plot_pv(th, temperatures=None) -> PlotResult:
         x = x0 * np.geomspace(0.3, 6.0, 800)
         P_ref = P0
     data, notes = {}, []
-    with _styled() as plt:
-        fig, ax = plt.subplots(figsize=(5.2, 3.8))
+    with styled() as mk:
+        fig, ax = mk.subplots(figsize=(5.2, 3.8))
         for i, T in enumerate(Ts):
             P = _isotherm_pressure(th, x, T, P_ref)
             ok = th.physical(x, P) & (P > 0) & np.isfinite(P)
@@ -256,8 +276,8 @@ def plot_gt(th, pressures=None) -> PlotResult:
     n = len(pressures)
     cols = 2 if n > 1 else 1
     rows = math.ceil(n / cols)
-    with _styled() as plt:
-        fig, axes = plt.subplots(rows, cols, figsize=(3.3 * cols, 2.7 * rows), squeeze=False)
+    with styled() as mk:
+        fig, axes = mk.subplots(rows, cols, figsize=(3.3 * cols, 2.7 * rows), squeeze=False)
         for i, P in enumerate(pressures):
             ax = axes[i // cols][i % cols]
             res = analyze_isobar(th, P)
@@ -363,8 +383,8 @@ def plot_pt(th, diagram=None) -> PlotResult:
     from bhchem.analysis.phases import phase_diagram
     pd = diagram or phase_diagram(th)
     data = {}
-    with _styled() as plt:
-        fig, ax = plt.subplots(figsize=(5.2, 3.8))
+    with styled() as mk:
+        fig, ax = mk.subplots(figsize=(5.2, 3.8))
         seen = set()
         for i, line in enumerate(pd.lines):
             pts = np.array(line.points, float)
@@ -379,10 +399,12 @@ def plot_pt(th, diagram=None) -> PlotResult:
                 e = line.ends[side]
                 if e["type"] == "terminal point":
                     ax.plot([e["T"]], [e["P"]], "s", ms=4.5, color=PALETTE[1], zorder=6)
-        from bhchem.analysis.phases import takes_part_in_transition
+        from bhchem.analysis.critical import find_critical_points
+        preferred = {(c.x, c.P): c.on_preferred_branch
+                     for c in find_critical_points(th, preferred_branch=True).points}
         first = {True: True, False: True}
         for cp in pd.critical_points:
-            on = bool(takes_part_in_transition(th, cp))
+            on = bool(preferred.get((cp.x, cp.P), cp.on_preferred_branch))
             ax.plot([cp.T], [cp.P], "o", ms=6, zorder=7, color="black",
                     markerfacecolor="black" if on else "white",
                     label=("critical point" if on else "critical point (not on the preferred "
@@ -481,8 +503,8 @@ def plot_tr(th, pressures=None) -> PlotResult:
     pressures = pressures or _default_pressures(th, cp)
     data = {}
     xname = "r_+" if th.derivation.state.name == "r" else th.derivation.state.name
-    with _styled() as plt:
-        fig, ax = plt.subplots(figsize=(5.2, 3.8))
+    with styled() as mk:
+        fig, ax = mk.subplots(figsize=(5.2, 3.8))
         x_c = cp.x if cp is not None else th.typical_state()
         for i, P in enumerate(pressures):
             res = analyze_isobar(th, P)
@@ -516,8 +538,8 @@ def plot_cp(th, pressure=None) -> PlotResult:
     res = analyze_isobar(th, P)
     data = {}
     x_c = cp.x if cp is not None else th.typical_state()
-    with _styled() as plt:
-        fig, ax = plt.subplots(figsize=(5.2, 3.8))
+    with styled() as mk:
+        fig, ax = mk.subplots(figsize=(5.2, 3.8))
         for b in res.branches:
             lo, hi = max(b.x_min, 0.2 * x_c), min(b.x_max, 6 * x_c)
             if hi <= lo:

@@ -150,15 +150,8 @@ def run_chunk(family_name, family_file, fixed, points) -> list:
 
 # -- the scan ------------------------------------------------------------------------------------
 def _atomic_write(path, text):
-    d = os.path.dirname(path)
-    fd, tmp = tempfile.mkstemp(dir=d, prefix=".tmp-")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
+    from bhchem.present.serialize import atomic_write  # the one atomic writer (0666 & ~umask)
+    atomic_write(path, text)
 
 
 def _dumps(obj) -> str:

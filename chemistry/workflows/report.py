@@ -15,16 +15,14 @@ from __future__ import annotations
 
 import datetime as _dt
 import hashlib
-import json
 import math
 import os
-import shutil
-import tempfile
 
 from bhchem.version import __version__
 from bhchem.core.compiled import Thermodynamics
 from bhchem.conventions import convention_record
 from bhchem.errors import BhchemError
+from bhchem.present.serialize import atomic_directory, atomic_write, jsonable, to_json
 
 FIGURES = (("pv", "P-v isotherms with the equal-area construction"),
            ("gt", "G-T isobars"),
@@ -34,26 +32,15 @@ FIGURES = (("pv", "P-v isotherms with the equal-area construction"),
 
 
 def _finite(x):
-    """JSON-safe numbers: NaN and infinities become null."""
-    if isinstance(x, float) and not math.isfinite(x):
-        return None
-    if isinstance(x, dict):
-        return {str(k): _finite(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [_finite(v) for v in x]
-    if hasattr(x, "tolist") and getattr(x, "ndim", 0) > 0:  # numpy arrays
-        return _finite(x.tolist())
-    if hasattr(x, "item") and not isinstance(x, (str, bytes)):  # numpy scalars
-        try:
-            return _finite(x.item())
-        except (ValueError, AttributeError):
-            return x
-    return x
+    """JSON-safe numbers (kept for old callers): see :func:`bhchem.present.serialize.jsonable`."""
+    return jsonable(x)
 
 
-def dumps(doc) -> str:
-    """Deterministic JSON: sorted keys, shortest round-trip floats, NaN as null."""
-    return json.dumps(_finite(doc), indent=2, sort_keys=True, allow_nan=False) + "\n"
+def dumps(doc, family=None) -> str:
+    """Deterministic JSON file text: :func:`bhchem.present.serialize.to_json` plus a newline
+    (sorted keys, shortest round-trip floats, non-finite numbers as null, ``convention``
+    added when missing)."""
+    return to_json(doc, family=family) + "\n"
 
 
 def _now() -> str:
@@ -106,15 +93,30 @@ def compute_results(th: Thermodynamics, progress=None) -> tuple[dict, object]:
 
 
 # -- LaTeX tables ------------------------------------------------------------------------
+def tex_math_number(x, digits: int) -> str:
+    """The body of a math-mode number to ``digits`` significant digits, without dollars:
+    ``1.23\\times10^{-4}``, ``0.5`` (never the text form ``1.23e-04``)."""
+    s = f"{x:.{digits}g}"
+    if "e" in s:
+        mant, exp = s.split("e")
+        return f"{mant}\\times10^{{{int(exp)}}}"
+    return s
+
+
 def tex_number(x, digits: int) -> str:
     """A number for LaTeX to ``digits`` significant digits ($1.23\\times10^{-4}$)."""
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return "--"
-    s = f"{x:.{digits}g}"
-    if "e" in s:
-        mant, exp = s.split("e")
-        return f"${mant}\\times10^{{{int(exp)}}}$"
-    return f"${s}$"
+    return f"${tex_math_number(x, digits)}$"
+
+
+def tex_fitted(value, uncertainty) -> str:
+    """A fitted value with its standard error, e.g. ``$0.5000 \\pm 1\\times10^{-10}$``."""
+    if value is None or not math.isfinite(value):
+        return "--"
+    if uncertainty is None or not math.isfinite(uncertainty):
+        return f"${value:.4f}$"
+    return f"${value:.4f} \\pm {tex_math_number(uncertainty, 1)}$"
 
 
 def _tex_escape(s: str) -> str:
@@ -122,14 +124,56 @@ def _tex_escape(s: str) -> str:
             .replace("%", r"\%").replace("#", r"\#"))
 
 
-def tables_tex(doc: dict, digits: int = 6) -> str:
-    """booktabs tables: critical data, scale-free values, exponents, triple points."""
+def _tex_symbol(name: str) -> str:
+    """A parameter name in math mode: one letter stays italic (``Q``), a longer name is
+    upright (``\\mathrm{alpha}``), so a coupling named alpha is never typeset like the
+    exponent $\\alpha$."""
+    base, sep, sub = name.partition("_")
+    body = base if len(base) <= 1 else f"\\mathrm{{{base}}}"
+    return f"{body}_{{{sub}}}" if sep else body
+
+
+#: the definitions of the critical exponents (t = T/T_c - 1), as in Kubiznak & Mann,
+#: JHEP 07 (2012) 033 (arXiv:1205.0559), Sec. 3
+EXPONENT_DEFINITIONS = {
+    "alpha": "C_V ~ |t|^-alpha",
+    "beta": "eta = (v_l - v_s)/v_c ~ |t|^beta",
+    "gamma": "kappa_T ~ |t|^-gamma",
+    "delta": "|P - P_c| ~ |v - v_c|^delta at T = T_c",
+}
+_EXPONENT_TEX = (r"$C_V\propto|t|^{-\alpha}$, $\eta=(v_l-v_s)/v_c\propto|t|^{\beta}$, "
+                 r"$\kappa_T\propto|t|^{-\gamma}$, $|P-P_c|\propto|v-v_c|^{\delta}$ at "
+                 r"$T=T_c$; $t=T/T_c-1$")
+
+
+def tables_tex(doc: dict, digits: int = 6, include_unphysical: bool = False) -> str:
+    """booktabs tables: critical data, scale-free values, exponents, triple points.
+
+    Parameters
+    ----------
+    doc : dict
+        The ``results.json`` document.
+    digits : int
+        Significant digits.
+    include_unphysical : bool
+        List every solution of the critical conditions (default: only the physical ones,
+        with a comment line saying how many were left out).  Rows keep the numbering of
+        ``results.json`` and ``report.md``.
+    """
     fam = doc["family"]["name"]
-    params = ", ".join(f"${k} = {v['value']:g}$" for k, v in doc["parameters"].items())
-    cps = doc["critical"]["critical_points"]
+    params = ", ".join(f"${_tex_symbol(k)} = {tex_math_number(v['value'], 6)}$"
+                       for k, v in doc["parameters"].items())
+    every = list(enumerate(doc["critical"]["critical_points"], 1))
+    cps = [(i, cp) for i, cp in every if include_unphysical or cp["physical"]]
+    left_out = len(every) - len(cps)
     plain = ", ".join("%s=%g" % (k, v["value"]) for k, v in doc["parameters"].items())
     out = [f"% Generated by bhchem {__version__} for {fam} ({plain}).",
-           "% Requires \\usepackage{booktabs}.", ""]
+           "% Requires \\usepackage{booktabs}."]
+    if left_out:
+        out.append(f"% {left_out} unphysical critical point(s) left out (T_c <= 0, P_c <= 0 "
+                   f"or outside the declared domain; all are in results.json); "
+                   f"'bhchem report --include-unphysical' lists them.")
+    out.append("")
 
     def table(label, caption, header, rows, align):
         out.extend([r"\begin{table}[ht]", r"\centering",
@@ -140,7 +184,7 @@ def tables_tex(doc: dict, digits: int = 6) -> str:
         out.extend([r"\bottomrule", r"\end{tabular}", r"\end{table}", ""])
 
     rows = []
-    for i, cp in enumerate(cps, 1):
+    for i, cp in cps:
         rows.append([str(i), _tex_escape(cp["kind"]),
                      "yes" if cp["physical"] else "no",
                      {True: "yes", False: "no", None: "--"}[cp.get("on_preferred_branch")],
@@ -151,36 +195,37 @@ def tables_tex(doc: dict, digits: int = 6) -> str:
               f"complete: {doc['critical']['completeness']}.",
               ["", "kind", "physical", "preferred", "$T_c$", "$P_c$", "$v_c$",
                "$P_c v_c/T_c$"], rows, "rlllrrrr")
-        keys = list(cps[0]["scale_free"])
+        keys = list(cps[0][1]["scale_free"])
         if keys:
             hdr = [""] + [f"${_latex_key(k)}$" for k in keys]
             srows = [[str(i)] + [tex_number(cp["scale_free"].get(k), digits) for k in keys]
-                     for i, cp in enumerate(cps, 1)]
+                     for i, cp in cps]
             table("scale-free", f"Scale-free critical data of \\texttt{{{_tex_escape(fam)}}}.",
                   hdr, srows, "r" * (len(keys) + 1))
         erows = []
-        for i, cp in enumerate(cps, 1):
+        for i, cp in cps:
             if not cp.get("exponents"):
                 continue
             ex, fit = cp["exponents"], cp["fitted"]
             row = [str(i)]
             for k in ("alpha", "beta", "gamma", "delta"):
                 f = fit[k]
-                fitted = "--" if f["value"] is None else \
-                    f"${f['value']:.4f}\\pm{f['uncertainty']:.1g}$"
-                row.append(f"${_frac(ex[k])}$ ({fitted})")
+                row.append(f"${_frac(ex[k])}$ ({tex_fitted(f['value'], f['uncertainty'])})")
             erows.append(row)
         if erows:
-            table("exponents", "Critical exponents: exact (from the series of the equation "
-                  "of state) and, in parentheses, fitted.",
-                  ["", r"$\alpha$", r"$\beta$", r"$\gamma$", r"$\delta$"], erows, "rllll")
+            table("exponents", "Critical exponents (" + _EXPONENT_TEX + "): exact (from the "
+                  "series of the equation of state) and, in parentheses, fitted.",
+                  ["", r"exponent $\alpha$", r"exponent $\beta$", r"exponent $\gamma$",
+                   r"exponent $\delta$"], erows, "rllll")
     tps = doc["phases"]["triple_points"]
     if tps:
         trows = [[str(i), tex_number(tp["T"], digits), tex_number(tp["P"], digits),
                   _tex_escape(", ".join(tp["phases"]))] for i, tp in enumerate(tps, 1)]
         table("triple", "Triple points.", ["", "$T$", "$P$", "phases"], trows, "rrrl")
     if not rows and not tps:
-        out.append("% No critical point and no triple point at these parameters.")
+        out.append("% No physical critical point and no triple point at these parameters."
+                   if left_out else
+                   "% No critical point and no triple point at these parameters.")
     return "\n".join(out) + "\n"
 
 
@@ -194,10 +239,13 @@ def _frac(s):
 
 
 def _latex_key(k: str) -> str:
-    # 'P_c*Q^2' -> 'P_c Q^{2}', 'v_c/Q' -> 'v_c/Q'
-    k = k.replace("*", r"\,")
+    """A scale-free key for math mode: 'P_c*Q^2' -> 'P_c\\,Q^{2}', 'T_c*alpha^(1/2)' ->
+    'T_c\\,\\mathrm{alpha}^{1/2}' (a multi-letter parameter upright, see _tex_symbol)."""
     import re
-    return re.sub(r"\^\(?([^)\s/]+)\)?", r"^{\1}", k)
+    k = re.sub(r"(?<![A-Za-z_])([A-Za-z]{2,}[0-9]*)(?![A-Za-z_0-9])",
+               lambda m: f"\\mathrm{{{m.group(1)}}}", k)
+    k = k.replace("*", r"\,")
+    return re.sub(r"\^\(?([^)\s/]+(?:/[^)\s]+)?)\)?", r"^{\1}", k)
 
 
 # -- markdown ----------------------------------------------------------------------------------
@@ -225,7 +273,7 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
               "## Critical points", "", doc["critical"]["message"], ""]
     cps = doc["critical"]["critical_points"]
     if cps:
-        lines += ["| # | kind | physical | on preferred branch | T_c | P_c | v_c | P_c v_c/T_c | exponents (α, β, γ, δ) |",
+        lines += ["| # | kind | physical | on preferred branch | T_c | P_c | v_c | P_c v_c/T_c | critical exponents α, β, γ, δ |",
                   "| --- | --- | --- | --- | --- | --- | --- | --- | --- |"]
         for i, cp in enumerate(cps, 1):
             ex = cp.get("exponents")
@@ -234,6 +282,10 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
             lines.append(f"| {i} | {cp['kind']} | {'yes' if cp['physical'] else 'no'} | {pref} | "
                          f"{g(cp['T'])} | {g(cp['P'])} | {g(cp['v'])} | {g(cp['ratio'])} | {exs} |")
         lines.append("")
+        if any(cp.get("exponents") for cp in cps):
+            lines += ["Critical exponents (not parameters): " + "; ".join(
+                f"exponent {k} ({EXPONENT_DEFINITIONS[k]})" for k in EXPONENT_DEFINITIONS)
+                + "; t = T/T_c - 1.", ""]
         for i, cp in enumerate(cps, 1):
             if cp["scale_free"]:
                 lines.append(f"Point {i}, scale-free: " + ", ".join(
@@ -263,19 +315,47 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
 
 # -- the bundle ----------------------------------------------------------------------------------
 def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = False,
-                 progress=None) -> str:
-    """Compute and write the report bundle atomically into ``out_dir``."""
+                 progress=None, include_unphysical: bool = False) -> str:
+    """Compute and write the report bundle atomically into ``out_dir``.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    out_dir : str or os.PathLike
+        The folder to create (replaced only with ``force``).
+    digits : int
+        Significant digits in the tables (1 to 17).
+    force : bool
+        Replace an existing folder.
+    progress : callable, optional
+        Called with the name of each stage.
+    include_unphysical : bool
+        List unphysical critical points in ``tables.tex`` too (default: physical only;
+        the file says how many it left out).  ``results.json`` and ``report.md`` always
+        list every solution with its ``physical`` flag.
+
+    Returns
+    -------
+    str
+        The absolute path of the folder.  Every file is written through
+        :func:`bhchem.present.serialize.atomic_write` inside a folder built by
+        :func:`bhchem.present.serialize.atomic_directory`, so files end 0666 & ~umask and the
+        folder 0777 & ~umask.
+    """
     from bhchem.present.plots import EmptyFigureError, make_plot, save
     out_dir = os.path.abspath(os.fspath(out_dir))
-    if os.path.exists(out_dir) and not force:
-        raise BhchemError(f"output folder {out_dir} exists; choose another or pass --force")
+    if os.path.lexists(out_dir):
+        if not force:
+            raise BhchemError(f"output folder {out_dir} exists; choose another or pass --force")
+        if not os.path.isdir(out_dir) or os.path.islink(out_dir):
+            raise BhchemError(f"output folder {out_dir} exists and is not a folder; "
+                              f"choose another name")
     parent = os.path.dirname(out_dir)
     if not os.path.isdir(parent):
         raise BhchemError(f"output folder {out_dir}: parent {parent} does not exist")
     if not 1 <= digits <= 17:
         raise BhchemError("--digits must be between 1 and 17")
-    tmp = tempfile.mkdtemp(prefix=".bhchem-report-", dir=parent)
-    try:
+    with atomic_directory(out_dir, replace=force) as tmp:
         doc, pd = compute_results(th, progress)
         figures = []
         for name, caption in FIGURES:
@@ -289,20 +369,11 @@ def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = Fal
                 continue
             save(res, os.path.join(tmp, f"{name}.png"))
             save(res, os.path.join(tmp, f"{name}.pdf"))
-            import matplotlib.pyplot as plt
-            plt.close(res.figure)
+            del res  # saved, not returned: the figure (never in pyplot) is released
             figures.append((name, caption))
         doc["figures"] = [n for n, _ in figures]
-        with open(os.path.join(tmp, "results.json"), "w", encoding="utf-8") as fh:
-            fh.write(dumps(doc))
-        with open(os.path.join(tmp, "tables.tex"), "w", encoding="utf-8") as fh:
-            fh.write(tables_tex(doc, digits))
-        with open(os.path.join(tmp, "report.md"), "w", encoding="utf-8") as fh:
-            fh.write(report_md(doc, figures, digits))
-        if os.path.exists(out_dir):
-            shutil.rmtree(out_dir)
-        os.replace(tmp, out_dir)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
+        atomic_write(os.path.join(tmp, "results.json"), dumps(doc, family=th.family))
+        atomic_write(os.path.join(tmp, "tables.tex"),
+                     tables_tex(doc, digits, include_unphysical=include_unphysical))
+        atomic_write(os.path.join(tmp, "report.md"), report_md(doc, figures, digits))
     return out_dir
