@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from bhchem import bind
-from bhchem.cli import main
+from bhchem.cli.main import main
 from bhchem.conventions import convention_record
 from bhchem.declare.registry import get_family
 
@@ -237,7 +237,7 @@ def test_tables_tex_leaves_out_unphysical_points_and_says_so():
 
 
 def test_cli_report_flag_is_wired():
-    from bhchem.cli import build_parser
+    from bhchem.cli.main import build_parser
     args = build_parser().parse_args(["report", "rn-ads", "-o", "x", "--include-unphysical"])
     assert args.include_unphysical is True
 
