@@ -177,7 +177,7 @@ def test_atlas_files_get_umask_permissions(tmp_path, umask, capsys, mask):
 
 @pytest.mark.parametrize("mask", [0o022, 0o077])
 def test_atomic_helpers_leave_nothing_on_failure(tmp_path, umask, mask):
-    from bhchem.present.serialize import atomic_directory, atomic_write
+    from bhchem.fileio import atomic_directory, atomic_write
     umask(mask)
     p = atomic_write(tmp_path / "a.txt", "one")
     assert _mode(p) == 0o666 & ~mask

@@ -118,7 +118,7 @@ def save(result: PlotResult, path) -> str:
     0666 & ~umask like any other file; the figure itself stays the caller's.
     """
     import matplotlib
-    from bhchem.present.serialize import atomic_file
+    from bhchem.fileio import atomic_file
     path = os.fspath(path)
     ext = os.path.splitext(path)[1].lower().lstrip(".")
     if ext not in ("png", "pdf", "svg"):

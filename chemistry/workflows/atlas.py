@@ -150,7 +150,7 @@ def run_chunk(family_name, family_file, fixed, points) -> list:
 
 # -- the scan ------------------------------------------------------------------------------------
 def _atomic_write(path, text):
-    from bhchem.present.serialize import atomic_write  # the one atomic writer (0666 & ~umask)
+    from bhchem.fileio import atomic_write  # the one atomic writer (0666 & ~umask)
     atomic_write(path, text)
 
 

@@ -22,7 +22,8 @@ from bhchem.version import __version__
 from bhchem.core.compiled import Thermodynamics
 from bhchem.conventions import convention_record
 from bhchem.errors import BhchemError
-from bhchem.present.serialize import atomic_directory, atomic_write, jsonable, to_json
+from bhchem.fileio import atomic_directory, atomic_write
+from bhchem.present.serialize import jsonable, to_json
 
 FIGURES = (("pv", "P-v isotherms with the equal-area construction"),
            ("gt", "G-T isobars"),
