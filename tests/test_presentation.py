@@ -201,7 +201,7 @@ def test_exponents_cannot_be_mistaken_for_a_coupling_named_alpha(capsys):
     assert "alpha = 0.1" in text.splitlines()[0]  # the coupling, in the header
     lines = [ln.strip() for ln in text.splitlines()]
     exact = {"alpha": "0", "beta": "1/2", "gamma": "1", "delta": "3"}  # mean field, same paper
-    from bhchem.workflows.report import EXPONENT_DEFINITIONS
+    from bhchem.present.report_text import EXPONENT_DEFINITIONS
     for k, v in exact.items():
         (line,) = [ln for ln in lines if ln.startswith(f"exponent {k} (")]
         assert EXPONENT_DEFINITIONS[k] in line and re.search(rf"\bexact {re.escape(v)}\b", line)
@@ -216,7 +216,7 @@ def test_tables_tex_leaves_out_unphysical_points_and_says_so():
     """lovelock3-ads with k = -1 (Frassino, Kubiznak, Mann & Simovic 2014) has two
     solutions of the critical conditions, both with T_c < 0."""
     from bhchem.present.critical_report import critical_json
-    from bhchem.workflows.report import tables_tex
+    from bhchem.present.report_text import tables_tex
     from bhchem.present.summary import show_json
     th = bind("lovelock3-ads", k=-1)
     crit = critical_json(th, with_exponents=True)

@@ -20,6 +20,12 @@ import sys
 
 from bhchem.errors import BhchemError
 from bhchem.present.serialize import to_json
+from bhchem.present.plots import save
+from bhchem.declare.registry import get_family
+from bhchem.analysis.expansion import expansion_json, expansion_text, joule_thomson_expansion, plot_expansion
+from bhchem.analysis.engines import analyze_cycle, engine_json, engine_text, parse_cycle, plot_cycle
+from bhchem.analysis.curvature import (critical_amplitude, curvature_json, curvature_map, curvature_text, plot_curvature)
+from bhchem.analysis.critical import find_critical_points
 
 
 def _family_args(p, figure_help: str):
@@ -42,12 +48,10 @@ def _number(text: str, what: str) -> float:
 
 def _finish(args, doc: dict, text: str, figure) -> int:
     if args.output:
-        from bhchem.present.plots import save
         path = save(figure(), args.output)
         print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     if args.json:
         # one serializer: non-finite -> null, sorted keys, the family's conventions added
-        from bhchem.declare.registry import get_family
         print(to_json(doc, family=get_family(args.family)))
     else:
         print(text)
@@ -70,7 +74,6 @@ def register(sub, common, helpers: dict) -> None:
     parse_pressure = helpers["parse_pressure"]
 
     def cmd_expansion(args) -> int:
-        from bhchem.analysis.expansion import expansion_json, expansion_text, joule_thomson_expansion, plot_expansion
         th = bound(args)
         masses = None
         if args.masses:
@@ -84,16 +87,12 @@ def register(sub, common, helpers: dict) -> None:
                        lambda: plot_expansion(res, th))
 
     def cmd_engine(args) -> int:
-        from bhchem.analysis.engines import analyze_cycle, engine_json, engine_text, parse_cycle, plot_cycle
         th = bound(args)
         corners = parse_cycle(args.cycle, parse_pressure, th)
         res = analyze_cycle(th, corners)
         return _finish(args, engine_json(res), engine_text(res), lambda: plot_cycle(res, th))
 
     def cmd_curvature(args) -> int:
-        from bhchem.analysis.curvature import (critical_amplitude, curvature_json, curvature_map,
-                                curvature_text, plot_curvature)
-        from bhchem.analysis.critical import find_critical_points
         th = bound(args)
         cmap = None
         if args.output:

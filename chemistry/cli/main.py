@@ -12,6 +12,24 @@ import sys
 
 from bhchem.errors import BhchemError
 from bhchem.present.serialize import to_json
+from bhchem.declare.registry import load_family_file
+from bhchem.core.compiled import bind
+from bhchem.declare.registry import get_family
+from bhchem.declare.registry import available_families
+from bhchem.conventions import convention_record
+from bhchem.present.summary import show_json, show_text
+from bhchem.present.critical_report import critical_json, critical_text
+import math
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.isobar import analyze_isobar, isobar_json, isobar_text
+from bhchem.analysis.phases import diagram_json, diagram_text, phase_diagram
+from bhchem.present.plots import make_plot, save
+from bhchem.workflows.report import write_report
+from bhchem.demo import FAMILY_FILE
+from bhchem.workflows.atlas import parse_grid, scan
+from bhchem.version import __version__
+from bhchem.present.plots import KINDS
+from bhchem.cli.analyses import register
 
 EXIT_USAGE = 2
 
@@ -46,24 +64,19 @@ def parse_assignments(items) -> dict:
 
 
 def _load_files(args) -> None:
-    from bhchem.declare.registry import load_family_file
     for path in getattr(args, "family_file", None) or []:
         load_family_file(path)
 
 
 def _bound(args):
-    from bhchem.core.compiled import bind
-    from bhchem.declare.registry import get_family
     family = get_family(args.family)
     return bind(family, **parse_assignments(args.param))
 
 
 # -- commands ---------------------------------------------------------------
 def cmd_families(args) -> int:
-    from bhchem.declare.registry import available_families
     fams = available_families()
     if args.json:
-        from bhchem.conventions import convention_record
         out = {name: {"summary": f.summary, "reference": f.reference,
                       "convention": convention_record(f),
                       "parameters": {p.name: {"default": p.default,
@@ -83,7 +96,6 @@ def cmd_families(args) -> int:
 
 
 def cmd_show(args) -> int:
-    from bhchem.present.summary import show_json, show_text
     th = _bound(args)
     if args.json:
         print(to_json(show_json(th), family=th.family))
@@ -93,7 +105,6 @@ def cmd_show(args) -> int:
 
 
 def cmd_critical(args) -> int:
-    from bhchem.present.critical_report import critical_json, critical_text
     th = _bound(args)
     doc = critical_json(th, with_exponents=args.command == "exponents")
     if args.json:
@@ -106,7 +117,6 @@ def cmd_critical(args) -> int:
 def parse_pressure(text: str, th) -> float:
     """'0.01', '1e-3' or relative to a critical point: '0.5Pc' (lowest physical critical
     pressure), '0.5Pc2' (the second, by pressure)."""
-    import math
     t = str(text).strip()
     factor, sep, which = t.partition("Pc")
     if sep:
@@ -115,7 +125,6 @@ def parse_pressure(text: str, th) -> float:
             idx = int(which) if which.strip() else 1
         except ValueError:
             raise BhchemError(f"pressure {text!r} must look like 0.01 or 0.5Pc (or 0.5Pc2)") from None
-        from bhchem.analysis.critical import find_critical_points
         cps = find_critical_points(th).physical
         if not cps:
             raise BhchemError(f"pressure {text!r} is relative to a critical point, but "
@@ -135,8 +144,6 @@ def parse_pressure(text: str, th) -> float:
 
 
 def cmd_isobar(args) -> int:
-    from bhchem.analysis.critical import find_critical_points
-    from bhchem.analysis.isobar import analyze_isobar, isobar_json, isobar_text
     th = _bound(args)
     P = parse_pressure(args.pressure, th)
     res = analyze_isobar(th, P, critical_points=find_critical_points(th).physical)
@@ -145,7 +152,6 @@ def cmd_isobar(args) -> int:
 
 
 def cmd_phases(args) -> int:
-    from bhchem.analysis.phases import diagram_json, diagram_text, phase_diagram
     th = _bound(args)
     rng = None
     if args.pressure_range:
@@ -175,7 +181,6 @@ def _progress(args, what):
 
 
 def cmd_plot(args) -> int:
-    from bhchem.present.plots import make_plot, save
     th = _bound(args)
     kw = {}
     if args.pressure:
@@ -193,7 +198,6 @@ def cmd_plot(args) -> int:
 
 
 def cmd_report(args) -> int:
-    from bhchem.workflows.report import write_report
     th = _bound(args)
     progress = _stage_progress(args)
     path = write_report(th, args.output, digits=args.digits, force=args.force,
@@ -203,11 +207,6 @@ def cmd_report(args) -> int:
 
 
 def cmd_demo(args) -> int:
-    import os
-    from bhchem.core.compiled import bind
-    from bhchem.declare.registry import load_family_file
-    from bhchem.demo import FAMILY_FILE
-    from bhchem.workflows.report import write_report
     (fam,) = load_family_file(FAMILY_FILE)
     th = bind(fam)
     out = args.output or "bhchem-demo"
@@ -219,7 +218,6 @@ def cmd_demo(args) -> int:
 
 
 def cmd_scan(args) -> int:
-    from bhchem.workflows.atlas import parse_grid, scan
     axes = [parse_grid(g) for g in args.grid]
     fixed = {k: float(v) for k, v in parse_assignments(args.param).items()}
     executor, client = None, None
@@ -272,7 +270,6 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="bhchem", description="Black hole chemistry in the extended "
                      "phase space: derive, verify and analyse AdS black hole thermodynamics.",
                      parents=[common])
-    from bhchem.version import __version__
     parser.add_argument("--version", action="version", version=f"bhchem {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 
@@ -311,7 +308,6 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_phases)
 
-    from bhchem.present.plots import KINDS
     p = sub.add_parser("plot", parents=[common], help="a figure: pv, gt, pt, tr or cp")
     p.add_argument("kind", choices=KINDS, help="pv (isotherms), gt (G-T isobars), pt (phase "
                    "diagram), tr (T-r isobars), cp (heat capacity)")
@@ -356,7 +352,6 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_demo)
 
-    from bhchem.cli.analyses import register
     register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
                            "BhchemError": BhchemError})
     return parser

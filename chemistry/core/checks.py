@@ -41,6 +41,8 @@ from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics
 from bhchem.core.derive import tidy
 from bhchem.core.sampling import physical_sample
+from bhchem.core.compiled import lambdify_modules
+from bhchem.core.compiled import _lambdify
 
 #: relative residual below which an identity counts as holding (common practice)
 TOLERANCE = 1e-9
@@ -147,7 +149,6 @@ def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202
         rows.append((sp.diff(M, s), T * sp.diff(S, s), q[f"Phi_{s.name}"]))
     exprs = [e for row in rows for e in row]
     exprs = [e.replace(sp.exp_polar, sp.exp) if e.has(sp.exp_polar) else e for e in exprs]
-    from bhchem.core.compiled import lambdify_modules
     f = sp.lambdify(args, exprs, modules=lambdify_modules(exprs), cse=True)
 
     sample = physical_sample(th, n_points, seed=seed)
@@ -222,7 +223,6 @@ def _finite_difference_residual(bound: Thermodynamics, xs, Ps) -> float:
 
 
 def _declared_volume(bound, xs, Ps):
-    from bhchem.core.compiled import _lambdify
     f = _lambdify(bound.derivation.arguments, bound.derivation.volume_declared)
     return f(xs, Ps, *bound._param_values)
 

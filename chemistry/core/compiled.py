@@ -21,11 +21,14 @@ from bhchem.core.derive import Derivation, derive
 from bhchem.declare.symbols import P as _P
 from bhchem.errors import ParameterDomainError, UnknownParameterError
 from bhchem.declare.family import Family
+from bhchem.core.special import hyp2f1_real
+from bhchem.declare.family import canonical_symbols, canonicalise
+from bhchem.declare import symbols as sy
+from bhchem.declare.registry import get_family
 
 
 def _special_functions() -> dict:
     """Numeric implementations of special functions sympy cannot print to numpy."""
-    from bhchem.core.special import hyp2f1_real  # local: keeps scipy out of the cold path
 
     def hyper(a, b, z):
         if len(a) != 2 or len(b) != 1:
@@ -330,8 +333,6 @@ class Thermodynamics:
         return 1.0 / (8 * math.pi * self.length_scale() ** 2) * 0.1
 
     def _evaluate_parameter_expression(self, e) -> float:
-        from bhchem.declare.family import canonical_symbols, canonicalise
-        from bhchem.declare import symbols as sy
         expr = canonicalise(e, canonical_symbols(self.family), "scale", self.family.name)
         subs = {sy.d: self.derivation.dimension}
         for p in self.family.all_parameters:
@@ -362,7 +363,6 @@ def bind(family, **values) -> Thermodynamics:
     UnknownFamilyError, UnknownParameterError, ParameterDomainError
     """
     if isinstance(family, str):
-        from bhchem.declare.registry import get_family
         family = get_family(family)
     vals = validate_values(family, values)
     discrete = {p.name: vals[p.name] for p in family.discrete_parameters}

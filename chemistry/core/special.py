@@ -6,6 +6,7 @@ scipy stays out of the cold start of families that do not need it.
 from __future__ import annotations
 
 import numpy as np
+from scipy.special import hyp2f1
 
 
 def hyp2f1_real(a, b, c, z):
@@ -15,7 +16,6 @@ def hyp2f1_real(a, b, c, z):
     reach |z| < 1 internally).  Non-finite results are returned as NaN so that
     callers' finiteness masks catch them.
     """
-    from scipy.special import hyp2f1
 
     out = hyp2f1(float(a), float(b), float(c), np.asarray(z, dtype=float))
     return np.where(np.isfinite(out), out, np.nan)

@@ -20,6 +20,7 @@ from pathlib import Path
 from bhchem.errors import (BhchemError, DuplicateFamilyError, MalformedFamilyError,
                      UnknownFamilyError)
 from bhchem.declare.family import Family
+from bhchem.declare.declarative import load_declarative
 
 ENTRY_POINT_GROUP = "bhchem.families"
 
@@ -167,12 +168,6 @@ def load_family_file(path) -> list[Family]:
     if p.suffix == ".py":
         fams = _load_python(p)
     elif p.suffix == ".toml":
-        try:
-            from bhchem.declare.declarative import load_declarative
-        except ImportError:
-            raise MalformedFamilyError(
-                f"family file {path}: declarative .toml families are not supported by this "
-                f"version; write a Python plug-in (.py) instead") from None
         fams = load_declarative(p)
     else:
         raise MalformedFamilyError(

@@ -14,7 +14,8 @@ import math
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.analysis.critical import find_critical_points
-from bhchem.workflows.report import EXPONENT_DEFINITIONS
+from bhchem.present.report_text import EXPONENT_DEFINITIONS
+from bhchem.analysis.exponents import critical_exponents
 
 
 def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
@@ -35,7 +36,6 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
                 d["fitted"] = None
                 d["exponents_note"] = f"not computed: the point is {'degenerate' if cp.kind == 'degenerate' else 'unphysical'}"
             else:
-                from bhchem.analysis.exponents import critical_exponents
                 ex = critical_exponents(th, cp)
                 d["exponents"] = ex.exact
                 d["fitted"] = ex.fitted

@@ -23,6 +23,15 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from bhchem.errors import BhchemError
+from cycler import cycler
+from bhchem.fileio import atomic_file
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.coexistence import _isotherm_pressure, coexistence_near_critical
+from scipy.optimize import brentq
+from bhchem.analysis.critical import loop_side
+from bhchem.analysis.isobar import analyze_isobar
+from bhchem.analysis.isobar import _x_of_T
+from bhchem.analysis.phases import phase_diagram
 
 KINDS = ("pv", "gt", "pt", "tr", "cp")
 
@@ -89,7 +98,6 @@ class FigureFactory:
 
 
 def _style() -> dict:
-    from cycler import cycler
     style = dict(STYLE)
     style["axes.prop_cycle"] = cycler(color=PALETTE)
     return style
@@ -118,7 +126,6 @@ def save(result: PlotResult, path) -> str:
     0666 & ~umask like any other file; the figure itself stays the caller's.
     """
     import matplotlib
-    from bhchem.fileio import atomic_file
     path = os.fspath(path)
     ext = os.path.splitext(path)[1].lower().lstrip(".")
     if ext not in ("png", "pdf", "svg"):
@@ -159,7 +166,6 @@ _title = figure_title  # the name other modules of the package import
 def _scales(th):
     """The critical point that sets the figure scales: the first (by pressure) that lies
     on the globally preferred branch; else the first physical one; else None."""
-    from bhchem.analysis.critical import find_critical_points
     cps = find_critical_points(th, preferred_branch=True).physical
     return next((cp for cp in cps if cp.on_preferred_branch), cps[0] if cps else None)
 
@@ -167,7 +173,6 @@ def _scales(th):
 # -- P-v isotherms --------------------------------------------------------------------
 def plot_pv(th, temperatures=None) -> PlotResult:
     """P-v isotherms around T_c with the equal-area (Maxwell) construction drawn."""
-    from bhchem.analysis.coexistence import _isotherm_pressure, coexistence_near_critical
     cp = _scales(th)
     if cp is not None:
         Ts = temperatures or [f * cp.T for f in (0.85, 0.92, 0.97, 1.0, 1.05, 1.12)]
@@ -224,9 +229,6 @@ def _coexistence_at_temperature(th, cp, T, solver):
     """(P, x1, x2) of the first-order transition ending at ``cp`` that occurs at temperature
     T: Brent's method in log P on the transition temperature of the isobar (full isobar
     analysis far from P_c, the near-critical solver close to it)."""
-    from scipy.optimize import brentq
-    from bhchem.analysis.critical import loop_side
-    from bhchem.analysis.isobar import analyze_isobar
     side = loop_side(th, cp)
 
     def transition(P):
@@ -269,7 +271,6 @@ def _default_pressures(th, cp):
 
 def plot_gt(th, pressures=None) -> PlotResult:
     """G-T isobars: every branch, the globally preferred one emphasised."""
-    from bhchem.analysis.isobar import analyze_isobar
     cp = _scales(th)
     pressures = pressures or _default_pressures(th, cp)
     data, notes = {}, []
@@ -368,7 +369,6 @@ def _gt_window(th, res, cp):
 
 
 def _preferred_G(th, res, P, Ts, phase):
-    from bhchem.analysis.isobar import _x_of_T
     if phase == res.background:
         return np.full(Ts.shape, float(th.quantity("G_background", 1.0, P)))
     br = next(b for b in res.branches if b.label == phase)
@@ -380,7 +380,6 @@ def _preferred_G(th, res, P, Ts, phase):
 # -- P-T phase diagram ---------------------------------------------------------------------
 def plot_pt(th, diagram=None) -> PlotResult:
     """The P-T phase diagram: lines by kind, special points, regions labelled by phase."""
-    from bhchem.analysis.phases import phase_diagram
     pd = diagram or phase_diagram(th)
     data = {}
     with styled() as mk:
@@ -399,7 +398,6 @@ def plot_pt(th, diagram=None) -> PlotResult:
                 e = line.ends[side]
                 if e["type"] == "terminal point":
                     ax.plot([e["T"]], [e["P"]], "s", ms=4.5, color=PALETTE[1], zorder=6)
-        from bhchem.analysis.critical import find_critical_points
         preferred = {(c.x, c.P): c.on_preferred_branch
                      for c in find_critical_points(th, preferred_branch=True).points}
         first = {True: True, False: True}
@@ -478,7 +476,6 @@ def _zoom_inset(ax, pd, Tmax, Pmax, data):
 
 def _label_regions(ax, th, pd, Tmax, Pmax):
     """Write each preferred phase's name at a point inside its region."""
-    from bhchem.analysis.isobar import analyze_isobar
     placed = set()
     for fy in (0.15, 0.45, 0.85):
         P = fy * Pmax
@@ -498,7 +495,6 @@ def _label_regions(ax, th, pd, Tmax, Pmax):
 # -- T-r+ isobars and C_P ------------------------------------------------------------------
 def plot_tr(th, pressures=None) -> PlotResult:
     """T along isobars against the horizon radius (or the state variable)."""
-    from bhchem.analysis.isobar import analyze_isobar
     cp = _scales(th)
     pressures = pressures or _default_pressures(th, cp)
     data = {}
@@ -532,7 +528,6 @@ def plot_tr(th, pressures=None) -> PlotResult:
 
 def plot_cp(th, pressure=None) -> PlotResult:
     """C_P along one isobar (symmetric-log scale), spinodals marked."""
-    from bhchem.analysis.isobar import analyze_isobar
     cp = _scales(th)
     P = pressure or (0.5 * cp.P if cp is not None else th.typical_pressure())
     res = analyze_isobar(th, P)
