@@ -149,6 +149,20 @@ class CompiledDerivation:
         raise KeyError(f"no quantity {name!r}; known: {', '.join(d.quantities)}")
 
 
+def compile_expression(arguments, expr) -> Callable:
+    """A vectorised numpy function of ``arguments`` for a sympy expression.
+
+    Compiled with common-subexpression elimination and the project's special-function
+    table (:func:`lambdify_modules`); ``exp_polar`` left by sympy's hypergeometric
+    simplification is plain ``exp`` on the real line; a result that does not depend on
+    the first two arguments (x, P) still broadcasts to their shape.
+    """
+    return _lambdify(tuple(arguments), sp.sympify(expr))
+
+
+#: compiled derivations kept (each entry holds its derivation, so an id cannot be
+#: reused while it is cached); the oldest is dropped beyond this many
+_COMPILED_ENTRIES = 128
 _compiled_cache: dict[int, CompiledDerivation] = {}
 _compiled_lock = threading.Lock()
 
@@ -160,6 +174,8 @@ def compile_derivation(derivation: Derivation) -> CompiledDerivation:
         c = _compiled_cache.get(key)
         if c is None or c.derivation is not derivation:
             c = CompiledDerivation(derivation)
+            while len(_compiled_cache) >= _COMPILED_ENTRIES:
+                _compiled_cache.pop(next(iter(_compiled_cache)))
             _compiled_cache[key] = c
     return c
 
@@ -231,6 +247,37 @@ class Thermodynamics:
         self.derivation = derivation
         self.compiled = compile_derivation(derivation)
         self._param_values = tuple(float(values[s.name]) for s in derivation.parameters)
+
+    @property
+    def parameter_values(self) -> tuple:
+        """The continuous parameter values, in the derivation's argument order
+        (``derivation.parameters``): the trailing arguments of every compiled function."""
+        return self._param_values
+
+    def compile(self, expr) -> Callable:
+        """A vectorised function ``f(x, P)`` of a sympy expression in this family's symbols.
+
+        ``expr`` may use the state variable, ``P`` and the continuous parameters (the
+        discrete ones, d, k, ..., are already substituted in ``derivation.quantities``;
+        substitute them yourself in an expression of your own).  The parameter values
+        of this binding are filled in.
+
+        Examples
+        --------
+        >>> from bhchem import bind
+        >>> th = bind("rn-ads", Q=1.0)
+        >>> T_over_S = th.compile(th.derivation.quantities["T"] / th.derivation.quantities["S"])
+        >>> bool(abs(T_over_S(1.0, 0.01) - th.T(1.0, 0.01) / th.S(1.0, 0.01)) < 1e-15)
+        True
+        """
+        f = compile_expression(self.derivation.arguments, expr)
+        values = self._param_values
+
+        def bound(x, P):
+            with np.errstate(all="ignore"):
+                return f(np.asarray(x, dtype=float), np.asarray(P, dtype=float), *values)
+
+        return bound
 
     # -- generic access -----------------------------------------------------
     def quantity(self, name: str, x, P) -> np.ndarray:
