@@ -1,0 +1,137 @@
+"""Shared numerical kernels of the analyses (one implementation, one tolerance each).
+
+* :func:`isotherm_pressure` -- P(x) on an isotherm T(x, P) = T, vectorised Newton;
+* :func:`sign_change_brackets` and :func:`bracketed_roots` -- "sample a scalar function on a
+  grid, bracket every sign change, refine by Brent's method", which the analyses need for
+  spinodals, inversion points, states at a given volume and transition temperatures.
+
+A bracket whose ends do not differ in sign (a NaN, a touching zero) is skipped, never an
+exception: the callers report "no root here" in their own words.  Work is bounded by
+counts (Newton steps, Brent iterations), never by time.
+"""
+from __future__ import annotations
+
+import math
+from typing import Callable
+
+import numpy as np
+from scipy.optimize import brentq
+
+#: Newton steps of :func:`isotherm_pressure` (quadratic convergence needs < 10 from a
+#: reasonable guess; one step when T is linear in P)
+ISOTHERM_NEWTON_STEPS = 80
+#: relative step at which the isotherm Newton stops
+ISOTHERM_STEP_RTOL = 1e-15
+#: relative |T(x, P) - T| / T accepted as converged
+ISOTHERM_RESIDUAL_RTOL = 1e-11
+
+
+def isotherm_pressure(th, x, T: float, P_guess, *, allow_negative: bool = False) -> np.ndarray:
+    """The pressure P(x) on the isotherm ``T`` at states ``x``.
+
+    Solves T(x, P) = T for P by vectorised Newton, dP = -(T(x, P) - T) / T_P(x, P); when T
+    is linear in P (every family of the form T = T0(x) + P T1(x)) one step is exact.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    x : array_like
+        States (the family's state variable).
+    T : float
+        The isotherm's temperature.
+    P_guess : float or array_like
+        Starting pressure (broadcast to ``x``).
+    allow_negative : bool
+        Follow the isotherm into P <= 0 (for drawing P-v isotherms); by default a step
+        that would cross zero is halved instead, and only P > 0 is returned.
+
+    Returns
+    -------
+    numpy.ndarray
+        P with the shape of ``x``; NaN where Newton did not converge to
+        |T(x, P) - T| <= 1e-11 T (or to P > 0 unless ``allow_negative``).
+    """
+    x = np.asarray(x, float)
+    P = np.broadcast_to(np.asarray(P_guess, float), x.shape).astype(float).copy()
+    with np.errstate(all="ignore"):
+        for _ in range(ISOTHERM_NEWTON_STEPS):
+            step = (th.T(x, P) - T) / th.d("T", "P", x, P)
+            step = np.where(np.isfinite(step), step, 0.0)
+            P_new = P - step
+            if not allow_negative:
+                P_new = np.where(P_new > 0, P_new, 0.5 * P)
+            done = np.abs(P_new - P) <= ISOTHERM_STEP_RTOL * np.abs(P_new)
+            P = P_new
+            if np.all(done):
+                break
+        ok = np.abs(th.T(x, P) - T) <= ISOTHERM_RESIDUAL_RTOL * abs(T)
+        if not allow_negative:
+            ok &= P > 0
+    return np.where(ok, P, np.nan)
+
+
+def sign_change_brackets(grid, values) -> list[tuple[float, float]]:
+    """Consecutive grid intervals over which finite ``values`` change sign.
+
+    An exact zero at a grid point is returned as the degenerate bracket (g, g).
+    """
+    g = np.asarray(grid, float)
+    f = np.asarray(values, float)
+    out = []
+    finite = np.isfinite(f)
+    for i in range(len(g) - 1):
+        if not (finite[i] and finite[i + 1]):
+            continue
+        if f[i] == 0.0:
+            out.append((float(g[i]), float(g[i])))
+        elif f[i] * f[i + 1] < 0:
+            out.append((float(g[i]), float(g[i + 1])))
+    if len(g) and finite[-1] and f[-1] == 0.0:
+        out.append((float(g[-1]), float(g[-1])))
+    return out
+
+
+def bracketed_roots(f: Callable[[float], float], grid, *, log: bool = False,
+                    xtol: float = 1e-15, rtol: float = 1e-15, maxiter: int = 200,
+                    values=None) -> list[float]:
+    """Every root of the scalar ``f`` bracketed by a sign change on ``grid``.
+
+    Parameters
+    ----------
+    f : callable
+        Scalar function of one float (NaN where undefined).
+    grid : array_like
+        Increasing sample points (positive when ``log``).
+    log : bool
+        Refine in u = log(x) (for variables that span decades, such as r+ or P).
+    xtol : float
+        Absolute tolerance relative to the bracket's upper end (scaled: ``xtol * |b|``).
+    rtol, maxiter : float, int
+        Passed to :func:`scipy.optimize.brentq` (a count, never a time).
+    values : array_like, optional
+        f on ``grid`` when the caller already has it (vectorised sampling).
+
+    Returns
+    -------
+    list of float
+        The roots, increasing.  A bracket that fails to refine is skipped.
+    """
+    grid = np.asarray(grid, float)
+    if values is None:
+        values = np.array([f(float(g)) for g in grid], float)
+    roots = []
+    for a, b in sign_change_brackets(grid, values):
+        if a == b:
+            roots.append(a)
+            continue
+        try:
+            if log:
+                u = brentq(lambda u: f(math.exp(u)), math.log(a), math.log(b),
+                           xtol=xtol * max(1.0, abs(math.log(b))), rtol=rtol, maxiter=maxiter)
+                roots.append(math.exp(u))
+            else:
+                roots.append(brentq(f, a, b, xtol=xtol * max(abs(a), abs(b)), rtol=rtol,
+                                    maxiter=maxiter))
+        except (ValueError, RuntimeError):  # the ends did not bracket after all (NaN inside)
+            continue
+    return sorted(roots)
