@@ -381,3 +381,28 @@ def test_bracket_that_does_not_bracket_is_no_root():
     assert bracketed_root(lambda u: float("nan"), 0.0, 1.0) is None
     assert bracketed_root(lambda u: u - 0.25, 0.25, 1.0) == 0.25
     assert bracketed_root(lambda u: math.cos(u), 0.0, 3.0) == pytest.approx(math.pi / 2, rel=1e-15)
+
+
+def test_engine_corner_in_a_gap_of_the_physical_domain_is_named_honestly():
+    """EH-AdS at P = 0.2 has physical states at tiny r (the a Q^4/r^7 term makes T > 0 there)
+    and beyond extremality, with T < 0 in between (exact: T(r, P) from the file's M and S, r = 0.49
+    gives T < 0).  A cycle corner inside that gap is refused with the physical volume pieces, none
+    containing it; the message used to claim one span [1e-14, 7e14] that contains V = 0.5."""
+    import re
+    from chemistry.engines import state_at
+    from chemistry.errors import StateDomainError
+    _load(EH_FILE)
+    th = bind("euler-heisenberg-ads", Q=1.0, a=0.1)
+    M, S = _eh_M_S(1.0, 0.1)
+    T = sp.diff(M, _r) / sp.diff(S, _r)
+    V_gap = 0.5
+    r_gap = (3 * V_gap / (4 * math.pi)) ** (1 / 3)
+    assert float(T.subs({_P: sp.Rational(1, 5), _r: r_gap})) < 0  # inside the gap
+    with pytest.raises(StateDomainError) as err:
+        state_at(th, 0.2, V_gap)
+    msg = str(err.value)
+    assert "\n" not in msg
+    pieces = [(float(a), float(b)) for a, b in re.findall(r"\[([0-9.e+-]+), ([0-9.e+-]+)\]", msg)]
+    assert len(pieces) == 2
+    assert all(not (a <= V_gap <= b) for a, b in pieces)
+    assert pieces[0][1] < V_gap < pieces[1][0]
