@@ -406,3 +406,48 @@ def test_engine_corner_in_a_gap_of_the_physical_domain_is_named_honestly():
     assert len(pieces) == 2
     assert all(not (a <= V_gap <= b) for a, b in pieces)
     assert pieces[0][1] < V_gap < pieces[1][0]
+
+
+def test_euler_heisenberg_isenthalps_meet_the_branch_reaching_zero_pressure():
+    """Joule-Thomson: the maximum of an isenthalp T(P) is an inversion point (mu = 0).  The
+    default isenthalps of EH-AdS are placed on the branch that reaches P = 0, so each has an
+    interior maximum with mu = 0 whose (P, T) is on that branch: T equals T_i(r) of the closed
+    form derived in test_euler_heisenberg_inversion_branches at the state where P_i(r) = P.
+    Each isenthalp stays on one piece of the physical domain (EH also has physical states at
+    tiny r, with the same M; the isenthalp used to jump there) and keeps M fixed."""
+    _load(EH_FILE)
+    th = bind("euler-heisenberg-ads", Q=1.0, a=0.1)
+    res = joule_thomson_expansion(th)
+    M, S = _eh_M_S(1.0, 0.1)
+    T = sp.diff(M, _r) / sp.diff(S, _r)
+    V = sp.diff(M, _P)
+    P_i = sp.solve(sp.Eq(T * sp.diff(V, _r), V * sp.diff(T, _r)), _P)[0]
+    T_i = sp.simplify(T.subs(_P, P_i))
+    assert len(res.isenthalps) == 4
+    for c in res.isenthalps:
+        assert c.T_max is not None and abs(c.mu_at_max) < 1e-12
+        low = res.inversion.branches[res.inversion.headline]
+        # the inversion state on the P = 0 branch at P*: root of P_i(r) = P* between its ends
+        r_star = sp.nsolve(P_i - sp.Float(c.P_at_T_max, 30), _r,
+                           (float(low.x.min()), float(low.x.max())), solver="bisect", prec=30)
+        assert c.T_max == pytest.approx(float(T_i.subs(_r, r_star)), rel=1e-10)
+        np.testing.assert_allclose(th.M(c.x, c.P), c.M, rtol=1e-13)
+        for (x1, P1), (x2, P2) in zip(zip(c.x[:-1], c.P[:-1]), zip(c.x[1:], c.P[1:])):
+            assert np.all(th.physical(np.geomspace(x1, x2, 50), P2))
+
+
+def test_van_der_waals_default_expansion_accepts_negative_enthalpies():
+    """A fluid's enthalpy H = U + PV may be negative (vdW: U = c T - a/v): the default run
+    chose such isenthalps and then refused them ('masses must be positive').  The lowest
+    inversion temperature is 3/4 T_c (textbook, re-derived in test_van_der_waals_inversion_curve)
+    and every default isenthalp has its maximum on the inversion curve."""
+    th = bind("vdw-fluid", a=1.0, b=1.0)
+    res = joule_thomson_expansion(th)
+    assert res.inversion.ratio_to_Tc == pytest.approx(0.75, abs=1e-12)
+    assert any(c.M < 0 for c in res.isenthalps)
+    for c in res.isenthalps:
+        assert c.T_max is not None and abs(c.mu_at_max) < 1e-12
+        v = np.array([x for x, T in inversion_states(th, c.P_at_T_max)])
+        assert np.min(np.abs(2 * (v - 1) ** 2 / v**2 / c.T_max - 1)) < 1e-10
+    with pytest.raises(BhchemError, match="positive"):  # a black hole's mass stays positive
+        joule_thomson_expansion(bind("rn-ads", Q=1.0), masses=[-1.0])
