@@ -14,17 +14,28 @@ Jacobians in the (x, P) coordinates (subscripts are partial derivatives):
 Since dM = T dS + V dP this equals V (T alpha_P - 1)/C_P (checked in the tests).
 mu > 0: the hole cools as the pressure drops; mu < 0: it heats.  The *inversion
 curve* is mu = 0, i.e. T_P M_x = T_x M_P (equivalently T (dV/dT)_P = V); each
-isenthalp T(P) at fixed M has its maximum on it.
+isenthalp T(P) at fixed M has its extrema on it.
 
 Method.  Inversion states: at each pressure of a grid that includes P = 0 (the
 low-pressure end; the functions are regular there), every sign change in x of
 N = T_P M_x - T_x M_P over the physical states on a logarithmic grid, refined by
-Brent's method.  The minimum inversion temperature T_i,min is the smallest
-inversion temperature on the curve, refined by a bounded scalar minimisation in P
-when it lies inside the range, or the exact P = 0 root when it sits at the
-low-pressure end (as for charged AdS in any d).  Isenthalps: at each pressure the
-state with M(x, P) = M is the root of a monotone function on the physical domain
-(M_x = T S_x >= 0 there), found by Brent's method.
+Brent's method.  The pressure range stops where the family's declared state
+conditions stop holding (e.g. 32 pi P alpha < 3 for 4D Gauss-Bonnet gravity).
+Ordered by x, the states are joined into *branches*: two neighbours are joined when
+the curve between them stays inside the range and the physical domain (probed at
+states between them), and a branch ends where the pressure turns, so that each branch
+gives one inversion temperature per pressure.  Each branch reports its ends (P = 0,
+the top of the range, a pressure maximum, the edge of the physical domain with the
+failing condition, ...) and its own minimum: the exact P = 0 root when the minimum
+sits at the P = 0 end, a bounded minimisation in P when it lies inside, or a one-line
+reason when T_i keeps falling toward another end (e.g. a coupling-dominated branch of
+Euler-Heisenberg-AdS that starts at extremality, T_i -> 0).  The minimum inversion
+temperature T_i,min is the minimum of the branch that reaches P = 0 (Okcu & Aydiner,
+EPJC 77 (2017) 24, arXiv:1611.06327: T_i,min/T_c = 1/2 for 4D charged AdS).
+Isenthalps: at each pressure the state with M(x, P) = M is the root of a monotone
+function on each connected piece of the physical domain (M_x = T S_x >= 0 there),
+found by Brent's method and followed continuously on one piece.  Every bracketing solve
+goes through :func:`bracketed_root`: a bracket that does not bracket is "no root here".
 """
 from __future__ import annotations
 
@@ -118,6 +129,7 @@ END_PRESSURE_MAX = "pressure maximum of the curve"
 END_PRESSURE_MIN = "pressure minimum of the curve"
 END_EDGE = "edge of the physical domain"
 END_GRID = "end of the state grid"
+END_TOWARD_ZERO = "approach to P -> 0 (no state at P = 0)"
 END_GAP = "gap in the computed curve"
 
 
@@ -349,6 +361,10 @@ def _outer_end(th, xs, Ps, rows, side: int) -> str:
     end is within a factor 2 of it, else a gap not followed."""
     end = rows[0] if side < 0 else rows[-1]
     x, _, P, j = end
+    if j == 1 and len(rows) >= 2 and P < (rows[1] if side < 0 else rows[-2])[2]:
+        # at the lowest positive grid pressure and still falling, with no state at P = 0:
+        # the branch runs off toward P -> 0 (e.g. to x -> infinity)
+        return END_TOWARD_ZERO
     near = (xs < x) & (xs >= x / 2) if side < 0 else (xs > x) & (xs <= 2 * x)
     beyond = xs[near][::-1] if side < 0 else xs[near]
     if beyond.size:
@@ -542,7 +558,14 @@ def inversion_curve(th: Thermodynamics, pressure_max: float | None = None, n_P: 
     with_min = [i for i in zero if branches[i].T_min is not None]
     head = min(with_min, key=lambda i: branches[i].T_min) if with_min else None
     if head is None:
-        if not zero:
+        toward = [i for i, b in enumerate(branches) if END_TOWARD_ZERO in b.ends]
+        if not zero and toward:
+            b = branches[toward[0]]
+            k = int(np.argmin(b.P))
+            why = (f"no inversion state at P = 0: branch {toward[0] + 1} runs toward P -> 0 "
+                   f"without reaching it (at its lowest pressure {b.P[k]:.3g}: x = {b.x[k]:.3g}, "
+                   f"T_i = {b.T[k]:.3g}), so T_i,min is not attained")
+        elif not zero:
             why = (f"no branch of the inversion curve reaches P = 0 in [0, {Pmax:.6g}] "
                    f"(T_i,min belongs to the branch that reaches P -> 0); see the branches")
         else:
@@ -678,12 +701,11 @@ def _state_at_enthalpy(th, M: float, P: float, xs, near: float | None = None,
 
 
 def _check_enthalpy(th: Thermodynamics, M: float) -> None:
-    """A black hole's enthalpy is its mass, positive; a fluid's enthalpy may have any sign."""
+    """An enthalpy must be finite.  Its sign is free: a fluid's H = U + PV may be negative,
+    and so may the mass of a hyperbolic (k = -1) AdS black hole; a value no physical state
+    has simply gives an empty isenthalp (with a note)."""
     if not np.isfinite(M):
-        raise BhchemError(f"masses (enthalpies) must be finite, not {M}")
-    if th.family.gravitational and not M > 0:
-        raise BhchemError(f"masses must be positive and finite (M is the black hole's mass, "
-                          f"its enthalpy), not {M}")
+        raise BhchemError(f"masses (enthalpies) must be finite numbers, not {M}")
 
 
 def isenthalp(th: Thermodynamics, M: float, pressures, x_near: float | None = None) -> Isenthalp:

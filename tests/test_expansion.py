@@ -437,8 +437,8 @@ def test_euler_heisenberg_isenthalps_meet_the_branch_reaching_zero_pressure():
 
 
 def test_van_der_waals_default_expansion_accepts_negative_enthalpies():
-    """A fluid's enthalpy H = U + PV may be negative (vdW: U = c T - a/v): the default run
-    chose such isenthalps and then refused them ('masses must be positive').  The lowest
+    """A fluid's enthalpy H = U + PV may be negative (vdW: U = c T - a/v, textbook): the
+    default run chose such isenthalps and then refused them ('masses must be positive').  The lowest
     inversion temperature is 3/4 T_c (textbook, re-derived in test_van_der_waals_inversion_curve)
     and every default isenthalp has its maximum on the inversion curve."""
     th = bind("vdw-fluid", a=1.0, b=1.0)
@@ -449,5 +449,33 @@ def test_van_der_waals_default_expansion_accepts_negative_enthalpies():
         assert c.T_max is not None and abs(c.mu_at_max) < 1e-12
         v = np.array([x for x, T in inversion_states(th, c.P_at_T_max)])
         assert np.min(np.abs(2 * (v - 1) ** 2 / v**2 / c.T_max - 1)) < 1e-10
-    with pytest.raises(BhchemError, match="positive"):  # a black hole's mass stays positive
-        joule_thomson_expansion(bind("rn-ads", Q=1.0), masses=[-1.0])
+    # a value no physical state has (M < 0 for charged AdS: M >= M_extremal > 0) is an empty
+    # isenthalp with a note, not a number
+    res = joule_thomson_expansion(bind("rn-ads", Q=1.0), masses=[-1.0], pressure_max=0.1)
+    assert res.isenthalps[0].T.size == 0
+    assert "no physical state with M = -1 in the pressure range" in res.notes
+
+
+def test_branch_running_toward_zero_pressure_has_no_minimum():
+    """Planar (k = 0) charged Gauss-Bonnet-AdS in d = 5: T = 4Pr/3 - c/r^5 with c = 2Q^2/(3 pi^3)
+    (the family's T; alpha drops out for k = 0) and V proportional to r^4.  Derived here:
+    T = V (dT/dV)_P = (r/4) T_r gives P_i = 9c/(4 r^6), T_i = 2c/r^5 = 2c (4 P_i/(9c))^(5/6),
+    so the curve runs into P -> 0 only as r -> infinity, with T_i -> 0: there is no state at
+    P = 0 and no minimum inversion temperature, which the tool must say instead of a number."""
+    th = bind("gauss-bonnet-ads", d=5, k=0, alpha=0.05, Q=1.0)
+    sym = {s.name: s for s in th.derivation.quantities["T"].free_symbols}
+    T = th.derivation.quantities["T"].subs(sym["Q"], 1)
+    r = th.derivation.state
+    c = 2 / (3 * sp.pi**3)
+    assert sp.simplify(T - (4 * sym["P"] * r / 3 - c / r**5)) == 0
+    V = th.derivation.quantities["V"]
+    assert sp.simplify(r * sp.diff(V, r) / V) == 4  # V proportional to r^4
+    inv = inversion_curve(th, pressure_max=0.05)
+    cf = float(c)
+    assert len(inv.branches) == 1
+    b = inv.branches[0]
+    np.testing.assert_allclose(b.P, 9 * cf / (4 * b.x**6), rtol=1e-9)
+    np.testing.assert_allclose(b.T, 2 * cf / b.x**5, rtol=1e-9)
+    assert not b.reaches_zero_pressure and b.ends[1] == "approach to P -> 0 (no state at P = 0)"
+    assert inv.T_min is None and inv.ratio_to_Tc is None and "\n" not in inv.why_no_T_min
+    assert "runs toward P -> 0 without reaching it" in inv.why_no_T_min
