@@ -479,3 +479,62 @@ def test_branch_running_toward_zero_pressure_has_no_minimum():
     assert not b.reaches_zero_pressure and b.ends[1] == "approach to P -> 0 (no state at P = 0)"
     assert inv.T_min is None and inv.ratio_to_Tc is None and "\n" not in inv.why_no_T_min
     assert "runs toward P -> 0 without reaching it" in inv.why_no_T_min
+
+
+_TOY = '''
+name = "toy-inversion-minimum"
+summary = "invented test scenario: an inversion curve whose temperature has an inner minimum"
+reference = "invented for the bhchem tests (no paper)"
+
+[dimension]
+default = 4
+minimum = 4
+maximum = 4
+
+[parameters.k1]
+default = 1.0
+length_dimension = "0"
+domain = "> 0"
+
+[parameters.k2]
+default = 1.0
+length_dimension = "-2"
+domain = "> 0"
+
+[expressions]
+M = "r/2 * (-4*pi*k1 + 8*pi*P*r^2/3 + 8*pi*k2*(r^2*ln(r)/3 - r^2/9))"
+S = "pi*r^2"
+'''
+
+
+def test_minimum_inside_a_branch_is_refined(tmp_path):
+    """A minimum of T_i inside the branch (not at P = 0) is refined by a bounded minimisation.
+    Invented family (4D, V = 4 pi r^3/3) built for this test.  Derived here: with
+    M = r/2 (1 + 8 pi P r^2/3 + g) and S = pi r^2, T = 2Pr + h/(4 pi r), h = 1 + (r g)', and
+    T = V (dT/dV)_P gives P_i = (r h' - 4h)/(16 pi r^2), T_i = (r h' - 2h)/(8 pi r).  The M
+    above has h = -4 pi k1 + 8 pi k2 r^2 ln r, so T_i = k1/r + k2 r and
+    P_i = k1/r^2 + k2/2 - k2 ln r (monotone in r): the minimum T_i = 2 sqrt(k1 k2) sits at
+    r* = sqrt(k1/k2), P* = k2 (3 - ln(k1/k2))/2 (sympy re-derives both below).  T to 1e-12; the location of a quadratic minimum only to ~sqrt(machine epsilon)
+    (common practice), so r* and P* to 1e-6."""
+    from chemistry.declarative import load_declarative
+    path = tmp_path / "toy.toml"
+    path.write_text(_TOY)
+    fam, = load_declarative(path)
+    k1, k2 = 0.7, 1.9
+    th = bind(fam, k1=k1, k2=k2)
+    rr = sp.Symbol("rr", positive=True)
+    h = -4 * sp.pi * k1 + 8 * sp.pi * k2 * rr**2 * sp.log(rr)
+    P_i = (rr * sp.diff(h, rr) - 4 * h) / (16 * sp.pi * rr**2)
+    T_i = sp.simplify((rr * sp.diff(h, rr) - 2 * h) / (8 * sp.pi * rr))
+    r_star = sp.nsolve(sp.diff(T_i, rr), rr, 1.0)
+    T_star, P_star = float(T_i.subs(rr, r_star)), float(P_i.subs(rr, r_star))
+    assert T_star == pytest.approx(2 * math.sqrt(k1 * k2), rel=1e-14)
+    assert P_star == pytest.approx(k2 * (3 - math.log(k1 / k2)) / 2, rel=1e-14)
+    inv = inversion_curve(th, pressure_max=3 * P_star)
+    assert len(inv.branches) == 1 and inv.branches[0].reaches_zero_pressure
+    np.testing.assert_allclose(inv.T, [float(T_i.subs(rr, x)) for x in inv.x], rtol=1e-10)
+    assert not inv.at_low_pressure_end and inv.branches[0].minimum_at == "inside"
+    assert inv.branches[0].converged and inv.residual < 1e-12
+    assert inv.T_min == pytest.approx(T_star, rel=1e-12)
+    assert inv.P_at_min == pytest.approx(P_star, rel=1e-6)
+    assert inv.x_at_min == pytest.approx(float(r_star), rel=1e-6)
