@@ -57,6 +57,7 @@ from scipy.optimize import brentq, minimize_scalar
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError, StateDomainError
+from bhchem.analysis.expansion import bracketed_root
 
 #: relative tolerance for detecting a side's kind from its corners
 KIND_TOLERANCE = 1e-9
@@ -74,6 +75,21 @@ def _cv_vanishes(th) -> bool:
 
 
 # -- states --------------------------------------------------------------------------------------
+def _volume_pieces(th: Thermodynamics, xs, ok, P: float, shown: int = 3) -> str:
+    """'; physical volumes at this pressure: [a, b] and [c, d]' (one interval per connected
+    piece of the physical domain on the grid, at most ``shown`` listed), or '; no physical
+    state at this pressure'."""
+    if not np.any(ok):
+        return "; no physical state at this pressure"
+    edges = np.flatnonzero(np.diff(np.concatenate([[0], ok.astype(np.int8), [0]])))
+    pieces = []
+    for a, b in zip(edges[::2], edges[1::2]):
+        Vs = th.V(xs[a:b], P)
+        pieces.append(f"[{np.nanmin(Vs):.6g}, {np.nanmax(Vs):.6g}]")
+    more = f" and {len(pieces) - shown} more" if len(pieces) > shown else ""
+    return f"; physical volumes at this pressure: {' and '.join(pieces[:shown])}{more}"
+
+
 def state_at(th: Thermodynamics, P: float, V: float) -> float:
     """The state variable x of the physical state with pressure P and volume V.
 
@@ -93,17 +109,15 @@ def state_at(th: Thermodynamics, P: float, V: float) -> float:
     s = np.sign(F)
     idx = np.nonzero(ok[1:] & ok[:-1] & (s[1:] * s[:-1] < 0))[0]
     roots = []
-    for i in idx:
-        u = brentq(lambda u: float(th.V(math.exp(u), P)) / V - 1, math.log(xs[i]),
-                   math.log(xs[i + 1]), xtol=1e-15, rtol=1e-15, maxiter=200)
-        roots.append(math.exp(u))
+    for i in idx:  # a cell whose ends disagree with the grid's signs is "no root here"
+        u = bracketed_root(lambda u: float(th.V(math.exp(u), P)) / V - 1, math.log(xs[i]),
+                           math.log(xs[i + 1]), xtol=1e-15)
+        if u is not None:
+            roots.append(math.exp(u))
     exact = [x for x in roots if bool(th.physical(x, P))]
     if not exact:
-        Vs = th.V(xs[ok], P) if np.any(ok) else np.array([])
-        rng = (f"; physical volumes at this pressure span [{np.min(Vs):.6g}, {np.max(Vs):.6g}]"
-               if Vs.size else "; no physical state at this pressure")
         raise StateDomainError(f"no physical {th.family.name} state has P = {P:g} and "
-                               f"V = {V:g}{rng}")
+                               f"V = {V:g}{_volume_pieces(th, xs, ok, P)}")
     if len(exact) > 1:
         raise StateDomainError(f"{len(exact)} physical states have P = {P:g}, V = {V:g} "
                                f"({th.derivation.state.name} = "
