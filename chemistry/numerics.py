@@ -1,6 +1,8 @@
 """Shared numerical kernels of the analyses (one implementation, one tolerance each).
 
 * :func:`isotherm_pressure` -- P(x) on an isotherm T(x, P) = T, vectorised Newton;
+* :func:`bracketed_root` -- Brent's method on [a, b] that answers "no root here" (None)
+  instead of raising when the ends do not bracket;
 * :func:`sign_change_brackets` and :func:`bracketed_roots` -- "sample a scalar function on a
   grid, bracket every sign change, refine by Brent's method", which the analyses need for
   spinodals, inversion points, states at a given volume and transition temperatures.
@@ -91,6 +93,32 @@ def sign_change_brackets(grid, values) -> list[tuple[float, float]]:
     return out
 
 
+def bracketed_root(f, a: float, b: float, xtol: float | None = None, rtol: float = 1e-15,
+                   maxiter: int = 200) -> float | None:
+    """Root of the scalar function f in [a, b] by Brent's method, or None: "no root here".
+
+    The end values are evaluated here with the same function Brent's method uses, so a sign
+    test made on other evaluations (a vectorised grid, a transformed variable) can never make
+    the solver raise.  An end where f is exactly zero is returned as the root.  None when f is
+    not finite at an end, has the same sign at both ends, or the iteration (at most
+    ``maxiter`` steps) does not converge.
+    """
+    fa, fb = float(f(a)), float(f(b))
+    if not (math.isfinite(fa) and math.isfinite(fb)):
+        return None
+    if fa == 0.0:
+        return a
+    if fb == 0.0:
+        return b
+    if (fa > 0) == (fb > 0):
+        return None
+    if xtol is None:
+        xtol = 1e-15 * max(abs(a), abs(b), 1e-300)
+    root, info = brentq(f, a, b, xtol=xtol, rtol=rtol, maxiter=maxiter, full_output=True,
+                        disp=False)
+    return float(root) if info.converged and math.isfinite(root) else None
+
+
 def bracketed_roots(f: Callable[[float], float], grid, *, log: bool = False,
                     xtol: float = 1e-15, rtol: float = 1e-15, maxiter: int = 200,
                     values=None) -> list[float]:
@@ -124,14 +152,14 @@ def bracketed_roots(f: Callable[[float], float], grid, *, log: bool = False,
         if a == b:
             roots.append(a)
             continue
-        try:
-            if log:
-                u = brentq(lambda u: f(math.exp(u)), math.log(a), math.log(b),
-                           xtol=xtol * max(1.0, abs(math.log(b))), rtol=rtol, maxiter=maxiter)
-                roots.append(math.exp(u))
-            else:
-                roots.append(brentq(f, a, b, xtol=xtol * max(abs(a), abs(b)), rtol=rtol,
-                                    maxiter=maxiter))
-        except (ValueError, RuntimeError):  # the ends did not bracket after all (NaN inside)
-            continue
+        if log:
+            u = bracketed_root(lambda u: f(math.exp(u)), math.log(a), math.log(b),
+                               xtol=xtol * max(1.0, abs(math.log(b))), rtol=rtol,
+                               maxiter=maxiter)
+            root = None if u is None else math.exp(u)
+        else:
+            root = bracketed_root(f, a, b, xtol=xtol * max(abs(a), abs(b)), rtol=rtol,
+                                  maxiter=maxiter)
+        if root is not None:  # None: the ends did not bracket after all (NaN, no change)
+            roots.append(root)
     return sorted(roots)

@@ -57,7 +57,7 @@ from scipy.optimize import brentq, minimize_scalar
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError, StateDomainError
-from bhchem.analysis.expansion import bracketed_root
+from bhchem.numerics import bracketed_root
 
 #: relative tolerance for detecting a side's kind from its corners
 KIND_TOLERANCE = 1e-9

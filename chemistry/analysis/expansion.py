@@ -43,10 +43,11 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import brentq, minimize_scalar
+from scipy.optimize import minimize_scalar
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError
+from bhchem.numerics import bracketed_root
 
 
 def joule_thomson_coefficient(th: Thermodynamics, x, P) -> np.ndarray:
@@ -68,32 +69,6 @@ def _x_grid(th: Thermodynamics, P_pos: float, n: int = 3000) -> np.ndarray:
     from bhchem.analysis.isobar import state_range
     lo, hi = state_range(th, P_pos)
     return np.geomspace(lo, hi, n)
-
-
-def bracketed_root(f, a: float, b: float, xtol: float | None = None, rtol: float = 1e-15,
-                   maxiter: int = 200) -> float | None:
-    """Root of the scalar function f in [a, b] by Brent's method, or None: "no root here".
-
-    The end values are evaluated here with the same function Brent's method uses, so a sign
-    test made on other evaluations (a vectorised grid, a transformed variable) can never make
-    the solver raise.  An end where f is exactly zero is returned as the root.  None when f is
-    not finite at an end, has the same sign at both ends, or the iteration (at most
-    ``maxiter`` steps) does not converge.
-    """
-    fa, fb = float(f(a)), float(f(b))
-    if not (math.isfinite(fa) and math.isfinite(fb)):
-        return None
-    if fa == 0.0:
-        return a
-    if fb == 0.0:
-        return b
-    if (fa > 0) == (fb > 0):
-        return None
-    if xtol is None:
-        xtol = 1e-15 * max(abs(a), abs(b), 1e-300)
-    root, info = brentq(f, a, b, xtol=xtol, rtol=rtol, maxiter=maxiter, full_output=True,
-                        disp=False)
-    return float(root) if info.converged and math.isfinite(root) else None
 
 
 def _roots_in_x(f, xs, values, ok):
