@@ -40,3 +40,8 @@ class StateDomainError(BhchemError, ValueError):
 
 class ConvergenceError(BhchemError, RuntimeError):
     """A numerical method did not reach its tolerance; the result cannot be trusted."""
+
+
+class FamilyFileReloaded(UserWarning):
+    """A plug-in file was loaded again after its content changed; its families were
+    replaced by the new ones (results computed before refer to the old ones)."""

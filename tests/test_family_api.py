@@ -165,3 +165,44 @@ def test_entry_point_families(monkeypatch):
     assert "rn-ads" in registry.available_families()
     assert all(ep.value.startswith("bhchem.models.") for ep in installed
                if ep.name in registry.available_families() and ep.name != "demo")
+
+
+_PLUGIN = '''
+from bhchem.declare import Family, Parameter
+from bhchem.declare.symbols import P, parameter_symbol, pi, r
+Q = parameter_symbol("Q")
+FAMILY = Family(name="edited-plugin", summary="s", reference="test", dimension=4,
+                parameters=(Parameter("Q", 1.0, length_dimension=1),),
+                enthalpy=r / 2 * (1 + 8 * pi * P * r**2 / 3 + FACTOR * Q**2 / r**2),
+                entropy=pi * r**2)
+'''
+
+
+def test_an_edited_plugin_is_reloaded_and_says_so(tmp_path):
+    """Editing a plug-in between loads takes effect (keyed by content), with a warning."""
+    from bhchem.errors import FamilyFileReloaded
+    path = tmp_path / "edited.py"
+    with registry.registry_scope():
+        path.write_text(_PLUGIN.replace("FACTOR", "1"))
+        (first,) = registry.load_family_file(path)
+        assert registry.load_family_file(path) == [first]          # unchanged: one load
+        path.write_text(_PLUGIN.replace("FACTOR", "2"))
+        with pytest.warns(FamilyFileReloaded, match="changed since it was loaded"):
+            (second,) = registry.load_family_file(path)
+        assert second is not first
+        assert registry.get_family("edited-plugin") is second
+        # the new content is what gets derived: Phi_Q doubles with the factor 2
+        th1, th2 = bind(first), bind(second)
+        assert abs(th2.potential("Q", 2.0, 0.01) / th1.potential("Q", 2.0, 0.01) - 2) < 1e-14
+
+
+def test_an_identical_copy_under_another_name_is_the_same_family(tmp_path):
+    with registry.registry_scope():
+        a, b = tmp_path / "a.py", tmp_path / "b.py"
+        a.write_text(_PLUGIN.replace("FACTOR", "1"))
+        b.write_text(_PLUGIN.replace("FACTOR", "1"))
+        first = registry.load_family_file(a)
+        assert registry.load_family_file(b) == first           # no DuplicateFamilyError
+        b.write_text(_PLUGIN.replace("FACTOR", "3"))   # a different family under a taken name
+        with pytest.raises(DuplicateFamilyError):
+            registry.load_family_file(b)

@@ -10,15 +10,17 @@ from __future__ import annotations
 
 import contextlib
 import dataclasses
+import hashlib
 import importlib
 import importlib.util
 import sys
 import threading
+import warnings
 from importlib import metadata
 from pathlib import Path
 
-from bhchem.errors import (BhchemError, DuplicateFamilyError, MalformedFamilyError,
-                     UnknownFamilyError)
+from bhchem.errors import (BhchemError, DuplicateFamilyError, FamilyFileReloaded,
+                           MalformedFamilyError, UnknownFamilyError)
 from bhchem.declare.family import Family
 from bhchem.declare.declarative import load_declarative
 
@@ -28,7 +30,8 @@ _lock = threading.RLock()
 _families: dict[str, Family] = {}
 _origins: dict[str, str] = {}
 _discovered = False
-_loaded_files: dict[str, list] = {}
+#: resolved path -> (SHA-256 of the content, the families it defined)
+_loaded_files: dict[str, tuple] = {}
 
 
 def _families_of(obj, origin: str) -> list[Family]:
@@ -160,28 +163,46 @@ def load_family_file(path) -> list[Family]:
     p = Path(path)
     if not p.is_file():
         raise MalformedFamilyError(f"family file {path}: no such file")
+    try:
+        content = p.read_bytes()
+    except OSError as exc:
+        raise MalformedFamilyError(f"family file {path}: cannot be read ({exc.strerror})") from None
+    digest = hashlib.sha256(content).hexdigest()
     _discover()
     key = str(p.resolve())
     with _lock:
-        if key in _loaded_files:  # the same file twice is one load
-            return list(_loaded_files[key])
+        earlier = _loaded_files.get(key)
+        if earlier is not None and earlier[0] == digest:   # the same file twice is one load
+            return list(earlier[1])
+        for other, (other_digest, other_fams) in _loaded_files.items():
+            if other_digest == digest and other != key:      # an identical copy elsewhere
+                return list(other_fams)
     if p.suffix == ".py":
-        fams = _load_python(p)
+        fams = _load_python(p, digest)
     elif p.suffix == ".toml":
         fams = load_declarative(p)
     else:
         raise MalformedFamilyError(
             f"family file {path}: expected a .py plug-in or a .toml declaration")
     fams = [dataclasses.replace(fam, source=str(p)) for fam in fams]
-    for fam in fams:
-        register(fam, f"file {p}")
     with _lock:
-        _loaded_files[key] = list(fams)
+        if earlier is not None:  # the file was edited since it was loaded: replace its families
+            for old in earlier[1]:
+                if _families.get(old.name) is old:
+                    del _families[old.name]
+                    _origins.pop(old.name, None)
+            warnings.warn(f"family file {p} changed since it was loaded; reloaded "
+                          f"{', '.join(f.name for f in fams)} from its new content",
+                          FamilyFileReloaded, stacklevel=2)
+        for fam in fams:
+            register(fam, f"file {p}")
+        _loaded_files[key] = (digest, list(fams))
     return fams
 
 
-def _load_python(p: Path) -> list[Family]:
-    modname = f"bhchem_plugin_{abs(hash(str(p.resolve())))}"
+def _load_python(p: Path, digest: str) -> list[Family]:
+    # one module name per content: an edited file is a new module, never a stale one
+    modname = f"bhchem_plugin_{digest[:24]}"
     spec = importlib.util.spec_from_file_location(modname, p)
     if spec is None or spec.loader is None:
         raise MalformedFamilyError(f"family file {p}: cannot be imported")
