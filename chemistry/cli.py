@@ -342,7 +342,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--workers", type=int, default=1, help="local worker processes (1)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster (tcp://...)")
     p.add_argument("--refine", type=int, default=8,
-                   help="bisection steps for signature boundaries (8; 0 to skip)")
+                   help="bisection steps per boundary (8; 0: bracket by the grid only)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_scan)
 
