@@ -24,6 +24,10 @@ each critical point; :func:`classification`), every change is located by bisecti
 ``refine=0`` the grid edge itself is the bracket.  An edge that cannot be resolved (a failed
 point) is listed with ``converged: false`` and a one-line note, never dropped.  The
 ``structures`` list names every structure that occurs in the rows or the boundaries.
+
+Files: the table (atlas.csv, atlas.json) is the result.  The figure (atlas.png) is drawn
+first; if it cannot be written (matplotlib missing, disk full) the table says so in
+``figure_error`` and no figure of an earlier run is left behind.
 """
 from __future__ import annotations
 
@@ -476,6 +480,22 @@ def _columns(rows, axes):
 
 
 def _write_outputs(out_dir, doc, axes):
+    """Write atlas.png (if it can be drawn), then atlas.csv and atlas.json.
+
+    A figure that cannot be written is recorded as ``doc['figure_error']`` (one line) and a
+    figure left by an earlier run is removed, so that no file claims to show this atlas.
+    Failing to write the table raises OSError.
+    """
+    png = os.path.join(out_dir, "atlas.png")
+    doc.pop("figure_error", None)
+    try:
+        _figure(out_dir, doc, axes)
+    except Exception as exc:  # the table is the result; say why the figure is missing
+        doc["figure_error"] = f"atlas.png was not written: {type(exc).__name__}: {exc}"
+        try:
+            os.remove(png)
+        except FileNotFoundError:
+            pass
     rows = doc["rows"]
     cols = _columns(rows, axes)
     buf = io.StringIO()
@@ -486,11 +506,6 @@ def _write_outputs(out_dir, doc, axes):
                                                   else r.get(c, "")) for c in cols])
     _atomic_write(os.path.join(out_dir, "atlas.csv"), buf.getvalue())
     _atomic_write(os.path.join(out_dir, "atlas.json"), _dumps(doc))
-    try:
-        _figure(out_dir, doc, axes)
-    except Exception as exc:  # the table is the result; say why the figure is missing
-        doc["figure_error"] = str(exc)
-        _atomic_write(os.path.join(out_dir, "atlas.json"), _dumps(doc))
 
 
 def _figure(out_dir, doc, axes):

@@ -236,13 +236,23 @@ def cmd_scan(args) -> int:
         doc = scan(args.family, axes, fixed, args.output, family_file=family_file,
                    workers=args.workers, executor=executor, quiet=args.quiet,
                    refine=args.refine)
+    except OSError as exc:  # e.g. disk full or a read-only folder: say what is missing
+        print(f"bhchem: error: the atlas table in {args.output} was not written ({exc}); "
+              f"a rerun reuses any finished chunks in {args.output}/chunks",
+              file=sys.stderr)
+        return 1
     finally:
         if client is not None:
             client.close()
-    print(f"wrote {args.output}/atlas.csv, atlas.json, atlas.png: {len(doc['rows'])} points, "
+    figure_error = doc.get("figure_error")
+    files = "atlas.csv, atlas.json" + ("" if figure_error else ", atlas.png")
+    print(f"wrote {args.output}/{files}: {len(doc['rows'])} points, "
           f"{doc['distinct_scale_free_points']} distinct scale-free points, structures "
           f"{', '.join(doc['structures'])}; {doc['errors']} failed point(s)")
     print(f"note: {doc['scale_invariance']}")
+    if figure_error:
+        print(f"bhchem: error: {figure_error}", file=sys.stderr)
+        return 1
     return 0
 
 

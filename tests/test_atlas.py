@@ -275,3 +275,41 @@ def test_failed_midpoint_is_an_unlocated_boundary(tmp_path, monkeypatch):
     assert not b["converged"] and b["bracket"] == [0.0, 1.0]
     assert "simulated failure" in b["note"] and "Q=0.5" in b["note"]
 
+
+def test_cli_scan_disk_full_while_drawing(capsys, tmp_path, monkeypatch):
+    """Issue 12 item 7: a figure that cannot be saved (ENOSPC) is not claimed as written; one
+    line on stderr says what was not written and why; exit code non-zero."""
+    import errno
+    import os
+    from matplotlib.figure import Figure
+
+    def no_space(self, *args, **kwargs):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+    monkeypatch.setattr(Figure, "savefig", no_space)
+    out = tmp_path / "full"
+    code = main(["scan", "rn-ads", "--grid", "Q=1:2:2", "-o", str(out), "--refine", "0", "--quiet"])
+    captured = capsys.readouterr()
+    assert code != 0
+    assert "atlas.png" not in captured.out and "atlas.csv" in captured.out
+    assert captured.err.count("\n") == 1
+    assert "atlas.png" in captured.err and "No space left on device" in captured.err
+    assert not (out / "atlas.png").exists()
+    assert sorted(p.name for p in out.iterdir()) == ["atlas.csv", "atlas.json", "chunks",
+                                                     "manifest.json"]
+    assert "No space left" in json.loads((out / "atlas.json").read_text())["figure_error"]
+
+
+def test_cli_scan_without_matplotlib_leaves_no_stale_figure(capsys, tmp_path, monkeypatch):
+    """Without matplotlib the rerun of a finished scan says the figure was not written, exits
+    non-zero and removes the figure of the earlier run (it would no longer match the table)."""
+    import sys
+    out = tmp_path / "nompl"
+    argv = ["scan", "rn-ads", "--grid", "Q=1:2:2", "-o", str(out), "--refine", "0", "--quiet"]
+    assert main(argv) == 0 and (out / "atlas.png").exists()
+    capsys.readouterr()
+    monkeypatch.setitem(sys.modules, "matplotlib", None)  # import matplotlib now fails
+    assert main(argv) != 0
+    captured = capsys.readouterr()
+    assert "atlas.png" not in captured.out and captured.err.count("\n") == 1
+    assert "atlas.png was not written" in captured.err and "matplotlib" in captured.err
+    assert not (out / "atlas.png").exists()
