@@ -235,13 +235,23 @@ def cmd_scan(args) -> int:
         doc = scan(args.family, axes, fixed, args.output, family_file=family_file,
                    workers=args.workers, executor=executor, quiet=args.quiet,
                    refine=args.refine)
+    except OSError as exc:  # e.g. disk full or a read-only folder: say what is missing
+        print(f"bhchem: error: the atlas table in {args.output} was not written ({exc}); "
+              f"a rerun reuses any finished chunks in {args.output}/chunks",
+              file=sys.stderr)
+        return 1
     finally:
         if client is not None:
             client.close()
-    print(f"wrote {args.output}/atlas.csv, atlas.json, atlas.png: {len(doc['rows'])} points, "
+    figure_error = doc.get("figure_error")
+    files = "atlas.csv, atlas.json" + ("" if figure_error else ", atlas.png")
+    print(f"wrote {args.output}/{files}: {len(doc['rows'])} points, "
           f"{doc['distinct_scale_free_points']} distinct scale-free points, structures "
           f"{', '.join(doc['structures'])}; {doc['errors']} failed point(s)")
     print(f"note: {doc['scale_invariance']}")
+    if figure_error:
+        print(f"bhchem: error: {figure_error}", file=sys.stderr)
+        return 1
     return 0
 
 
@@ -342,7 +352,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--workers", type=int, default=1, help="local worker processes (1)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster (tcp://...)")
     p.add_argument("--refine", type=int, default=8,
-                   help="bisection steps for signature boundaries (8; 0 to skip)")
+                   help="bisection steps per boundary (8; 0: bracket by the grid only)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_scan)
 

@@ -17,8 +17,17 @@ chunk is written atomically to ``DIR/chunks/``; rerunning the same scan into the
 folder computes only the missing chunks, and the final table is assembled from the
 chunks in grid order, so an interrupted and resumed scan gives the identical table.
 
-Signature boundaries: along every grid edge whose two ends differ in signature, the
-boundary is located by bisection (``refine`` steps) and stored with the atlas.
+Boundaries: along every grid edge whose two ends differ in any classified column (the
+structure signature, the number of physical critical points ``n_critical`` and the kind of
+each critical point; :func:`classification`), every change is located by bisection
+(``refine`` steps, so within edge width / 2^refine) and stored with the atlas; with
+``refine=0`` the grid edge itself is the bracket.  An edge that cannot be resolved (a failed
+point) is listed with ``converged: false`` and a one-line note, never dropped.  The
+``structures`` list names every structure that occurs in the rows or the boundaries.
+
+Files: the table (atlas.csv, atlas.json) is the result.  The figure (atlas.png) is drawn
+first; if it cannot be written (matplotlib missing, disk full) the table says so in
+``figure_error`` and no figure of an earlier run is left behind.
 """
 from __future__ import annotations
 
@@ -240,6 +249,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                if not os.path.exists(os.path.join(chunk_dir, f"chunk-{i:06d}.json"))]
     progress = _Progress(len(rep_points), quiet)
     progress.add(sum(len(chunks[i]) for i in range(len(chunks)) if i not in set(missing)))
+    # one pool for the whole run: chunks and boundary refinement; a caller's executor is
+    # used as given and never shut down here
     own = None
     if executor is None and workers > 1:
         from concurrent.futures import ProcessPoolExecutor
@@ -269,71 +280,166 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                     for g in futs:
                         g.cancel()
                     return {"interrupted": True, "chunks_written": written}
+        progress.close()
+        progress = None
+        computed = {}
+        for i in range(len(chunks)):
+            with open(os.path.join(chunk_dir, f"chunk-{i:06d}.json"), encoding="utf-8") as fh:
+                for r in json.load(fh):
+                    computed[r["index"]] = r
+        rows = []
+        for i, p in enumerate(points):
+            r = dict(computed[rep_of[keys[i]]])
+            r.update({"index": i, **p})
+            rows.append(r)
+        boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine, executor)
     finally:
         if own is not None:
             own.shutdown(wait=True, cancel_futures=True)
-        progress.close()
-    computed = {}
-    for i in range(len(chunks)):
-        with open(os.path.join(chunk_dir, f"chunk-{i:06d}.json"), encoding="utf-8") as fh:
-            for r in json.load(fh):
-                computed[r["index"]] = r
-    rows = []
-    for i, p in enumerate(points):
-        r = dict(computed[rep_of[keys[i]]])
-        r.update({"index": i, **p})
-        rows.append(r)
-    if executor is None and workers > 1:
-        from concurrent.futures import ProcessPoolExecutor
-        with ProcessPoolExecutor(max_workers=workers) as pool:
-            boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine, pool)
-    else:
-        boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine, executor)
+        if progress is not None:
+            progress.close()
     doc = _assemble(family_name, fam, axes, fixed, rows, boundaries)
     doc["distinct_scale_free_points"] = len(reps)
     _write_outputs(out_dir, doc, axes)
     return doc
 
 
-def refine_edge(family_name, family_file, fixed, base, name, lo, hi, log, s0, s1, refine):
-    """Bisection for one grid edge (a worker task): where the structure at the lower end
-    stops (a third structure in between becomes the upper side)."""
-    for _ in range(refine):
-        mid = math.sqrt(lo * hi) if log else 0.5 * (lo + hi)
-        s = analyse_point(family_name, family_file, {**fixed, **base, name: mid})["structure"]
-        if s == s0:
-            lo = mid
-        else:
-            hi, s1 = mid, s
+#: most boundaries located along one grid edge before the rest of it is reported unresolved
+MAX_BOUNDARIES_PER_EDGE = 12
+
+
+def classification(row: dict) -> dict:
+    """The classified columns of an atlas row.
+
+    Parameters
+    ----------
+    row : dict
+        A row of :func:`analyse_point`.
+
+    Returns
+    -------
+    dict
+        ``structure`` (the structure signature), ``n_critical`` (number of physical critical
+        points) and ``cpI:kind`` for I = 1, 2, 3 (None when that point does not exist).  A
+        change of any of them between neighbouring grid points is a boundary.
+    """
+    cls = {"structure": row.get("structure"), "n_critical": row.get("n_critical")}
+    for i in (1, 2, 3):
+        cls[f"cp{i}:kind"] = row.get(f"cp{i}:kind")
+    return cls
+
+
+def _boundary(name, base, lo, hi, lower, upper, steps, log, converged=True, note=""):
     point = dict(base)
     point[name] = math.sqrt(lo * hi) if log else 0.5 * (lo + hi)
-    return {"along": name, "point": point, "between": [s0, s1], "bracket": [lo, hi]}
+    changed = sorted(k for k in set(lower) | set(upper) if lower.get(k) != upper.get(k))
+    return {"along": name, "point": point, "bracket": [lo, hi],
+            "between": [lower["structure"], upper["structure"]],
+            "lower": lower, "upper": upper, "changed": changed, "steps": steps,
+            "converged": converged, "note": note}
+
+
+def refine_edge(family_name, family_file, fixed, base, name, lo, hi, log, c_lo, c_hi, refine,
+                max_boundaries=MAX_BOUNDARIES_PER_EDGE):
+    """Locate every change of the classification along one grid edge (a worker task).
+
+    Bisection on the classification c(x) (:func:`classification`): the bracket [l, h] keeps
+    c(l) equal to the class at the start of the segment and c(h) different, halving the bracket
+    (geometric midpoint on a log axis) ``refine`` times, so a located boundary lies within
+    (hi - lo) / 2^refine (linear axis).  If the class found at h is not yet the class of the
+    far end of the edge, the search continues from h, so that every classified column that
+    differs between the two grid points changes at one of the returned boundaries.
+
+    Parameters
+    ----------
+    base : dict
+        The other grid coordinates of the edge.
+    lo, hi : float
+        The edge along parameter ``name``; ``c_lo`` and ``c_hi`` are the classifications there.
+    refine : int
+        Bisection steps per boundary (0: the boundary is the edge itself).
+    max_boundaries : int
+        Most boundaries located on the edge; the rest of the edge is then reported as one
+        unresolved boundary (a count, not a time limit).
+
+    Returns
+    -------
+    list of dict
+        Boundaries in order along the edge, each with ``bracket``, ``point`` (the midpoint),
+        ``lower``/``upper`` classifications, ``changed`` columns, ``steps`` and ``converged``
+        (False with a one-line ``note`` when a point in the bracket failed or the count
+        ran out).
+    """
+    out = []
+    a, c_a = lo, c_lo
+    while True:
+        b, c_b = hi, c_hi
+        for step in range(refine):
+            mid = math.sqrt(a * b) if log else 0.5 * (a + b)
+            row = analyse_point(family_name, family_file, {**fixed, **base, name: mid})
+            if row["error"]:
+                note = (f"not located: the point {name}={mid!r} failed ({row['error']}); "
+                        f"the change lies in the bracket")
+                out.append(_boundary(name, base, a, hi, c_a, c_hi, step, log, False, note))
+                return out
+            c_m = classification(row)
+            if c_m == c_a:
+                a = mid
+            else:
+                b, c_b = mid, c_m
+        out.append(_boundary(name, base, a, b, c_a, c_b, refine, log))
+        if c_b == c_hi:
+            return out
+        if len(out) >= max_boundaries:
+            out.append(_boundary(name, base, b, hi, c_b, c_hi, 0, log, False,
+                                 f"not located: more than {max_boundaries} changes along this "
+                                 f"edge; use a finer grid"))
+            return out
+        a, c_a = b, c_b
 
 
 def _boundaries(family_name, family_file, fixed, axes, rows, refine, executor=None):
-    """Bisection along grid edges whose two ends differ in structure signature."""
-    if refine <= 0:
-        return []
+    """Every grid edge whose two ends differ in any classified column, refined by bisection.
+
+    An edge with a failed end is listed as not located (its class on that side is unknown).
+    """
     shape = [len(a.values) for a in axes]
-    grid = np.array([r["structure"] for r in rows], dtype=object).reshape(shape)
-    tasks = []
+    grid = np.empty(shape, dtype=object)
+    for flat, r in enumerate(rows):
+        grid[np.unravel_index(flat, shape)] = r
+    tasks, slots = [], []
     for dim, a in enumerate(axes):
         for idx in itertools.product(*(range(s) for s in shape)):
             if idx[dim] + 1 >= shape[dim]:
                 continue
             nxt = list(idx)
             nxt[dim] += 1
-            s0, s1 = grid[idx], grid[tuple(nxt)]
-            if s0 == s1 or "error" in (s0, s1):
-                continue
+            r0, r1 = grid[idx], grid[tuple(nxt)]
+            c0, c1 = classification(r0), classification(r1)
+            lo, hi = a.values[idx[dim]], a.values[idx[dim] + 1]
             base = {ax.name: ax.values[i] for ax, i in zip(axes, idx)}
             del base[a.name]
-            tasks.append((family_name, family_file, fixed, base, a.name, a.values[idx[dim]],
-                          a.values[idx[dim] + 1], a.spacing == "log", s0, s1, refine))
-    if executor is None:
-        return [refine_edge(*t) for t in tasks]
-    futs = [executor.submit(refine_edge, *t) for t in tasks]
-    return [f.result() for f in futs]  # in edge order: deterministic
+            if r0["error"] or r1["error"]:
+                bad = lo if r0["error"] else hi
+                slots.append([_boundary(a.name, base, lo, hi, c0, c1, 0, a.spacing == "log",
+                                        False, f"not located: the grid point {a.name}={bad!r} "
+                                        f"failed (see its row)")])
+                continue
+            if c0 == c1:
+                continue
+            slots.append(None)
+            tasks.append((family_name, family_file, fixed, base, a.name, lo, hi,
+                          a.spacing == "log", c0, c1, max(int(refine), 0)))
+    if executor is None or refine <= 0:
+        results = [refine_edge(*t) for t in tasks]
+    else:
+        futs = [executor.submit(refine_edge, *t) for t in tasks]
+        results = [f.result() for f in futs]  # in edge order: deterministic
+    it = iter(results)
+    out = []
+    for slot in slots:
+        out.extend(next(it) if slot is None else slot)
+    return out
 
 
 def _assemble(family_name, fam, axes, fixed, rows, boundaries):
@@ -351,9 +457,11 @@ def _assemble(family_name, fam, axes, fixed, rows, boundaries):
             f"{', '.join(combos) if combos else '(none: the family has one scale)'} "
             f"(reference length from {ref[0]}); grid points with equal combinations were "
             f"computed once" if ref else "the family has no dimensionful parameter")
+    named = {r["structure"] for r in rows}
+    named |= {s for b in boundaries for s in b["between"]}
     return {"family": family_name, "grid": [a.spec for a in axes], "fixed": fixed,
             "scale_invariance": note, "rows": rows, "boundaries": boundaries,
-            "structures": sorted({r["structure"] for r in rows}),
+            "structures": sorted(named),
             "errors": sum(1 for r in rows if r["error"]),
             "version": __version__}
 
@@ -365,6 +473,22 @@ def _columns(rows, axes):
 
 
 def _write_outputs(out_dir, doc, axes):
+    """Write atlas.png (if it can be drawn), then atlas.csv and atlas.json.
+
+    A figure that cannot be written is recorded as ``doc['figure_error']`` (one line) and a
+    figure left by an earlier run is removed, so that no file claims to show this atlas.
+    Failing to write the table raises OSError.
+    """
+    png = os.path.join(out_dir, "atlas.png")
+    doc.pop("figure_error", None)
+    try:
+        _figure(out_dir, doc, axes)
+    except Exception as exc:  # the table is the result; say why the figure is missing
+        doc["figure_error"] = f"atlas.png was not written: {type(exc).__name__}: {exc}"
+        try:
+            os.remove(png)
+        except FileNotFoundError:
+            pass
     rows = doc["rows"]
     cols = _columns(rows, axes)
     buf = io.StringIO()
@@ -375,11 +499,6 @@ def _write_outputs(out_dir, doc, axes):
                                                   else r.get(c, "")) for c in cols])
     _atomic_write(os.path.join(out_dir, "atlas.csv"), buf.getvalue())
     _atomic_write(os.path.join(out_dir, "atlas.json"), _dumps(doc))
-    try:
-        _figure(out_dir, doc, axes)
-    except Exception as exc:  # the table is the result; say why the figure is missing
-        doc["figure_error"] = str(exc)
-        _atomic_write(os.path.join(out_dir, "atlas.json"), _dumps(doc))
 
 
 def _figure(out_dir, doc, axes):
@@ -395,7 +514,8 @@ def _figure(out_dir, doc, axes):
                 m = np.array([r["structure"] == s for r in rows])
                 ax.scatter(x[m], np.zeros(m.sum()), s=60, marker="s", color=color[s], label=s)
             for b in doc["boundaries"]:
-                ax.axvline(b["point"][axes[0].name], color="black", lw=0.8, ls="--")
+                if b["converged"]:
+                    ax.axvline(b["point"][axes[0].name], color="black", lw=0.8, ls="--")
             ax.set_yticks([])
             ax.set_xlabel(axes[0].name)
             if axes[0].spacing == "log":
@@ -411,8 +531,9 @@ def _figure(out_dir, doc, axes):
             cmap = ListedColormap([color[s] for s in structures])
             ax.pcolormesh(a0.values, a1.values, grid.T, cmap=cmap, shading="nearest",
                           vmin=-0.5, vmax=len(structures) - 0.5)
-            bx = [b["point"][a0.name] for b in doc["boundaries"]]
-            by = [b["point"][a1.name] for b in doc["boundaries"]]
+            located = [b for b in doc["boundaries"] if b["converged"]]
+            bx = [b["point"][a0.name] for b in located]
+            by = [b["point"][a1.name] for b in located]
             ax.plot(bx, by, ".", color="black", ms=3, label="refined boundary")
             for s in structures:
                 ax.plot([], [], "s", color=color[s], label=s)
