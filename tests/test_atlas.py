@@ -261,7 +261,7 @@ def test_eh_atlas_across_a_zero(tmp_path):
 
 def test_failed_midpoint_is_an_unlocated_boundary(tmp_path, monkeypatch):
     """A bisection point that fails stops that edge and says so (never a silent boundary)."""
-    import chemistry.atlas as atlas
+    import bhchem.workflows.atlas as atlas
     real = atlas.analyse_point
 
     def failing(family_name, family_file, params):
