@@ -223,7 +223,7 @@ def cmd_scan(args) -> int:
     executor, client = None, None
     if args.scheduler:
         try:
-            from distributed import Client
+            from distributed import Client  # lazy: optional extra, only with --scheduler
         except ImportError:
             raise BhchemError("--scheduler needs Dask: pip install 'bhchem[dask]'") from None
         try:

@@ -42,7 +42,7 @@ from bhchem.core.compiled import Thermodynamics
 from bhchem.core.derive import tidy
 from bhchem.core.sampling import physical_sample
 from bhchem.core.compiled import lambdify_modules
-from bhchem.core.compiled import _lambdify
+from bhchem.core.compiled import compile_expression
 
 #: relative residual below which an identity counts as holding (common practice)
 TOLERANCE = 1e-9
@@ -223,7 +223,7 @@ def _finite_difference_residual(bound: Thermodynamics, xs, Ps) -> float:
 
 
 def _declared_volume(bound, xs, Ps):
-    f = _lambdify(bound.derivation.arguments, bound.derivation.volume_declared)
+    f = compile_expression(bound.derivation.arguments, bound.derivation.volume_declared)
     return f(xs, Ps, *bound._param_values)
 
 

@@ -38,13 +38,23 @@ import json
 import math
 import os
 import sys
-import tempfile
 import time
 from dataclasses import dataclass
 
 import numpy as np
 
+from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures import as_completed as futures_as_completed
+
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.phases import phase_diagram
+from bhchem.core.compiled import bind, validate_values
+from bhchem.declare.registry import get_family, load_family_file
 from bhchem.errors import BhchemError
+from bhchem.fileio import atomic_write
+from bhchem.version import __version__
+from bhchem.workflows.report import dumps
+from bhchem.present.plots import PALETTE, PlotResult, _styled, save
 
 CHUNK_SIZE = 8
 ATLAS_ANCHORS = 48  # isobar anchors per phase diagram (narrow reentrant windows need them)
@@ -91,7 +101,6 @@ def parse_grid(spec: str) -> GridAxis:
 
 # -- one grid point ----------------------------------------------------------------------------
 def _family(family_name, family_file):
-    from bhchem.declare.registry import get_family, load_family_file
     if family_file:
         load_family_file(family_file)
     return get_family(family_name)
@@ -117,9 +126,6 @@ def scale_free_key(th) -> tuple:
 
 def analyse_point(family_name, family_file, params: dict) -> dict:
     """Critical points, structure and key numbers at one parameter point (never raises)."""
-    from bhchem.core.compiled import bind
-    from bhchem.analysis.critical import find_critical_points
-    from bhchem.analysis.phases import phase_diagram
     row = {"error": ""}
     try:
         th = bind(_family(family_name, family_file), **params)
@@ -159,12 +165,10 @@ def run_chunk(family_name, family_file, fixed, points) -> list:
 
 # -- the scan ------------------------------------------------------------------------------------
 def _atomic_write(path, text):
-    from bhchem.fileio import atomic_write  # the one atomic writer (0666 & ~umask)
     atomic_write(path, text)
 
 
 def _dumps(obj) -> str:
-    from bhchem.workflows.report import dumps
     return dumps(obj)
 
 
@@ -192,10 +196,9 @@ class _Progress:
 
 def _as_completed(executor, futures):
     if hasattr(executor, "gather"):  # a Dask distributed Client
-        from distributed import as_completed
+        from distributed import as_completed  # lazy: optional extra, only for a Dask client
         return as_completed(futures)
-    from concurrent.futures import as_completed
-    return as_completed(futures)
+    return futures_as_completed(futures)
 
 
 def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, workers=1,
@@ -213,7 +216,6 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         raise BhchemError("each grid parameter may appear once")
     if not 1 <= len(axes) <= 3:
         raise BhchemError("give one to three --grid parameters")
-    from bhchem.core.compiled import validate_values
     for a in axes:
         for v in (a.values[0], a.values[-1]):
             validate_values(fam, {**fixed, a.name: v})
@@ -222,7 +224,6 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             raise BhchemError(f"parameter {nm} is both fixed (-p) and on the grid")
     points = [dict(zip(names, combo)) for combo in itertools.product(*(a.values for a in axes))]
     # scale invariance: one computation per distinct set of scale-free combinations
-    from bhchem.core.compiled import bind
     keys = [scale_free_key(bind(fam, **{**fixed, **p})) for p in points]
     rep_of, reps = {}, []
     for i, k in enumerate(keys):
@@ -253,7 +254,6 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     # used as given and never shut down here
     own = None
     if executor is None and workers > 1:
-        from concurrent.futures import ProcessPoolExecutor
         own = executor = ProcessPoolExecutor(max_workers=workers)
     written = 0
     try:
@@ -443,8 +443,6 @@ def _boundaries(family_name, family_file, fixed, axes, rows, refine, executor=No
 
 
 def _assemble(family_name, fam, axes, fixed, rows, boundaries):
-    from bhchem.version import __version__
-    from bhchem.core.compiled import bind
     ex = bind(fam, **{**fixed, **{a.name: a.values[0] for a in axes}})
     dims = ex.derivation.length_dimensions
     ref = next(((nm, n) for nm, n in dims.items() if n != 0 and ex.values[nm] != 0), None)
@@ -502,7 +500,6 @@ def _write_outputs(out_dir, doc, axes):
 
 
 def _figure(out_dir, doc, axes):
-    from bhchem.present.plots import PALETTE, PlotResult, _styled, save
     rows = doc["rows"]
     structures = doc["structures"]
     color = {s: PALETTE[i % len(PALETTE)] for i, s in enumerate(structures)}
