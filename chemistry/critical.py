@@ -210,7 +210,7 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
             raise ValueError(f"family {th.family.name}: the critical conditions do not reduce "
                              f"to a polynomial; use method='scanned'")
     if poly is not None:
-        found, note = poly
+        found, note, remarks = poly
         exact = {(c.x, c.P): c for c in found}
         candidates = [(c.x, c.P) for c in found]
         completeness, scanned = "certified", None
@@ -218,7 +218,7 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
                        "polynomial in " + th.derivation.state.name + note)
     else:
         candidates, scanned = _scanned_candidates(th, pressure_range, state_range)
-        exact = {}
+        exact, remarks = {}, []
         completeness = "scanned"
         method_text = ("fold detection of the extrema of T(x) over a logarithmic (x, P) "
                        "grid, refined by 2D Newton")
@@ -251,6 +251,8 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
     if scanned:
         msg += (f" over {th.derivation.state.name} in [{scanned['x'][0]:.3g}, "
                 f"{scanned['x'][1]:.3g}], P in [{scanned['P'][0]:.3g}, {scanned['P'][1]:.3g}]")
+    for remark in remarks:
+        msg += f"; note: {remark}"
     if not converged:
         msg += "; WARNING: some residuals exceed the tolerance"
     return CriticalSearch(family=th.family.name, parameters=dict(th.values),
@@ -343,7 +345,9 @@ class _Candidate:
 
 
 def _certified_candidates(th: Thermodynamics):
-    """Candidates (a list of _Candidate) from exact elimination, and a note; or None.
+    """Candidates (a list of _Candidate) from exact elimination, a note on the method and
+    remarks for the search message (a nearby isolated point no solution stands for);
+    or None.
 
     On the isotherm P(T, x) = T u(x) - w(x) (regular even where T(x, P) has a removable
     singularity, as at an isolated critical point), P_x = P_xx = 0 gives
@@ -361,7 +365,7 @@ def _certified_candidates(th: Thermodynamics):
     num, den = sp.fraction(sp.cancel(sp.together(u2 * w1 - u1 * w2)))
     num = sp.expand(num)
     if num == 0:
-        return [], " (the conditions hold identically in x: no isolated solution)"
+        return [], " (the conditions hold identically in x: no isolated solution)", []
     out = []
     for xr, mult in _positive_roots(num, x, with_multiplicity=True):
         ev = lambda e: sp.N(e.subs(x, xr), 50)  # noqa: E731
@@ -384,8 +388,9 @@ def _certified_candidates(th: Thermodynamics):
             continue
         out.append(_Candidate(float(xr), float(Pr), float(Tr), isolated, mult))
     sym = _symbolic_isotherm(th.derivation)
+    remarks = []
     if sym is None:
-        return out, ""
+        return out, "", remarks
     for near in _nearby_isolated_points(th, sym):
         if any(c.isolated and abs(c.x / near.x - 1) <= 1e-9 for c in out):
             continue  # the couplings as given are exact: found above
@@ -411,7 +416,9 @@ def _certified_candidates(th: Thermodynamics):
                     f"the rounding of the input (tolerance {ROUNDING_TOLERANCE:.1e}): solved as "
                     f"given")
             out = [replace(c, note=note) if c in cluster else c for c in out]
-    return out, ""
+            if not cluster:
+                remarks.append(note)
+    return out, "", remarks
 
 
 # -- couplings typed as decimals: the nearby exact system with an isolated point ------
@@ -591,12 +598,17 @@ def _nearby_isolated_points(th: Thermodynamics, sym: _SymbolicIsotherm) -> list:
                 continue
             # multiplicity m of x_c as a root of the exact system's N, and the radius
             scale_N = fn["|N|"](xc, *p)
-            radius = 0.0
+            radius = None
             for k in range(1, deg + 1):
                 ck = abs(_n_derivative(sym, k)(xc, *p)) * xc**k / mp.factorial(k)
                 if ck > mp.mpf(10) ** -30 * scale_N:
                     radius = float((abs(fn["N"](xc, *p0)) / ck) ** (mp.mpf(1) / k))
                     break
+            if radius is None:
+                # every Taylor coefficient of N vanishes: N = 0 identically for the exact
+                # system, whose conditions then hold along the whole isotherm T_c (a flat
+                # isotherm, not an isolated point)
+                continue
             shifts = {names[j]: float(e[j]) for j in range(len(names)) if p0[j] != 0}
             found.append(_NearbyIsolated(
                 x=float(xc), T=float(Tc), P=float(Pc), shifts=shifts,
