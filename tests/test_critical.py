@@ -122,3 +122,82 @@ def test_cli_exponents_json_contract(capsys):
 def test_cli_no_critical_point_is_a_result(capsys):
     assert main(["critical", "schwarzschild-ads", "--json"]) == 0
     assert json.loads(capsys.readouterr().out)["critical_points"] == []
+
+
+# -- couplings typed as decimals: generic, on an invented family (issue 12, item 6) ---------------
+def _toy_family():
+    """An invented toy (no paper), 4D, with the structure of an isolated critical point:
+    M = 4 pi P r^3/3 - 2 pi r^2 + 4 pi b r, S = 4 pi (r^3/3 - a r^2 - c^2/r).  Derived here:
+    T = M_r/S_r gives P = T u(r) - w(r) with u = 1 - 2a/r + c^2/r^4 and w = -1/r + b/r^2, so
+    u' = 2a/r^2 - 4c^2/r^5 and w' = 1/r^2 - 2b/r^3.  w' = 0 at r = 2b, and u' vanishes there too
+    iff c^2 = 4 a b^3 (an irrational c for most a, b: decimals can only approximate it).  Then
+    P_xx = 0 fixes T_c = w''/u'' = (1/(8b^3)) / (3a/(4b^3)) = 1/(6a), and
+    P_c = T_c u(2b) - w(2b) = (1 - 3a/(4b))/(6a) + 1/(4b) = 1/(6a) + 1/(8b), r_c = 2b."""
+    from chemistry import Domain, Family, Parameter
+    from chemistry.symbols import P, parameter_symbol, pi, r
+    a, b, c = (parameter_symbol(n) for n in "abc")
+    return Family(
+        name="toy-isolated-point", summary="invented toy with an isolated critical point",
+        reference="invented for this test (no paper)", dimension=4,
+        parameters=(Parameter("a", 0.2, length_dimension=1, domain=Domain.positive()),
+                    Parameter("b", 0.5, length_dimension=1, domain=Domain.positive()),
+                    Parameter("c", 0.3, length_dimension=2, domain=Domain.positive())),
+        enthalpy=4 * pi * P * r**3 / 3 - 2 * pi * r**2 + 4 * pi * b * r,
+        entropy=4 * pi * (r**3 / 3 - a * r**2 - c**2 / r))
+
+
+@pytest.mark.parametrize("a, b", [(0.2, 0.5), (0.07, 1.3), (1.1, 2.5)])
+def test_decimal_couplings_isolated_point_generic(a, b):
+    """The engine's treatment of decimal couplings is generic: on the invented toy above, with
+    c = 2 b sqrt(a b) rounded to a double, exactly one isolated critical point at the closed form
+    derived in _toy_family (r_c = 2b, T_c = 1/(6a), P_c = 1/(6a) + 1/(8b)) to 1e-9 relative,
+    converged, with the distance of the couplings from c^2 = 4 a b^3 within the stated tolerance."""
+    c = 2 * b * math.sqrt(a * b)
+    from chemistry import critical
+    s = critical.find_critical_points(bind(_toy_family(), a=a, b=b, c=c))
+    (cp,) = s.points
+    assert (cp.kind, cp.converged) == ("isolated", True)
+    assert rel(cp.r, 2 * b) < 1e-9 and rel(cp.T, 1 / (6 * a)) < 1e-9
+    assert rel(cp.P, 1 / (6 * a) + 1 / (8 * b)) < 1e-9
+    assert max(cp.residuals.values()) <= critical.RESIDUAL_TOLERANCE
+    if cp.nearby_system is not None:
+        assert cp.nearby_system["relative_distance"] <= critical.ROUNDING_TOLERANCE
+        assert set(cp.nearby_system["relative_shifts"]) == {"a", "b", "c"}
+        assert "within the rounding of the input" in cp.note
+
+
+@pytest.mark.parametrize("factor", [1.1, 0.9, 1 + 1e-9])
+def test_decimal_couplings_off_the_condition_generic(factor):
+    """c 10% (or 1e-9, beyond the rounding of the input) away from c^2 = 4 a b^3 on the invented
+    toy: no isolated critical point is reported (derived in _toy_family: the condition is needed
+    for u' and w' to vanish together); whatever is reported is converged, and a nearby isolated
+    point beyond the tolerance is only mentioned (in the message or a point's note)."""
+    from chemistry import critical
+    a, b = 0.2, 0.5
+    c = factor * 2 * b * math.sqrt(a * b)
+    s = critical.find_critical_points(bind(_toy_family(), a=a, b=b, c=c))
+    assert s.converged
+    assert all(cp.kind != "isolated" and cp.nearby_system is None for cp in s.points)
+    near_miss = "from an exact system with an isolated critical point"
+    mentioned = near_miss in s.message or any(near_miss in cp.note for cp in s.points)
+    assert mentioned == (factor == 1 + 1e-9)
+
+
+def test_flat_critical_isotherm_is_not_an_isolated_point():
+    """An invented degenerate toy (no paper): S = 4 pi (r^3/3 - a r^2 + c r) with the M of
+    _toy_family gives u = 1 - 2a/r + c/r^2, w = -1/r + b/r^2; derived here: u' and w' vanish
+    together at r = 2b iff c = 2ab, and then u' = w' identically, so P = T u - w is constant
+    along the isotherm T = 1 (every state of it solves P_x = P_xx = 0).  Couplings near c = 2ab
+    must not be reported as an isolated critical point of a nearby system."""
+    from chemistry import Domain, Family, Parameter
+    from chemistry.symbols import P, parameter_symbol, pi, r
+    a, b, c = (parameter_symbol(n) for n in "abc")
+    fam = Family(name="toy-flat-isotherm", summary="invented toy: a flat critical isotherm",
+                 reference="invented for this test (no paper)", dimension=4,
+                 parameters=tuple(Parameter(n, 0.5, domain=Domain.positive()) for n in "abc"),
+                 enthalpy=4 * pi * P * r**3 / 3 - 2 * pi * r**2 + 4 * pi * b * r,
+                 entropy=4 * pi * (r**3 / 3 - a * r**2 + c * r))
+    for av, bv in ((0.3, 0.7), (0.1, 0.3)):
+        s = find_critical_points(bind(fam, a=av, b=bv, c=2 * av * bv))
+        assert all(cp.kind != "isolated" for cp in s.points)
+        assert "isolated critical point of the nearby exact system" not in s.message

@@ -249,3 +249,141 @@ def test_generic_couplings_einstein_branch_condition():
     a3_big = 2 * t2**2 / 3 / ((d - 3) * (d - 4) * (d - 5) * (d - 6))  # disc < 0
     th2 = bind("lovelock3-ads", d=d, k=k, alpha2=a2, alpha3=a3_big, Q=0.5)
     assert bool(th2.physical(2.0, 100 * P_max))
+
+
+# -- isolated critical point from couplings typed as decimals (issue 12, item 6) -------------------
+# The DKKM14 couplings in FKMS14's normalisation alpha~2 = sqrt(3), alpha~3 = 1 (d = 7), typed as
+# the shortest decimals of the doubles nearest to sqrt(3)/12 and 1/24: in binary they miss the
+# condition alpha~3 = alpha~2^2/3 by a few roundings.
+DECIMAL_ISOLATED = {"d": 7, "k": -1, "alpha2": 0.14433756729740643,
+                    "alpha3": 0.041666666666666664, "Q": 0.0}
+
+
+def _condition_defect(a2, a3):
+    """eps = 2 a2^2/a3 - 1 in exact rational arithmetic from the binary values (d = 7: alpha~2 =
+    12 alpha2, alpha~3 = 24 alpha3, so alpha~3 = alpha~2^2/3 reads alpha3 = 2 alpha2^2).  Derived
+    here: with relative shifts alpha2 -> alpha2 (1 + s2), alpha3 -> alpha3 (1 + s3) the condition is,
+    to first order, s3 - 2 s2 = eps, and the shift of least Euclidean norm is eps (-2, 1)/5, whose
+    largest component is 2|eps|/5."""
+    from fractions import Fraction
+    f2, f3 = Fraction(a2), Fraction(a3)
+    return float(2 * f2 * f2 / f3 - 1)
+
+
+def rel(a, b):
+    return abs(a - b) / abs(b)
+
+
+def _point_summary(cp):
+    return cp.kind, cp.physical, cp.converged
+
+
+def test_isolated_point_from_decimal_couplings():
+    """Decimal couplings meeting DKKM14's condition to within the rounding of the input: exactly one
+    isolated critical point, equal to the closed form derived in the module docstring of
+    models/lovelock3_ads.py (DKKM14: r_c = alpha~2^(1/2) = 3^(1/4), T_c = 1/(2 pi 3^(1/4)),
+    P_c = (d-1)(d-2)/(48 pi alpha~2) = 5/(8 sqrt(3) pi)) and to the exact-binary case alpha2 = 1,
+    alpha3 = 2 rescaled by the length ell = alpha2^(1/2) (r ~ ell, T ~ 1/ell, P ~ 1/ell^2), all to
+    1e-9 relative; the point names how far the couplings are from the condition."""
+    from chemistry import critical
+    s = critical.find_critical_points("lovelock3-ads", **DECIMAL_ISOLATED)
+    assert s.completeness == "certified" and s.converged
+    (cp,) = s.points
+    assert cp.kind == "isolated" and cp.physical
+    assert _point_summary(cp) == ("isolated", True, True)
+    assert max(cp.residuals.values()) < 1e-9
+    rc, Tc = 3**0.25, 1 / (2 * math.pi * 3**0.25)
+    Pc = 5 / (8 * math.sqrt(3) * math.pi)
+    assert rel(cp.r, rc) < 1e-9 and rel(cp.T, Tc) < 1e-9 and rel(cp.P, Pc) < 1e-9
+    assert rel(cp.v, 4 * rc / 5) < 1e-9
+    (ex,) = critical.find_critical_points("lovelock3-ads", d=7, k=-1, alpha2=1.0, alpha3=2.0, Q=0.0).points
+    assert ex.kind == "isolated"
+    ell = math.sqrt(DECIMAL_ISOLATED["alpha2"])   # the exact case has ell = 1
+    assert rel(cp.r / ell, ex.r) < 1e-9 and rel(cp.T * ell, ex.T) < 1e-9
+    assert rel(cp.P * ell**2, ex.P) < 1e-9
+    # the note and the structured record of the nearby exact system
+    eps = _condition_defect(DECIMAL_ISOLATED["alpha2"], DECIMAL_ISOLATED["alpha3"])
+    assert 0 < abs(eps) < 8 * 2.0**-53       # a few roundings (derived above, binary values)
+    ROUNDING_TOLERANCE = critical.ROUNDING_TOLERANCE
+    near = cp.nearby_system
+    assert near["tolerance"] == ROUNDING_TOLERANCE
+    assert near["relative_distance"] == pytest.approx(2 * abs(eps) / 5, rel=1e-6)
+    assert near["relative_shifts"]["alpha2"] == pytest.approx(-2 * eps / 5, rel=1e-6)
+    assert near["relative_shifts"]["alpha3"] == pytest.approx(eps / 5, rel=1e-6)
+    assert "isolated critical point" in cp.note and f"{near['relative_distance']:.1e}" in cp.note
+    assert f"{ROUNDING_TOLERANCE:.1e}" in cp.note
+    assert "1 solution(s) of the critical conditions, 1 physical critical point(s)" in s.message
+    assert "WARNING" not in s.message
+
+
+@pytest.mark.parametrize("d, a2", [(7, math.sqrt(3) / 12), (8, 0.3), (9, 0.05), (10, 0.123)])
+def test_isolated_point_from_float_computed_couplings(d, a2):
+    """alpha3 computed in floating point from DKKM14's condition alpha~3 = alpha~2^2/3 (a short
+    chain of roundings, whichever side of the condition it lands): one isolated, physical,
+    converged point equal to the closed form derived in models/lovelock3_ads.py (DKKM14,
+    k = -1, Q = 0): r_c = alpha~2^(1/2), T_c = 1/(2 pi r_c), P_c = (d-1)(d-2)/(48 pi alpha~2), to
+    1e-9 relative, with the couplings' distance from the condition within the stated tolerance."""
+    from chemistry import critical
+    a3 = fine_tuned_alpha3(d, a2)
+    s = critical.find_critical_points("lovelock3-ads", d=d, k=-1, alpha2=a2, alpha3=a3, Q=0.0)
+    (cp,) = s.points
+    assert (cp.kind, cp.physical, cp.converged) == ("isolated", True, True)
+    t2, _ = tilde(d, a2, a3)
+    rc = math.sqrt(t2)
+    assert rel(cp.r, rc) < 1e-9 and rel(cp.T, 1 / (2 * math.pi * rc)) < 1e-9
+    assert rel(cp.P, (d - 1) * (d - 2) / (48 * math.pi * t2)) < 1e-9
+    if cp.nearby_system is not None:   # None when the binary values meet the condition exactly
+        assert cp.nearby_system["relative_distance"] <= critical.ROUNDING_TOLERANCE
+    assert s.physical == (cp,)
+
+
+@pytest.mark.parametrize("factor", [1.1, 0.9])
+def test_clearly_off_couplings_have_no_isolated_point(factor):
+    """alpha3 10% away from DKKM14's condition: no isolated critical point and no nearby-system note.
+    (Above the condition the hyperbolic isotherms carry two standard critical points, below none;
+    checked here only as: every reported point is converged and standard, as the header says.)"""
+    from chemistry.critical import find_critical_points
+    values = dict(DECIMAL_ISOLATED, alpha3=factor * DECIMAL_ISOLATED["alpha3"])
+    s = find_critical_points("lovelock3-ads", **values)
+    assert s.converged
+    assert all(cp.kind != "isolated" and cp.nearby_system is None for cp in s.points)
+    assert all(cp.kind == "standard" and cp.converged for cp in s.points)
+    n_phys = sum(cp.physical for cp in s.points)
+    assert f"{len(s.points)} solution(s) of the critical conditions, {n_phys} physical" in s.message
+    assert len(s.physical) == n_phys
+
+
+@pytest.mark.parametrize("alpha3", [0.041666666666666664, 0.04166666667, 0.04583333333333334,
+                                    0.0375, 2 * 0.14433756729740643**2])
+def test_header_and_points_agree_text_and_json(capsys, alpha3):
+    """Whatever the couplings, the header's count of physical critical points is the number of
+    points that are physical, not degenerate and converged, and the text labels say which; a point
+    whose residuals exceed the promised bound is never labelled as a converged critical point
+    (common practice: a report must not contradict itself)."""
+    import json
+    import re
+    from chemistry.cli import main
+    from chemistry.critical import RESIDUAL_TOLERANCE
+    args = ["critical", "lovelock3-ads", "-p",
+            f"d=7,k=-1,alpha2=0.14433756729740643,alpha3={alpha3!r},Q=0"]
+    assert main(args + ["--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert main(args) == 0
+    text = capsys.readouterr().out
+    pts = doc["critical_points"]
+    ok = [max(p["residuals"].values()) <= RESIDUAL_TOLERANCE for p in pts]
+    counted = [p for p, c in zip(pts, ok) if p["physical"] and p["kind"] != "degenerate" and c]
+    m = re.search(r"(\d+) solution\(s\) of the critical conditions, (\d+) physical critical", text)
+    assert m and int(m.group(1)) == len(pts) and int(m.group(2)) == len(counted)
+    assert doc["message"] in text
+    labels = re.findall(r"^  \[\d+\] (.*)$", text, flags=re.M)
+    assert len(labels) == len(pts)
+    for label, p, c in zip(labels, pts, ok):
+        assert label.startswith(f"{p['kind']}, physical") == (p in counted)
+        assert label.startswith("NOT CONVERGED") == (not c)
+    assert doc["converged"] == all(ok)
+    assert ("WARNING" in doc["message"]) == (not doc["converged"])
+    assert [p["converged"] for p in pts] == ok
+    for p in pts:
+        if p["note"]:
+            assert f"note: {p['note']}" in text

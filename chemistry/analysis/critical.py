@@ -28,6 +28,20 @@ born or dies (a fold), and each fold is refined by a damped 2D Newton solve in
 (log x, log P).  Completeness is relative to the scanned range, which is
 reported.
 
+*Couplings typed as decimals.*  An isolated critical point needs the couplings
+on a hypersurface of parameter space (the two x-derivatives u' and w' of the
+isotherm P = T u(x) - w(x) share a root); couplings typed as decimals reach it
+only to within the rounding of the input, and the eliminated polynomial then
+has a cluster of nearly coincident roots (or none) where T(x, P) is nearly
+0/0.  Whenever u' and w' have a nearly common positive root, the couplings are
+moved onto the nearest such hypersurface (Gauss-Newton with the relative
+shifts of the continuous, non-zero parameters, least Euclidean norm at each
+step); if the largest relative shift is within ROUNDING_TOLERANCE the isolated
+critical point of that nearby exact system is reported instead of the cluster,
+with the shifts stated (``nearby_system`` and ``note``).  Farther away the
+couplings are solved as given and the points of the cluster say how far the
+nearby isolated point is.
+
 Each point is classified: *isolated* when the mixed derivative
 :math:`\partial^2 P/\partial T\partial v \propto T_{xP}` also vanishes;
 *standard* when a pair of extrema of T(x) appears on one side of P_c and not on
@@ -37,8 +51,10 @@ forms: not a critical point in the thermodynamic sense, and reported as such).
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, field
+import threading
+from dataclasses import asdict, dataclass, field, replace
 
+import mpmath as mp
 import numpy as np
 import sympy as sp
 
@@ -50,6 +66,15 @@ from bhchem.conventions import convention_record
 RESIDUAL_TOLERANCE = 1e-9
 #: |x T_xP / T_P| below this makes a point 'isolated'
 ISOLATED_TOLERANCE = 1e-7
+#: largest relative shift of the couplings onto an exact system with an isolated critical
+#: point that is attributed to the rounding of the input: a typed decimal becomes the nearest
+#: double (relative error <= 2^-53); 64 such units cover a value computed by a short chain of
+#: floating-point operations or typed with 16 significant digits
+ROUNDING_TOLERANCE = 64 * 2.0**-53
+#: a nearly common root of u' and w' farther than this (relative shift) is not looked at
+NEAR_CONDITION_LIMIT = 1e-6
+#: working precision (decimal digits) of the projection onto the nearby exact system
+_DPS = 60
 
 
 @dataclass(frozen=True)
@@ -75,10 +100,20 @@ class CriticalPoint:
         ``bhchem critical`` and the report do); None otherwise, and always None for
         degenerate or unphysical points.
     residuals : dict
-        Relative residuals x T_x / T and x^2 T_xx / T at the point.
+        Relative residuals x T_x / T and x^2 T_xx / T at the point (for an
+        isolated point, x P_x / P and x^2 P_xx / P on the isotherm, 60 digits).
     scale_free : dict
         Dimensionless combinations (e.g. 'P_c*Q^2'), from the declared length
         dimensions.
+    converged : bool
+        Every residual is within RESIDUAL_TOLERANCE.  A point that is not
+        converged is reported, flagged, and never counted as a critical point.
+    note : str
+        One line on anything special (domain boundary, nearby exact system).
+    nearby_system : dict or None
+        For an isolated point of a nearby exact system (couplings typed as
+        decimals): {'relative_distance': max_q |dq/q|, 'tolerance':
+        ROUNDING_TOLERANCE, 'relative_shifts': {q: dq/q}}; otherwise None.
     """
 
     T: float
@@ -94,6 +129,8 @@ class CriticalPoint:
     scale_free: dict
     on_preferred_branch: bool | None = None
     note: str = ""
+    converged: bool = True
+    nearby_system: dict | None = None
 
     def to_dict(self) -> dict:
         return asdict(self)
@@ -130,8 +167,15 @@ class CriticalSearch:
 
     @property
     def physical(self) -> tuple:
-        """Physical, non-degenerate critical points."""
-        return tuple(p for p in self.points if p.physical and p.kind != "degenerate")
+        """Physical, non-degenerate, converged critical points (the ones the message counts)."""
+        return tuple(p for p in self.points if counts_as_critical_point(p))
+
+
+def counts_as_critical_point(cp: CriticalPoint) -> bool:
+    """Whether a solution of the critical conditions is a physical critical point: in the
+    physical domain, not degenerate (a loop forms) and converged (residuals within
+    RESIDUAL_TOLERANCE).  The search message counts exactly these."""
+    return bool(cp.physical and cp.kind != "degenerate" and cp.converged)
 
 
 # -- entry point -------------------------------------------------------------------
@@ -197,15 +241,15 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
             raise ValueError(f"family {th.family.name}: the critical conditions do not reduce "
                              f"to a polynomial; use method='scanned'")
     if poly is not None:
-        candidates, note = poly
-        exact_T = {(c[0], c[1]): (c[2], c[3]) for c in candidates}
-        candidates = [(c[0], c[1]) for c in candidates]
+        found, note, remarks = poly
+        exact = {(c.x, c.P): c for c in found}
+        candidates = [(c.x, c.P) for c in found]
         completeness, scanned = "certified", None
         method_text = ("exact elimination of P, real-root isolation of the resulting "
                        "polynomial in " + th.derivation.state.name + note)
     else:
         candidates, scanned = _scanned_candidates(th, pressure_range, state_range)
-        exact_T = {}
+        exact, remarks = {}, []
         completeness = "scanned"
         method_text = ("fold detection of the extrema of T(x) over a logarithmic (x, P) "
                        "grid, refined by 2D Newton")
@@ -215,18 +259,31 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
         others = [(x, p) for j, (x, p) in enumerate(candidates) if j != i]
         gap_P = min((abs(p / P_c - 1) for _, p in others), default=1.0)
         gap_x = min((abs(math.log(x / x_c)) for x, _ in others if x > 0), default=1.0)
-        T_known, isolated = exact_T.get((x_c, P_c), (None, False))
-        cp = _assemble(th, x_c, P_c, gap_P, gap_x, T_known, isolated)
+        cp = _assemble(th, x_c, P_c, gap_P, gap_x, exact.get((x_c, P_c)))
         if cp is not None and not any(_same(cp, q) for q in points):
             points.append(cp)
     points.sort(key=lambda p: (p.P, p.x))
-    converged = all(max(p.residuals.values()) <= RESIDUAL_TOLERANCE for p in points)
-    n_phys = sum(1 for p in points if p.physical and p.kind != "degenerate")
-    msg = (f"{len(points)} solution(s) of the critical conditions, {n_phys} physical "
-           f"critical point(s); complete: {completeness}")
+    converged = all(p.converged for p in points)
+    msg = (f"{len(points)} solution(s) of the critical conditions, "
+           f"{sum(counts_as_critical_point(p) for p in points)} physical "
+           f"critical point(s)")
+    # every solution not counted, under the first reason that applies (disjoint counts)
+    reasons = [f"not converged (residuals above {RESIDUAL_TOLERANCE:.0e})",
+               "degenerate (no loop forms: not a critical point)", "outside the physical domain"]
+    left_out = dict.fromkeys(reasons, 0)
+    for p in points:
+        if not counts_as_critical_point(p):
+            left_out[reasons[0] if not p.converged else
+                     reasons[1] if p.kind == "degenerate" else reasons[2]] += 1
+    if any(left_out.values()):
+        msg += " (not counted: " + ", ".join(f"{n} {why}" for why, n in left_out.items()
+                                              if n) + ")"
+    msg += f"; complete: {completeness}"
     if scanned:
         msg += (f" over {th.derivation.state.name} in [{scanned['x'][0]:.3g}, "
                 f"{scanned['x'][1]:.3g}], P in [{scanned['P'][0]:.3g}, {scanned['P'][1]:.3g}]")
+    for remark in remarks:
+        msg += f"; note: {remark}"
     if not converged:
         msg += "; WARNING: some residuals exceed the tolerance"
     return CriticalSearch(family=th.family.name, parameters=dict(th.values),
@@ -244,9 +301,15 @@ def _exact(value: float) -> sp.Rational:
     return sp.Rational(float(value))  # the exact binary value of the float
 
 
-def _isotherm_form(th: Thermodynamics):
-    """(u, w, x) with P(T, x) = T u(x) - w(x) at the bound parameter values (exact
-    rationals), or None when T is not linear in P or u, w are not rational in x."""
+def isotherm_form(th: Thermodynamics):
+    """The isotherm P(T, x) = T u(x) - w(x) at the bound parameter values.
+
+    Returns
+    -------
+    (u, w, x) or None
+        u = 1/B, w = A/B for T = A(x) + B(x) P (exact rationals for the parameter
+        values), or None when T is not linear in P or u, w are not rational in x.
+    """
     der = th.derivation
     if der.eos.form == "parametric":
         return None
@@ -267,14 +330,62 @@ def _isotherm_form(th: Thermodynamics):
     return u, w, x
 
 
+_isotherm_form = isotherm_form  # the name other modules used before it was public
+
+
+def _positive_roots(expr, x, with_multiplicity: bool = False) -> list:
+    """All positive real roots of a polynomial in x (coefficients rounded to 60 digits),
+    isolated exactly and refined to relative width 1e-30, as rationals; a repeated root
+    is returned once (with its multiplicity, from the square-free decomposition, when
+    ``with_multiplicity``)."""
+    expr = sp.expand(expr)
+    if expr == 0:
+        return []
+    poly = sp.Poly(expr, x)
+    if poly.degree() < 1:
+        return []
+    coeffs = [sp.Rational(sp.Float(c.evalf(_DPS), _DPS)) for c in poly.all_coeffs()]
+    out = []
+    # square-free factors are pairwise coprime: each root belongs to exactly one
+    for factor, mult in sp.Poly(coeffs, x, domain=sp.QQ).sqf_list()[1]:
+        for (lo, hi), _ in factor.intervals():
+            if hi <= 0:
+                continue
+            lo, hi = factor.refine_root(lo, hi,
+                                        eps=max(abs(hi), abs(lo)) * sp.Rational(1, 10**30))
+            xr = (lo + hi) / 2
+            if xr > 0:
+                out.append((xr, mult))
+    out.sort()
+    return out if with_multiplicity else [xr for xr, _ in out]
+
+
+@dataclass(frozen=True)
+class _Candidate:
+    """A solution of the eliminated system: x_c, P_c, the exact T_c (60 digits, rounded),
+    whether u' = w' = 0 there (isolated), the multiplicity of x_c as a root of the
+    critical polynomial, a note and the nearby exact system (see CriticalPoint)."""
+
+    x: float
+    P: float
+    T: float
+    isolated: bool = False
+    multiplicity: int = 1
+    note: str = ""
+    nearby: dict | None = None
+
+
 def _certified_candidates(th: Thermodynamics):
-    """Candidates (x_c, P_c, T_c, isolated) from exact elimination, or None.
+    """Candidates (a list of _Candidate) from exact elimination, a note on the method and
+    remarks for the search message (a nearby isolated point no solution stands for);
+    or None.
 
     On the isotherm P(T, x) = T u(x) - w(x) (regular even where T(x, P) has a removable
     singularity, as at an isolated critical point), P_x = P_xx = 0 gives
     T u' = w', T u'' = w''; eliminating T leaves num(u'' w' - u' w'') = 0.  Where u' = 0
     (the mixed derivative d2P/dT dx vanishes) a solution needs w' = 0 too and then
-    T = w''/u'': an isolated critical point.
+    T = w''/u'': an isolated critical point.  Couplings within the rounding of the
+    input of such a system get its isolated point (:func:`_nearby_isolated_points`).
     """
     form = _isotherm_form(th)
     if form is None:
@@ -285,19 +396,9 @@ def _certified_candidates(th: Thermodynamics):
     num, den = sp.fraction(sp.cancel(sp.together(u2 * w1 - u1 * w2)))
     num = sp.expand(num)
     if num == 0:
-        return [], " (the conditions hold identically in x: no isolated solution)"
-    poly = sp.Poly(num, x)
-    coeffs = [sp.Rational(sp.Float(c.evalf(60), 60)) for c in poly.all_coeffs()]
-    # the square-free part: a repeated root (a degenerate solution) is isolated once
-    qpoly = sp.Poly(coeffs, x, domain=sp.QQ).sqf_part()
+        return [], " (the conditions hold identically in x: no isolated solution)", []
     out = []
-    for (lo, hi), _mult in qpoly.intervals():
-        if hi <= 0:
-            continue
-        lo, hi = qpoly.refine_root(lo, hi, eps=max(abs(hi), abs(lo)) * sp.Rational(1, 10**30))
-        xr = (lo + hi) / 2
-        if xr <= 0:
-            continue
+    for xr, mult in _positive_roots(num, x, with_multiplicity=True):
         ev = lambda e: sp.N(e.subs(x, xr), 50)  # noqa: E731
         a1, b1 = ev(u1), ev(w1)
         scale_u = abs(ev(u)) / xr + abs(ev(u2)) * xr + sp.Float(1e-300)
@@ -316,8 +417,235 @@ def _certified_candidates(th: Thermodynamics):
         Pr = Tr * ev(u) - ev(w)
         if not (Tr.is_real and Pr.is_real):
             continue
-        out.append((float(xr), float(Pr), float(Tr), isolated))
-    return out, ""
+        out.append(_Candidate(float(xr), float(Pr), float(Tr), isolated, mult))
+    sym = _symbolic_isotherm(th.derivation)
+    remarks = []
+    if sym is None:
+        return out, "", remarks
+    for near in _nearby_isolated_points(th, sym):
+        if any(c.isolated and abs(c.x / near.x - 1) <= 1e-9 for c in out):
+            continue  # the couplings as given are exact: found above
+        cluster = [c for c in out if abs(c.x / near.x - 1) <= 4 * near.radius]
+        shifts = ", ".join(f"{k} {v:+.1e}" for k, v in near.shifts.items())
+        name = x.name
+        if near.distance <= ROUNDING_TOLERANCE:
+            out = [c for c in out if c not in cluster]
+            note = (f"isolated critical point of the nearby exact system: the couplings as "
+                    f"given miss its condition (d/d{name} of both u and w in P = T u({name}) "
+                    f"- w({name}) vanish at one {name}) by {near.distance:.1e} relative "
+                    f"({shifts}), within the rounding of the input (tolerance "
+                    f"{ROUNDING_TOLERANCE:.1e})")
+            if cluster:
+                note += (f"; it replaces {len(cluster)} nearly coincident solution(s) of the "
+                         f"couplings as given")
+            nearby = {"relative_distance": near.distance, "tolerance": ROUNDING_TOLERANCE,
+                      "relative_shifts": dict(near.shifts)}
+            out.append(_Candidate(near.x, near.P, near.T, True, note=note, nearby=nearby))
+        else:
+            note = (f"the couplings are {near.distance:.1e} (relative: {shifts}) from an exact "
+                    f"system with an isolated critical point at {name} = {near.x:.6g}, beyond "
+                    f"the rounding of the input (tolerance {ROUNDING_TOLERANCE:.1e}): solved as "
+                    f"given")
+            out = [replace(c, note=note) if c in cluster else c for c in out]
+            if not cluster:
+                remarks.append(note)
+    return out, "", remarks
+
+
+# -- couplings typed as decimals: the nearby exact system with an isolated point ------
+@dataclass(frozen=True)
+class _SymbolicIsotherm:
+    """u, w of P = T u(x) - w(x) with the continuous parameters kept as symbols, the
+    numerators U, W of u', w' and of the critical polynomial N, compiled for mpmath."""
+
+    x: sp.Symbol
+    params: tuple
+    U: sp.Expr
+    W: sp.Expr
+    N: sp.Expr
+    fn: dict
+
+
+_SYMBOLIC: dict = {}
+#: mpmath's working precision is global: searches in threads take turns in the projection
+_MP_LOCK = threading.Lock()
+
+
+def _symbolic_isotherm(der) -> _SymbolicIsotherm | None:
+    """Built once per derivation (parameter-independent)."""
+    hit = _SYMBOLIC.get(id(der))
+    if hit is not None and hit[0] is der:
+        return hit[1]
+    result = _build_symbolic_isotherm(der)
+    _SYMBOLIC[id(der)] = (der, result)
+    return result
+
+
+def _abs_terms(expr) -> sp.Expr:
+    """Sum of |term| over the expanded terms: the scale that rounding errors of expr
+    are relative to."""
+    return sp.Add(*[sp.Abs(t) for t in sp.Add.make_args(sp.expand(expr))])
+
+
+def _build_symbolic_isotherm(der) -> _SymbolicIsotherm | None:
+    if der.eos.form == "parametric" or not der.parameters:
+        return None
+    x, P = der.state, sy.P
+    T = sp.sympify(der.quantities["T"])
+    B = sp.diff(T, P)
+    if B == 0 or sp.diff(B, P) != 0:
+        return None
+    A = sp.expand(T - B * P)
+    u, w = sp.cancel(1 / B), sp.cancel(A / B)
+    try:
+        if not (u.is_rational_function(x) and w.is_rational_function(x)):
+            return None
+    except (TypeError, ValueError):
+        return None
+    U, DU = sp.fraction(sp.cancel(sp.diff(u, x)))
+    W, DW = sp.fraction(sp.cancel(sp.diff(w, x)))
+    N, _ = sp.fraction(sp.cancel(sp.together(sp.diff(u, x, 2) * sp.diff(w, x)
+                                             - sp.diff(u, x) * sp.diff(w, x, 2))))
+    U, W, N = sp.expand(U), sp.expand(W), sp.expand(N)
+    if U == 0 or W == 0 or N == 0:
+        return None
+    params = tuple(der.parameters)
+    args = (x,) + params
+
+    def lam(e):
+        return sp.lambdify(args, e, modules="mpmath")
+
+    fn = {"U": lam(U), "W": lam(W), "|U|": lam(_abs_terms(U)), "|W|": lam(_abs_terms(W)),
+          "U_x": lam(sp.diff(U, x)), "W_x": lam(sp.diff(W, x)),
+          "U_p": [lam(sp.diff(U, q)) for q in params], "W_p": [lam(sp.diff(W, q)) for q in params],
+          "DU": lam(DU), "|DU|": lam(_abs_terms(DU)), "DW": lam(DW), "|DW|": lam(_abs_terms(DW)),
+          "u": lam(u), "w": lam(w), "u2": lam(sp.diff(u, x, 2)), "w2": lam(sp.diff(w, x, 2)),
+          "N": lam(N), "|N|": lam(_abs_terms(N)), "N_k": {}}
+    return _SymbolicIsotherm(x=x, params=params, U=U, W=W, N=N, fn=fn)
+
+
+def _n_derivative(sym: _SymbolicIsotherm, k: int):
+    """d^k N/dx^k, compiled on first use."""
+    if k not in sym.fn["N_k"]:
+        sym.fn["N_k"][k] = sp.lambdify((sym.x,) + sym.params, sp.diff(sym.N, sym.x, k),
+                                       modules="mpmath")
+    return sym.fn["N_k"][k]
+
+
+@dataclass(frozen=True)
+class _NearbyIsolated:
+    x: float
+    T: float
+    P: float
+    shifts: dict       # parameter -> relative shift dq/q onto the exact system
+    distance: float    # max |dq/q|
+    radius: float      # relative distance from x within which the roots of N are its copies
+
+
+def _project_onto_isolated(sym: _SymbolicIsotherm, x0, p0: list, max_iter: int = 40):
+    """Move (x, couplings) from (x0, p0) onto U(x; p) = W(x; p) = 0.
+
+    Unknowns s = log x and the relative shifts e_q (q -> q (1 + e_q)) of the parameters
+    with a non-zero value; equations f = (U/|U|, W/|W|) (|.| the sum of the absolute
+    terms).  Each Gauss-Newton step eliminates ds (x is free) through the normal n of
+    the column J_s and takes the de of least Euclidean norm: de = -(n.f) h/|h|^2 with
+    h = J_e^T n, then ds from J_s ds = -f - J_e de.  Returns (x, p, e) or None when the
+    shift leaves NEAR_CONDITION_LIMIT or the iteration does not reach |f| < 1e-45 in
+    ``max_iter`` steps (mpmath at _DPS digits; call inside mp.workdps)."""
+    fn = sym.fn
+    free = [j for j, q in enumerate(p0) if q != 0]
+    e = [mp.mpf(0)] * len(p0)
+    s = mp.log(x0)
+    for _ in range(max_iter):
+        x = mp.exp(s)
+        p = [q * (1 + ej) for q, ej in zip(p0, e)]
+        sU, sW = fn["|U|"](x, *p), fn["|W|"](x, *p)
+        if sU == 0 or sW == 0:
+            return None
+        f = [fn["U"](x, *p) / sU, fn["W"](x, *p) / sW]
+        if max(abs(f[0]), abs(f[1])) < mp.mpf(10) ** (-45):
+            return x, p, e
+        Js = [x * fn["U_x"](x, *p) / sU, x * fn["W_x"](x, *p) / sW]
+        Je = [[p0[j] * fn["U_p"][j](x, *p) / sU for j in free],
+              [p0[j] * fn["W_p"][j](x, *p) / sW for j in free]]
+        n = [Js[1], -Js[0]]
+        h = [n[0] * Je[0][i] + n[1] * Je[1][i] for i in range(len(free))]
+        hh = sum(v * v for v in h)
+        JJ = Js[0] ** 2 + Js[1] ** 2
+        if hh == 0 or JJ == 0:
+            return None
+        g = n[0] * f[0] + n[1] * f[1]
+        de = [-g * v / hh for v in h]
+        rhs = [-f[r] - sum(Je[r][i] * de[i] for i in range(len(free))) for r in (0, 1)]
+        s += (Js[0] * rhs[0] + Js[1] * rhs[1]) / JJ
+        for i, j in enumerate(free):
+            e[j] += de[i]
+        if max((abs(v) for v in e), default=0) > NEAR_CONDITION_LIMIT:
+            return None
+    return None
+
+
+def _nearby_isolated_points(th: Thermodynamics, sym: _SymbolicIsotherm) -> list:
+    """Exact systems with an isolated critical point within NEAR_CONDITION_LIMIT
+    (largest relative shift of the couplings) of the given one.
+
+    Seeds are the positive real roots of U = num(u') and W = num(w') at the given
+    (binary) values; each is projected by :func:`_project_onto_isolated`.  At the
+    projected system T_c = w''/u'' and P_c = T_c u - w at x_c.  The critical polynomial
+    N of that system has a root of some multiplicity m at x_c; under the shift back to
+    the given couplings its copies move to relative distance (|N(x_c)| / |c_m|)^(1/m)
+    (to leading order), c_m = x_c^m N^(m)(x_c)/m! of the exact system: that is
+    ``radius``."""
+    x = sym.x
+    names = [q.name for q in sym.params]
+    exact = {q: _exact(th.values[q.name]) for q in sym.params}
+    deg = sp.Poly(sym.N, x).degree()
+    found = []
+    with _MP_LOCK, mp.workdps(_DPS):
+        p0 = [mp.mpf(float(th.values[nm])) for nm in names]
+        seeds = _positive_roots(sym.U.subs(exact), x) + _positive_roots(sym.W.subs(exact), x)
+        for seed in seeds:
+            x0 = mp.mpf(seed.p) / seed.q
+            if any(abs(x0 / nb.x - 1) < 1e-12 for nb in found):
+                continue
+            proj = _project_onto_isolated(sym, x0, p0)
+            if proj is None:
+                continue
+            xc, p, e = proj
+            if any(abs(xc / nb.x - 1) < 1e-12 for nb in found):
+                continue  # the same exact system reached from another seed
+            fn = sym.fn
+            # a pole of u' or w' is not a root of the critical conditions
+            if (abs(fn["DU"](xc, *p)) <= mp.mpf(10) ** -30 * fn["|DU|"](xc, *p)
+                    or abs(fn["DW"](xc, *p)) <= mp.mpf(10) ** -30 * fn["|DW|"](xc, *p)):
+                continue
+            uv, wv = fn["u"](xc, *p), fn["w"](xc, *p)
+            u2, w2 = fn["u2"](xc, *p), fn["w2"](xc, *p)
+            if u2 == 0 or abs(u2) * xc**2 <= mp.mpf(10) ** -30 * abs(uv):
+                continue  # u'' = 0 too: P_xx = 0 does not fix T
+            Tc = w2 / u2
+            Pc = Tc * uv - wv
+            if not (mp.isfinite(Tc) and mp.isfinite(Pc)) or mp.im(Tc) != 0 or mp.im(Pc) != 0:
+                continue
+            # multiplicity m of x_c as a root of the exact system's N, and the radius
+            scale_N = fn["|N|"](xc, *p)
+            radius = None
+            for k in range(1, deg + 1):
+                ck = abs(_n_derivative(sym, k)(xc, *p)) * xc**k / mp.factorial(k)
+                if ck > mp.mpf(10) ** -30 * scale_N:
+                    radius = float((abs(fn["N"](xc, *p0)) / ck) ** (mp.mpf(1) / k))
+                    break
+            if radius is None:
+                # every Taylor coefficient of N vanishes: N = 0 identically for the exact
+                # system, whose conditions then hold along the whole isotherm T_c (a flat
+                # isotherm, not an isolated point)
+                continue
+            shifts = {names[j]: float(e[j]) for j in range(len(names)) if p0[j] != 0}
+            found.append(_NearbyIsolated(
+                x=float(xc), T=float(Tc), P=float(Pc), shifts=shifts,
+                distance=max((abs(v) for v in shifts.values()), default=0.0),
+                radius=radius))
+    return found
 
 
 # -- scanned path --------------------------------------------------------------------
@@ -454,6 +782,23 @@ def _isotherm_residuals(th: Thermodynamics, x_c: float, P_c: float, T_c: float) 
     return {"x*dP/dx/P": float(r1), "x^2*d2P/dx2/P": float(r2)}
 
 
+def _critical_isotherm_neighbours(th: Thermodynamics, x_c: float, T_c: float) -> list:
+    """States (x, P) on the isotherm T = T_c at x = x_c (1 +- 1e-5), (1 +- 1e-6), with
+    P = T_c u(x) - w(x) at 40 digits; [] without a rational isotherm form.  At an
+    isolated point T(x, P) is 0/0 and every isotherm passes through (x_c, P_c), so the
+    states next to it at P_c itself need not lie on its own isotherm."""
+    form = _isotherm_form(th)
+    if form is None:
+        return []
+    u, w, x = form
+    Tr = sp.Rational(T_c)
+    out = []
+    for eps in (1e-5, -1e-5, 1e-6, -1e-6):
+        xx = x_c * (1 + eps)
+        out.append((xx, float(sp.N((Tr * u - w).subs(x, sp.Rational(xx)), 40))))
+    return out
+
+
 def _count_extrema(th: Thermodynamics, x_c: float, P: float, half_width: float = 0.7) -> int:
     xs = x_c * np.exp(np.linspace(-half_width, half_width, 20001))
     F = th.d("T", "x", xs, P)
@@ -480,9 +825,21 @@ def _classify(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
 
 
 def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
-              gap_x: float = 1.0, T_known=None, isolated: bool = False) -> CriticalPoint | None:
+              gap_x: float = 1.0, exact: _Candidate | None = None) -> CriticalPoint | None:
+    """The critical point at (x_c, P_c): T, v, r, G, kind, physical flag, residuals.
+
+    ``exact`` is the certified path's record (exact T_c, isolated flag, multiplicity,
+    note).  Where the compiled T(x, P) is too ill-conditioned for the residual bound
+    (near a removable singularity, T = (P + w)/u with u nearly 0), the residuals are
+    taken on the isotherm P = T u(x) - w(x) at 60 digits instead, and the kind from the
+    multiplicity m of the root of the critical polynomial N: with tau(x) = w'/u' the
+    spinodal temperature, tau' = -N/(den u'^2), so tau has an extremum (a loop forms
+    on one side of T_c: 'standard') exactly when m is odd, and 'degenerate' when m is
+    even (derived here from P_x = T u' - w')."""
     if not (np.isfinite(x_c) and np.isfinite(P_c)) or x_c <= 0:
         return None
+    T_known = exact.T if exact is not None else None
+    isolated = exact.isolated if exact is not None else False
     T_c = float(th.T(x_c, P_c))
     G_c = float(th.G(x_c, P_c))
     # an isolated critical point sits on a removable singularity of T(x, P): the compiled
@@ -498,14 +855,27 @@ def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
     r_c = float(th.quantity("r_plus", x_c, P_c)) if th.has("r_plus") else None
     ratio = P_c * v_c / T_c if (v_c is not None and T_c != 0) else None
     if singular:
-        # the compiled functions are 0/0 here: judge the domain just beside the point
-        physical = bool(T_c > 0 and P_c > 0 and th.physical(x_c * (1 + 1e-6), P_c))
+        # the compiled functions are 0/0 here: judge the domain just beside the point, on
+        # its critical isotherm when there is one (the states the point is the limit of)
+        beside = _critical_isotherm_neighbours(th, x_c, T_c) or [(x_c * (1 + 1e-6), P_c)]
+        physical = bool(T_c > 0 and P_c > 0
+                        and any(bool(th.physical(xx, pp)) for xx, pp in beside))
         kind = "isolated" if isolated else "degenerate"
         residuals = _isotherm_residuals(th, x_c, P_c, T_c)
     else:
         physical = bool(T_c > 0 and P_c > 0 and th.physical(x_c, P_c))
         kind = "isolated" if isolated else _classify(th, x_c, P_c, gap_P, gap_x)
         residuals = _residuals(th, x_c, P_c)
+    notes = [exact.note] if exact is not None and exact.note else []
+    if (exact is not None and not singular
+            and not all(float(v) <= RESIDUAL_TOLERANCE for v in residuals.values())):
+        precise = _isotherm_residuals(th, x_c, P_c, T_c)
+        if all(v <= RESIDUAL_TOLERANCE for v in precise.values()):
+            residuals = precise
+            kind = "standard" if exact.multiplicity % 2 else "degenerate"
+            notes.append(f"T({th.derivation.state.name}, P) is ill-conditioned here: residuals "
+                         f"on the isotherm at 60 digits, kind from the root multiplicity "
+                         f"{exact.multiplicity}")
     note = ""
     if not physical and T_c > 0 and P_c > 0:
         # a point on the edge of the declared domain (a condition holding with equality,
@@ -515,8 +885,12 @@ def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
         if any(bool(th.physical(xx, pp)) for xx, pp in near):
             physical = True
             note = "on the boundary of the declared physical domain"
+    converged = all(float(v) <= RESIDUAL_TOLERANCE for v in residuals.values())
+    note = "; ".join(notes + ([note] if note else []))
     cp = CriticalPoint(T=T_c, P=P_c, v=v_c, x=x_c, r=r_c, G=G_c, ratio=ratio, kind=kind,
-                       physical=physical, residuals=residuals, scale_free={}, note=note)
+                       physical=physical, residuals=residuals, scale_free={}, note=note,
+                       converged=converged,
+                       nearby_system=exact.nearby if exact is not None else None)
     object.__setattr__(cp, "scale_free", scale_free_values(th, cp))
     return cp
 

@@ -3,7 +3,7 @@
 JSON keys (a contract with external scripts): ``family``, ``parameters``,
 ``convention``, ``completeness``, ``method``, ``message``, ``critical_points``: a
 list of {``T``, ``P``, ``v``, ``r``, ``G``, ``ratio``, ``kind``, ``physical``,
-``scale_free``, ``residuals``, ...}; for ``exponents`` each point also has
+``scale_free``, ``residuals``, ``converged``, ``note``, ``nearby_system``, ...}; for ``exponents`` each point also has
 ``exponents`` {alpha, beta, gamma, delta} (exact, as fractions) and ``fitted``
 (the same keys, each {value, uncertainty, fit_range, note}).  No critical point is
 a result (an empty list), not an error.
@@ -31,10 +31,12 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
         d = cp.to_dict()
         d["state_variable"] = th.derivation.state.name
         if with_exponents:
-            if cp.kind == "degenerate" or not cp.physical:
+            if cp.kind == "degenerate" or not cp.physical or not cp.converged:
+                why = ("degenerate" if cp.kind == "degenerate" else
+                       "unphysical" if not cp.physical else "not converged")
                 d["exponents"] = None
                 d["fitted"] = None
-                d["exponents_note"] = f"not computed: the point is {'degenerate' if cp.kind == 'degenerate' else 'unphysical'}"
+                d["exponents_note"] = f"not computed: the point is {why}"
             else:
                 ex = critical_exponents(th, cp)
                 d["exponents"] = ex.exact
@@ -68,7 +70,12 @@ def critical_text(doc: dict) -> str:
         if cp.get("on_preferred_branch") is not None:
             flag += ", on the globally preferred branch" if cp["on_preferred_branch"] else \
                 ", NOT on the globally preferred branch (no transition ends here)"
-        lines.append(f"  [{i}] {cp['kind']}, {flag}")
+        label = f"{cp['kind']}, {flag}"
+        if cp["kind"] == "degenerate":
+            label = f"degenerate (no loop forms: not a critical point), state {flag}"
+        if not cp["converged"]:
+            label = f"NOT CONVERGED (residuals above the bound): {label}"
+        lines.append(f"  [{i}] {label}")
         lines.append(f"      T_c = {_g(cp['T'])}   P_c = {_g(cp['P'])}   v_c = {_g(cp['v'])}")
         state = "" if cp["state_variable"] == "r" else f"{cp['state_variable']}_c = {_g(cp['x'])}   "
         lines.append(f"      {state}r_c = {_g(cp['r'])}   "
@@ -79,6 +86,8 @@ def critical_text(doc: dict) -> str:
         res = ", ".join(f"{k} = {v:.1e}" if _finite(v) else f"{k} = not computed"
                         for k, v in cp["residuals"].items())
         lines.append(f"      residuals: {res}")
+        if cp["note"]:
+            lines.append(f"      note: {cp['note']}")
         if "exponents" in cp:
             if cp["exponents"] is None:
                 lines.append(f"      exponents: {cp['exponents_note']}")
