@@ -133,8 +133,8 @@ def _toy_family():
     iff c^2 = 4 a b^3 (an irrational c for most a, b: decimals can only approximate it).  Then
     P_xx = 0 fixes T_c = w''/u'' = (1/(8b^3)) / (3a/(4b^3)) = 1/(6a), and
     P_c = T_c u(2b) - w(2b) = (1 - 3a/(4b))/(6a) + 1/(4b) = 1/(6a) + 1/(8b), r_c = 2b."""
-    from chemistry import Domain, Family, Parameter
-    from chemistry.symbols import P, parameter_symbol, pi, r
+    from bhchem import Domain, Family, Parameter
+    from bhchem.declare.symbols import P, parameter_symbol, pi, r
     a, b, c = (parameter_symbol(n) for n in "abc")
     return Family(
         name="toy-isolated-point", summary="invented toy with an isolated critical point",
@@ -153,7 +153,7 @@ def test_decimal_couplings_isolated_point_generic(a, b):
     derived in _toy_family (r_c = 2b, T_c = 1/(6a), P_c = 1/(6a) + 1/(8b)) to 1e-9 relative,
     converged, with the distance of the couplings from c^2 = 4 a b^3 within the stated tolerance."""
     c = 2 * b * math.sqrt(a * b)
-    from chemistry import critical
+    from bhchem.analysis import critical
     s = critical.find_critical_points(bind(_toy_family(), a=a, b=b, c=c))
     (cp,) = s.points
     assert (cp.kind, cp.converged) == ("isolated", True)
@@ -172,7 +172,7 @@ def test_decimal_couplings_off_the_condition_generic(factor):
     toy: no isolated critical point is reported (derived in _toy_family: the condition is needed
     for u' and w' to vanish together); whatever is reported is converged, and a nearby isolated
     point beyond the tolerance is only mentioned (in the message or a point's note)."""
-    from chemistry import critical
+    from bhchem.analysis import critical
     a, b = 0.2, 0.5
     c = factor * 2 * b * math.sqrt(a * b)
     s = critical.find_critical_points(bind(_toy_family(), a=a, b=b, c=c))
@@ -189,8 +189,8 @@ def test_flat_critical_isotherm_is_not_an_isolated_point():
     together at r = 2b iff c = 2ab, and then u' = w' identically, so P = T u - w is constant
     along the isotherm T = 1 (every state of it solves P_x = P_xx = 0).  Couplings near c = 2ab
     must not be reported as an isolated critical point of a nearby system."""
-    from chemistry import Domain, Family, Parameter
-    from chemistry.symbols import P, parameter_symbol, pi, r
+    from bhchem import Domain, Family, Parameter
+    from bhchem.declare.symbols import P, parameter_symbol, pi, r
     a, b, c = (parameter_symbol(n) for n in "abc")
     fam = Family(name="toy-flat-isotherm", summary="invented toy: a flat critical isotherm",
                  reference="invented for this test (no paper)", dimension=4,

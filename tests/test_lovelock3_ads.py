@@ -285,7 +285,7 @@ def test_isolated_point_from_decimal_couplings():
     P_c = (d-1)(d-2)/(48 pi alpha~2) = 5/(8 sqrt(3) pi)) and to the exact-binary case alpha2 = 1,
     alpha3 = 2 rescaled by the length ell = alpha2^(1/2) (r ~ ell, T ~ 1/ell, P ~ 1/ell^2), all to
     1e-9 relative; the point names how far the couplings are from the condition."""
-    from chemistry import critical
+    from bhchem.analysis import critical
     s = critical.find_critical_points("lovelock3-ads", **DECIMAL_ISOLATED)
     assert s.completeness == "certified" and s.converged
     (cp,) = s.points
@@ -323,7 +323,7 @@ def test_isolated_point_from_float_computed_couplings(d, a2):
     converged point equal to the closed form derived in models/lovelock3_ads.py (DKKM14,
     k = -1, Q = 0): r_c = alpha~2^(1/2), T_c = 1/(2 pi r_c), P_c = (d-1)(d-2)/(48 pi alpha~2), to
     1e-9 relative, with the couplings' distance from the condition within the stated tolerance."""
-    from chemistry import critical
+    from bhchem.analysis import critical
     a3 = fine_tuned_alpha3(d, a2)
     s = critical.find_critical_points("lovelock3-ads", d=d, k=-1, alpha2=a2, alpha3=a3, Q=0.0)
     (cp,) = s.points
@@ -342,7 +342,7 @@ def test_clearly_off_couplings_have_no_isolated_point(factor):
     """alpha3 10% away from DKKM14's condition: no isolated critical point and no nearby-system note.
     (Above the condition the hyperbolic isotherms carry two standard critical points, below none;
     checked here only as: every reported point is converged and standard, as the header says.)"""
-    from chemistry.critical import find_critical_points
+    from bhchem.analysis.critical import find_critical_points
     values = dict(DECIMAL_ISOLATED, alpha3=factor * DECIMAL_ISOLATED["alpha3"])
     s = find_critical_points("lovelock3-ads", **values)
     assert s.converged
@@ -362,8 +362,8 @@ def test_header_and_points_agree_text_and_json(capsys, alpha3):
     (common practice: a report must not contradict itself)."""
     import json
     import re
-    from chemistry.cli import main
-    from chemistry.critical import RESIDUAL_TOLERANCE
+    from bhchem.cli.main import main
+    from bhchem.analysis.critical import RESIDUAL_TOLERANCE
     args = ["critical", "lovelock3-ads", "-p",
             f"d=7,k=-1,alpha2=0.14433756729740643,alpha3={alpha3!r},Q=0"]
     assert main(args + ["--json"]) == 0
