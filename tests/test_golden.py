@@ -33,7 +33,8 @@ FAMILIES = ("schwarzschild-ads", "rn-ads", "born-infeld-ads", "gauss-bonnet-ads"
 COMMANDS = ("show", "critical", "isobar", "phases")
 #: keys a 0.2 result may carry that 0.1 did not (intended additions)
 ADDED_KEYS = {"convention", "non_finite", "warnings", "admissibility", "excluded",
-              "ensemble", "topological_charge", "end_explanation", "polynomial"}
+              "ensemble", "topological_charge", "end_explanation", "polynomial",
+              "converged", "nearby_system", "note"}
 RTOL = 1e-9
 
 
