@@ -201,3 +201,23 @@ def test_flat_critical_isotherm_is_not_an_isolated_point():
         s = find_critical_points(bind(fam, a=av, b=bv, c=2 * av * bv))
         assert all(cp.kind != "isolated" for cp in s.points)
         assert "isolated critical point of the nearby exact system" not in s.message
+
+
+def test_unknown_method_raises_one_line():
+    """scipy-style: an unknown method is an error, never a silent other path."""
+    from bhchem.analysis.critical import CriticalMethodError, find_critical_points
+    from bhchem import BhchemError
+    with pytest.raises(CriticalMethodError, match="unknown method 'certifed'; choose one of"):
+        find_critical_points("rn-ads", method="certifed")
+    assert issubclass(CriticalMethodError, BhchemError) and issubclass(CriticalMethodError,
+                                                                          ValueError)
+
+
+def test_the_search_is_not_stored_on_the_bound_object():
+    """Results are cached beside the bound family, never as attributes added to it."""
+    from bhchem import bind, find_critical_points
+    th = bind("rn-ads", Q=1.0)
+    before = set(vars(th))
+    first = find_critical_points(th)
+    assert find_critical_points(th) is first          # cached ...
+    assert set(vars(th)) == before                   # ... without touching the object

@@ -92,15 +92,15 @@ def test_to_json_numpy_and_non_finite():
 def test_critical_point_api_carries_preferred_branch_like_the_json(capsys):
     """Kubiznak & Mann, JHEP 07 (2012) 033 (arXiv:1205.0559): the one critical point of
     4D charged AdS ends the small/large first-order line of the preferred phase."""
-    from bhchem.analysis.critical import find_critical_points
+    from bhchem.analysis.critical_branch import find_critical_points_on_branches
     th = bind("rn-ads", Q=1.0)
-    (cp,) = find_critical_points(th, preferred_branch=True).points
+    (cp,) = find_critical_points_on_branches(th).points
     assert cp.on_preferred_branch is True
     doc = run_json(capsys, ["critical", "rn-ads", "-p", "Q=1", "--json"])
     assert doc["critical_points"][0]["on_preferred_branch"] is True
     # T_c < 0 (lovelock3-ads, k = -1; Frassino, Kubiznak, Mann & Simovic 2014): not a
     # physical point, so it lies on no branch -- undecided by definition
-    s = find_critical_points(bind("lovelock3-ads", k=-1), preferred_branch=True)
+    s = find_critical_points_on_branches(bind("lovelock3-ads", k=-1))
     assert s.points and all(p.T < 0 and p.on_preferred_branch is None for p in s.points)
 
 

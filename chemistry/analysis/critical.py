@@ -52,6 +52,7 @@ from __future__ import annotations
 
 import math
 import threading
+import weakref
 from dataclasses import asdict, dataclass, field, replace
 
 import mpmath as mp
@@ -61,6 +62,7 @@ import sympy as sp
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics, bind
 from bhchem.conventions import convention_record
+from bhchem.errors import BhchemError
 
 #: relative residual of the critical conditions accepted for a point
 RESIDUAL_TOLERANCE = 1e-9
@@ -96,8 +98,8 @@ class CriticalPoint:
         Whether the point takes part in a transition of the globally preferred
         phase (:func:`bhchem.analysis.phases.takes_part_in_transition`: just off P_c the
         preferred phase has a first-order transition ending there).  Decided when the
-        search is asked to (``find_critical_points(..., preferred_branch=True)``, as
-        ``bhchem critical`` and the report do); None otherwise, and always None for
+        search is asked to (:func:`bhchem.analysis.critical_branch.find_critical_points_on_branches`,
+        as ``bhchem critical`` and the report do); None otherwise, and always None for
         degenerate or unphysical points.
     residuals : dict
         Relative residuals x T_x / T and x^2 T_xx / T at the point (for an
@@ -179,9 +181,19 @@ def counts_as_critical_point(cp: CriticalPoint) -> bool:
 
 
 # -- entry point -------------------------------------------------------------------
+class CriticalMethodError(BhchemError, ValueError):
+    """An unknown ``method``, or one that cannot be used for this family."""
+
+
+#: the default search of each bound family, kept while the bound object lives (isobars,
+#: figures and the phase diagram all ask for it); nothing is stored on the object itself
+_DEFAULT_SEARCHES: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+_DEFAULT_LOCK = threading.Lock()
+METHODS = ("auto", "certified", "scanned")
+
+
 def find_critical_points(family, method: str = "auto", *, pressure_range=None,
-                         state_range=None, preferred_branch: bool = False,
-                         **params) -> CriticalSearch:
+                         state_range=None, **params) -> CriticalSearch:
     """All critical points of a family at given parameters.
 
     Parameters
@@ -191,45 +203,35 @@ def find_critical_points(family, method: str = "auto", *, pressure_range=None,
         'auto' uses the certified elimination when the equation of state allows it.
     pressure_range, state_range : (float, float), optional
         Ranges for the scanned method (default: from the family's own scales).
-    preferred_branch : bool
-        Also decide ``on_preferred_branch`` for every point (the points of the result
-        are created with it).  This analyses the isobar just off each physical P_c
-        (:func:`bhchem.analysis.phases.takes_part_in_transition`), so it is off by default and
-        ``on_preferred_branch`` is then None.
     **params
         Parameter values (ignored when a Thermodynamics is passed).
+
+    Returns
+    -------
+    CriticalSearch
+        ``on_preferred_branch`` of its points is None: deciding it needs the phase
+        analysis (:func:`bhchem.analysis.critical_branch.find_critical_points_on_branches`).
+
+    Raises
+    ------
+    BhchemError
+        An unknown ``method``, or ``method='certified'`` for a family whose critical
+        conditions do not reduce to a polynomial (a ``ValueError`` too).
     """
+    if method not in METHODS:
+        raise CriticalMethodError(f"unknown method {method!r}; choose one of "
+                                  f"{', '.join(METHODS)}")
     th = family if isinstance(family, Thermodynamics) else bind(family, **params)
-    if preferred_branch:
-        return _with_preferred_branch(th, method, pressure_range, state_range)
     default = method == "auto" and pressure_range is None and state_range is None
     if default:
-        # one search per bound family: isobars, plots and the phase diagram all ask for it
-        cached = getattr(th, "_critical_search", None)
+        with _DEFAULT_LOCK:
+            cached = _DEFAULT_SEARCHES.get(th)
         if cached is not None:
             return cached
     result = _search(th, method, pressure_range, state_range)
     if default:
-        th._critical_search = result
-    return result
-
-
-def _with_preferred_branch(th, method, pressure_range, state_range) -> CriticalSearch:
-    """The search with every point created carrying ``on_preferred_branch``."""
-    from dataclasses import replace
-    from bhchem.analysis.phases import takes_part_in_transition
-    default = method == "auto" and pressure_range is None and state_range is None
-    if default:
-        cached = getattr(th, "_critical_search_preferred", None)
-        if cached is not None:
-            return cached
-    base = find_critical_points(th, method, pressure_range=pressure_range,
-                                state_range=state_range)
-    points = tuple(replace(cp, on_preferred_branch=takes_part_in_transition(th, cp))
-                   for cp in base.points)
-    result = replace(base, points=points)
-    if default:
-        th._critical_search_preferred = result
+        with _DEFAULT_LOCK:
+            _DEFAULT_SEARCHES[th] = result
     return result
 
 
@@ -238,7 +240,7 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
     if method in ("auto", "certified"):
         poly = _certified_candidates(th)
         if poly is None and method == "certified":
-            raise ValueError(f"family {th.family.name}: the critical conditions do not reduce "
+            raise CriticalMethodError(f"family {th.family.name}: the critical conditions do not reduce "
                              f"to a polynomial; use method='scanned'")
     if poly is not None:
         found, note, remarks = poly

@@ -35,8 +35,10 @@ import sympy as sp
 
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics
-from bhchem.analysis.coexistence import _isotherm_pressure, coexistence_near_critical
+from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.analysis.critical import CriticalPoint, loop_side
+from bhchem.analysis.critical import isotherm_form
+from bhchem.numerics import isotherm_pressure
 
 ZERO_TOLERANCE = 1e-8
 
@@ -85,8 +87,7 @@ def _series_coefficients(th: Thermodynamics, cp: CriticalPoint, jmax: int = 5) -
     Closed equations of state: directly from P = T u(x) - w(x) (regular even at an
     isolated critical point, where T(x, P) has a removable singularity); otherwise by
     implicit differentiation of T(x, P) = T."""
-    from bhchem.analysis.critical import _isotherm_form
-    form = _isotherm_form(th)
+    form = isotherm_form(th)
     if form is not None:
         u, w, x = form
         xr, Tr, Pr = sp.Rational(cp.x), sp.Rational(cp.T), sp.Rational(cp.P)
@@ -174,7 +175,7 @@ def _fit(xs, ys, sign: float = 1.0) -> tuple[float, float]:
 
 def _fit_delta(th, cp) -> FittedExponent:
     om = np.geomspace(1e-3, 3e-2, 25)
-    vals = np.abs(_isotherm_pressure(th, cp.x * (1 + om), cp.T, cp.P) / cp.P - 1)
+    vals = np.abs(isotherm_pressure(th, cp.x * (1 + om), cp.T, cp.P) / cp.P - 1)
     e, s = _fit(om, vals)
     return FittedExponent(e, s, (1e-3, 3e-2), "critical isotherm, |P/P_c - 1| vs omega = x/x_c - 1")
 
@@ -182,7 +183,7 @@ def _fit_delta(th, cp) -> FittedExponent:
 def _fit_gamma(th, cp) -> FittedExponent:
     ts = np.geomspace(1e-6, 1e-3, 25)
     # P on the critical isochore at each T (one vectorised Newton per temperature)
-    P = np.array([float(_isotherm_pressure(th, cp.x, cp.T * (1 + t), cp.P)) for t in ts])
+    P = np.array([float(isotherm_pressure(th, cp.x, cp.T * (1 + t), cp.P)) for t in ts])
     kap = np.abs(th.quantity("kappa_T", cp.x, P))
     e, s = _fit(ts, kap, sign=-1.0)
     return FittedExponent(e, s, (1e-6, 1e-3), "kappa_T on the critical isochore, t > 0")

@@ -53,6 +53,8 @@ from scipy.optimize import brentq, minimize_scalar
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError, StateDomainError
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.isobar import state_range
 
 #: names of the response functions, in reporting order
 RESPONSE_NAMES = ("C_P", "C_V", "kappa_T", "kappa_S", "alpha_P")
@@ -160,7 +162,6 @@ def isotherm_pressure(th: Thermodynamics, x, T: float, P_guess) -> np.ndarray:
 
 
 def _critical_points(th: Thermodynamics):
-    from bhchem.analysis.critical import find_critical_points
     return find_critical_points(th).physical  # computed once per bound family
 
 
@@ -175,7 +176,6 @@ def _default_window(th: Thermodynamics) -> tuple[float, float]:
 
 
 def _search_range(th: Thermodynamics, P: float) -> tuple[float, float]:
-    from bhchem.analysis.isobar import state_range
     return state_range(th, P)
 
 

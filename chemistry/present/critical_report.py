@@ -13,7 +13,7 @@ from __future__ import annotations
 import math
 
 from bhchem.core.compiled import Thermodynamics
-from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.present.report_text import EXPONENT_DEFINITIONS
 from bhchem.analysis.exponents import critical_exponents
 
@@ -22,10 +22,10 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
     """The JSON document of ``bhchem critical`` / ``exponents``.
 
     ``on_preferred_branch`` comes from the analysis itself
-    (``find_critical_points(th, preferred_branch=True)``), so the Python API and the JSON
+    (``find_critical_points_on_branches(th)``), so the Python API and the JSON
     carry the same flag.
     """
-    search = find_critical_points(th, preferred_branch=True)
+    search = find_critical_points_on_branches(th)
     points = []
     for cp in search.points:
         d = cp.to_dict()

@@ -25,7 +25,7 @@ import numpy as np
 from bhchem.errors import BhchemError
 from cycler import cycler
 from bhchem.fileio import atomic_file
-from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.coexistence import _isotherm_pressure, coexistence_near_critical
 from scipy.optimize import brentq
 from bhchem.analysis.critical import loop_side
@@ -166,7 +166,7 @@ _title = figure_title  # the name other modules of the package import
 def _scales(th):
     """The critical point that sets the figure scales: the first (by pressure) that lies
     on the globally preferred branch; else the first physical one; else None."""
-    cps = find_critical_points(th, preferred_branch=True).physical
+    cps = find_critical_points_on_branches(th).physical
     return next((cp for cp in cps if cp.on_preferred_branch), cps[0] if cps else None)
 
 
@@ -399,7 +399,7 @@ def plot_pt(th, diagram=None) -> PlotResult:
                 if e["type"] == "terminal point":
                     ax.plot([e["T"]], [e["P"]], "s", ms=4.5, color=PALETTE[1], zorder=6)
         preferred = {(c.x, c.P): c.on_preferred_branch
-                     for c in find_critical_points(th, preferred_branch=True).points}
+                     for c in find_critical_points_on_branches(th).points}
         first = {True: True, False: True}
         for cp in pd.critical_points:
             on = bool(preferred.get((cp.x, cp.P), cp.on_preferred_branch))
