@@ -79,3 +79,36 @@ def test_declared_coupling_restores_smarr():
 def sp_rational(p, q):
     import sympy as sp
     return sp.Rational(p, q)
+
+
+def test_smarr_diagnosis_names_an_inconsistent_declared_temperature():
+    """Bardeen-AdS with the area law and T = f'(r+)/4pi (metric of Tzikas, PLB 788 (2019) 219):
+    M and S are homogeneous (g has length dimension 1), so the Smarr failure is the declared
+    T, which is not (dM/dS)_P -- the diagnosis must say that, not "not homogeneous"."""
+    import math
+    from pathlib import Path
+
+    import sympy as sp
+
+    from bhchem import bind, check_smarr, load_family_file
+    from bhchem.declare import registry
+    path = Path(__file__).resolve().parents[1] / "examples" / "families" / "bardeen_area_law.py"
+    with registry.registry_scope():
+        (fam,) = load_family_file(path)
+        th = bind(fam)
+        res = check_smarr(th)
+        assert res.holds is False
+        assert any("declared temperature T is not (dM/dS)_P" in m for m in res.missing)
+        assert not any("not homogeneous" in m for m in res.missing)
+        # the size of the inconsistency at g = 1, r+ = 3, P = 0.001, exact (sympy), against
+        # the compiled functions: T_metric / (dM/dS) - 1 (about 17 %)
+        r, P, g = sp.symbols("r P g", positive=True)
+        M = (r**2 + g**2)**sp.Rational(3, 2) / (2 * r**2) * (1 + 8 * sp.pi * P * r**2 / 3)
+        T_first_law = sp.diff(M, r) / (2 * sp.pi * r)
+        T_metric = fam.temperature.subs({sym: {"r": r, "P": P, "g": g}[sym.name]
+                                         for sym in fam.temperature.free_symbols})
+        at = {r: 3, P: sp.Rational(1, 1000), g: 1}
+        exact = float((T_metric / T_first_law - 1).subs(at))
+        assert 0.15 < abs(exact) < 0.19
+        tool = float(th.T(3.0, 0.001) / th.quantity("T_derived", 3.0, 0.001) - 1)
+        assert math.isclose(tool, exact, rel_tol=1e-12)

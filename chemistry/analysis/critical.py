@@ -893,8 +893,7 @@ def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
                        physical=physical, residuals=residuals, scale_free={}, note=note,
                        converged=converged,
                        nearby_system=exact.nearby if exact is not None else None)
-    object.__setattr__(cp, "scale_free", scale_free_values(th, cp))
-    return cp
+    return replace(cp, scale_free=scale_free_values(th, cp))
 
 
 def _power_label(name: str, e: sp.Rational) -> str:

@@ -224,7 +224,42 @@ def _finite_difference_residual(bound: Thermodynamics, xs, Ps) -> float:
 
 def _declared_volume(bound, xs, Ps):
     f = compile_expression(bound.derivation.arguments, bound.derivation.volume_declared)
-    return f(xs, Ps, *bound._param_values)
+    return f(xs, Ps, *bound.parameter_values)
+
+
+def _declared_inconsistency(th, sample) -> list[str]:
+    """The declared T or V that is not the derivative of M, with where and by how much.
+
+    The Smarr relation is Euler's theorem applied to M with T = (dM/dS)_P and
+    V = (dM/dP)_S; a declared T or V that differs from these breaks it even when M and S
+    are perfectly homogeneous, so this is diagnosed before the dimensions."""
+    der = th.derivation
+    out = []
+    checks = []
+    if der.family.temperature is not None:
+        checks.append(("temperature T", "(dM/dS)_P",
+                       lambda b, x, P: b.T(x, P), lambda b, x, P: b.quantity("T_derived", x, P)))
+    if der.volume_declared is not None:
+        checks.append(("volume V", "(dM/dP)_S", _declared_volume,
+                       lambda b, x, P: b.V(x, P)))
+    for what, exact, declared, derived in checks:
+        worst, where = 0.0, None
+        for bound, xs, Ps in sample.points:
+            a, b = np.asarray(declared(bound, xs, Ps), float), np.asarray(derived(bound, xs, Ps),
+                                                                          float)
+            rel = np.abs(a - b) / (np.abs(b) + 1e-300)
+            i = int(np.nanargmax(rel)) if np.any(np.isfinite(rel)) else 0
+            if np.isfinite(rel[i]) and rel[i] > worst:
+                worst, where = float(rel[i]), (float(xs[i]), float(Ps[i]), dict(bound.values))
+        if worst > TOLERANCE and where is not None:
+            x, P, vals = where
+            at = ", ".join([f"{der.state}={x:.6g}", f"P={P:.6g}"]
+                           + [f"{k}={v:g}" for k, v in vals.items()])
+            out.append(f"the declared {what} is not {exact}: it differs by up to "
+                       f"{100 * worst:.3g}% (at {at}); M and the entropy are then not a "
+                       f"consistent pair, which breaks the first law and the Smarr relation "
+                       f"(fix the declared {what.split()[0]}, or the entropy)")
+    return out
 
 
 def check_smarr(th: Thermodynamics, n_points: int = 64, seed: int = 20261202) -> SmarrResult:
@@ -265,8 +300,13 @@ def check_smarr(th: Thermodynamics, n_points: int = 64, seed: int = 20261202) ->
         return SmarrResult(True, relation, [], worst, sample.n_points,
                            f"holds: {relation} (max relative residual {worst:.1e} at "
                            f"{sample.n_points} random physical states)")
-    # diagnose: which length dimensions would close the relation?
-    missing, fitted = [], {}
+    # diagnose, in order: a declared T or V that is not the derivative of M; then the
+    # length dimensions (which would close the relation?); then a hidden constant
+    missing, fitted = _declared_inconsistency(th, sample), {}
+    if missing:
+        return SmarrResult(False, relation, missing, worst, sample.n_points,
+                           f"fails: {relation} is violated (max relative residual {worst:.1e}); "
+                           + "; ".join(missing), fitted)
     if names:
         w = 1.0 / scale
         n_fit, *_ = np.linalg.lstsq(A * w[:, None], b * w, rcond=None)
