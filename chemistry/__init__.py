@@ -44,8 +44,11 @@ from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_
 from bhchem.analysis.isobar import IsobarResult, Transition, analyze_isobar
 from bhchem.analysis.coexistence import CoexistenceCurve, coexistence_curve
 from bhchem.analysis.phases import PhaseDiagram, PhaseLine, TriplePoint, phase_diagram
+from bhchem.analysis.figure_data import (CpCurves, GtCurves, PtDiagram, PvCurves, TrCurves,
+                                         cp_curves, gt_curves, pt_diagram, pv_curves, tr_curves)
 from bhchem.present.plots import (EmptyFigureError, PlotResult, plot_cp, plot_gt, plot_pt,
                                   plot_pv, plot_tr, save)
+from bhchem.workflows.figures import make_figure
 
 from bhchem.version import __version__
 
@@ -63,9 +66,11 @@ __all__ = [
     "IsobarResult", "Transition", "analyze_isobar",
     "CoexistenceCurve", "coexistence_curve",
     "PhaseDiagram", "PhaseLine", "TriplePoint", "phase_diagram",
-    # figures
+    # figures: the data of each kind (analysis), drawing it (presentation), both at once
+    "CpCurves", "GtCurves", "PtDiagram", "PvCurves", "TrCurves",
+    "cp_curves", "gt_curves", "pt_diagram", "pv_curves", "tr_curves",
     "EmptyFigureError", "PlotResult", "plot_cp", "plot_gt", "plot_pt", "plot_pv",
-    "plot_tr", "save",
+    "plot_tr", "save", "make_figure",
     # errors
     "BhchemError", "ConvergenceError", "DuplicateFamilyError", "MalformedFamilyError",
     "ParameterDomainError", "StateDomainError", "UnknownFamilyError",

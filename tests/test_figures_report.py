@@ -11,7 +11,8 @@ from bhchem import bind
 from bhchem.cli.main import main
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.phases import phase_diagram
-from bhchem.present.plots import EmptyFigureError, make_plot, save
+from bhchem.present.plots import EmptyFigureError, save
+from bhchem.workflows.figures import make_figure
 
 PC = 1 / (96 * math.pi)
 TC = math.sqrt(6) / (18 * math.pi)
@@ -31,7 +32,7 @@ def _nonblank(path):
 
 def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
     pd = phase_diagram(rn)
-    res = make_plot("pt", rn, diagram=pd)
+    res = make_figure(rn, "pt", diagram=pd)
     lines = {k: v for k, v in res.data.items() if k.startswith("line")}
     assert len(lines) == len(pd.lines) == 1
     (drawn,) = lines.values()
@@ -48,7 +49,7 @@ def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
 def test_pv_isotherms_are_the_equation_of_state(rn, tmp_path):
     """Every drawn isotherm point satisfies P = T/v - 1/(2 pi v^2) + 2/(pi v^4)
     (Kubiznak & Mann 2012), and the equal-area segments sit at the coexistence pressure."""
-    res = make_plot("pv", rn)
+    res = make_figure(rn, "pv")
     Ts = [f * TC for f in (0.85, 0.92, 0.97, 1.0, 1.05, 1.12)]
     for i, T in enumerate(Ts):
         v, P = res.data[f"isotherm_{i}"].T
@@ -65,7 +66,7 @@ def test_pv_isotherms_are_the_equation_of_state(rn, tmp_path):
 
 
 def test_gt_panels_show_swallowtail_and_preferred_branch(rn, tmp_path):
-    res = make_plot("gt", rn)
+    res = make_figure(rn, "gt")
     # below P_c: three branches (a swallowtail) and the preferred curve is the minimum
     branches = [k for k in res.data if k.startswith("P0_branch")]
     assert len(branches) == 3
@@ -81,7 +82,7 @@ def test_gt_panels_show_swallowtail_and_preferred_branch(rn, tmp_path):
 
 @pytest.mark.parametrize("kind", ["tr", "cp"])
 def test_tr_and_cp(rn, kind, tmp_path):
-    res = make_plot(kind, rn)
+    res = make_figure(rn, kind)
     for k, arr in res.data.items():
         x, y = arr.T
         ref = rn.T(x, 0.5 * PC if kind == "cp" else None) if False else None  # noqa
@@ -98,7 +99,7 @@ def test_tr_and_cp(rn, kind, tmp_path):
 def test_empty_figure_is_refused():
     th = bind("schwarzschild-ads")
     with pytest.raises(EmptyFigureError):
-        make_plot("pt", th, diagram=_empty_diagram(th))
+        make_figure(th, "pt", diagram=_empty_diagram(th))
 
 
 def _empty_diagram(th):

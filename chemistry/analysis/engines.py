@@ -569,3 +569,6 @@ def plot_cycle(res: EngineResult, th: Thermodynamics):
                + rf"$\eta_C = {res.carnot:.5g}$")
         ax.text(1.03, 0.05, txt, transform=ax.transAxes, ha="left", va="bottom", fontsize=9)
     return PlotResult(fig, "engine", data, list(res.notes))
+
+
+pressure_on_isotherm = _solve_P  # public name: the isotherms of the cycle figure's data
