@@ -27,7 +27,7 @@ hold NaN there (a gap when drawn).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import brentq
