@@ -4,10 +4,11 @@ Layers (imports only go down; ``tests/test_layering.py`` holds the contract):
 
 =============  =============================================================
 ``cli``        the ``bhchem`` command: parses arguments, calls workflows and analyses
-``workflows``  orchestration: report bundles, the demo, the parameter atlas
-``present``    JSON/text/LaTeX serialisation and figures: formats what it is given
+``workflows``  orchestration: report bundles, figures (``make_figure``), the demo, the atlas
+``present``    JSON/text/LaTeX serialisation and figures: formats and draws what it is given
 ``analysis``   critical points, exponents, isobars, coexistence, phase diagrams,
-               response, expansion, engines, curvature: frozen result objects only
+               response, expansion, engines, curvature, the curves of each figure
+               (``figure_data``): frozen result objects only
 ``numerics``   shared numerical kernels (sign changes and brackets, isotherm pressure)
 ``core``       derivation (sympy), compiled numerics (numpy), first-law/Smarr checks
 ``declare``    families as data: Family, Parameter, Domain, symbols, file formats, registry
