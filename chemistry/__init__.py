@@ -4,10 +4,11 @@ Layers (imports only go down; ``tests/test_layering.py`` holds the contract):
 
 =============  =============================================================
 ``cli``        the ``bhchem`` command: parses arguments, calls workflows and analyses
-``workflows``  orchestration: report bundles, the demo, the parameter atlas
-``present``    JSON/text/LaTeX serialisation and figures: formats what it is given
+``workflows``  orchestration: report bundles, figures (``make_figure``), the demo, the atlas
+``present``    JSON/text/LaTeX serialisation and figures: formats and draws what it is given
 ``analysis``   critical points, exponents, isobars, coexistence, phase diagrams,
-               response, expansion, engines, curvature: frozen result objects only
+               response, expansion, engines, curvature, the curves of each figure
+               (``figure_data``): frozen result objects only
 ``numerics``   shared numerical kernels (sign changes and brackets, isotherm pressure)
 ``core``       derivation (sympy), compiled numerics (numpy), first-law/Smarr checks
 ``declare``    families as data: Family, Parameter, Domain, symbols, file formats, registry
@@ -45,8 +46,11 @@ from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_
 from bhchem.analysis.isobar import IsobarResult, Transition, analyze_isobar
 from bhchem.analysis.coexistence import CoexistenceCurve, coexistence_curve
 from bhchem.analysis.phases import PhaseDiagram, PhaseLine, TriplePoint, phase_diagram
+from bhchem.analysis.figure_data import (CpCurves, GtCurves, PtDiagram, PvCurves, TrCurves,
+                                         cp_curves, gt_curves, pt_diagram, pv_curves, tr_curves)
 from bhchem.present.plots import (EmptyFigureError, PlotResult, plot_cp, plot_gt, plot_pt,
                                   plot_pv, plot_tr, save)
+from bhchem.workflows.figures import make_figure
 
 from bhchem.version import __version__
 
@@ -64,9 +68,11 @@ __all__ = [
     "IsobarResult", "Transition", "analyze_isobar",
     "CoexistenceCurve", "coexistence_curve",
     "PhaseDiagram", "PhaseLine", "TriplePoint", "phase_diagram",
-    # figures
+    # figures: the data of each kind (analysis), drawing it (presentation), both at once
+    "CpCurves", "GtCurves", "PtDiagram", "PvCurves", "TrCurves",
+    "cp_curves", "gt_curves", "pt_diagram", "pv_curves", "tr_curves",
     "EmptyFigureError", "PlotResult", "plot_cp", "plot_gt", "plot_pt", "plot_pv",
-    "plot_tr", "save",
+    "plot_tr", "save", "make_figure",
     # errors
     "BhchemError", "ConvergenceError", "DuplicateFamilyError", "MalformedFamilyError",
     "ParameterDomainError", "StateDomainError", "UnknownFamilyError",

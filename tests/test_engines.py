@@ -16,7 +16,8 @@ import math
 import pytest
 
 from bhchem import bind
-from bhchem.analysis.engines import CycleError, analyze_cycle, parse_cycle
+from bhchem.analysis.engines import CycleError, analyze_cycle
+from bhchem.cli.analyses import parse_cycle
 from bhchem.errors import BhchemError, StateDomainError
 
 Q = 1.0

@@ -11,7 +11,8 @@ from bhchem import bind
 from bhchem.cli.main import main
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.phases import phase_diagram
-from bhchem.present.plots import EmptyFigureError, make_plot, save
+from bhchem.present.plots import EmptyFigureError, save
+from bhchem.workflows.figures import make_figure
 
 PC = 1 / (96 * math.pi)
 TC = math.sqrt(6) / (18 * math.pi)
@@ -31,7 +32,7 @@ def _nonblank(path):
 
 def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
     pd = phase_diagram(rn)
-    res = make_plot("pt", rn, diagram=pd)
+    res = make_figure(rn, "pt", diagram=pd)
     lines = {k: v for k, v in res.data.items() if k.startswith("line")}
     assert len(lines) == len(pd.lines) == 1
     (drawn,) = lines.values()
@@ -48,7 +49,7 @@ def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
 def test_pv_isotherms_are_the_equation_of_state(rn, tmp_path):
     """Every drawn isotherm point satisfies P = T/v - 1/(2 pi v^2) + 2/(pi v^4)
     (Kubiznak & Mann 2012), and the equal-area segments sit at the coexistence pressure."""
-    res = make_plot("pv", rn)
+    res = make_figure(rn, "pv")
     Ts = [f * TC for f in (0.85, 0.92, 0.97, 1.0, 1.05, 1.12)]
     for i, T in enumerate(Ts):
         v, P = res.data[f"isotherm_{i}"].T
@@ -65,7 +66,7 @@ def test_pv_isotherms_are_the_equation_of_state(rn, tmp_path):
 
 
 def test_gt_panels_show_swallowtail_and_preferred_branch(rn, tmp_path):
-    res = make_plot("gt", rn)
+    res = make_figure(rn, "gt")
     # below P_c: three branches (a swallowtail) and the preferred curve is the minimum
     branches = [k for k in res.data if k.startswith("P0_branch")]
     assert len(branches) == 3
@@ -81,7 +82,7 @@ def test_gt_panels_show_swallowtail_and_preferred_branch(rn, tmp_path):
 
 @pytest.mark.parametrize("kind", ["tr", "cp"])
 def test_tr_and_cp(rn, kind, tmp_path):
-    res = make_plot(kind, rn)
+    res = make_figure(rn, kind)
     for k, arr in res.data.items():
         x, y = arr.T
         ref = rn.T(x, 0.5 * PC if kind == "cp" else None) if False else None  # noqa
@@ -98,7 +99,7 @@ def test_tr_and_cp(rn, kind, tmp_path):
 def test_empty_figure_is_refused():
     th = bind("schwarzschild-ads")
     with pytest.raises(EmptyFigureError):
-        make_plot("pt", th, diagram=_empty_diagram(th))
+        make_figure(th, "pt", diagram=_empty_diagram(th))
 
 
 def _empty_diagram(th):
@@ -200,3 +201,100 @@ def test_results_json_is_strict_json(bundle):
         raise ValueError(token)
     doc = json.loads((bundle / "results.json").read_text(), parse_constant=refuse)
     assert doc["convention"]["pressure"].startswith("P = -Lambda/(8 pi)")
+
+
+# -- presentation draws what it is given ----------------------------------------------------
+@pytest.fixture(scope="module")
+def figure_inputs(rn):
+    """The data of every figure, computed once (analysis layer)."""
+    import bhchem
+    from bhchem.analysis.curvature import curvature_map
+    from bhchem.analysis.engines import analyze_cycle
+    from bhchem.analysis.figure_data import cycle_curves
+    cycle = analyze_cycle(rn, [(0.01, 400.0), (0.01, 600.0), (0.005, 600.0), (0.005, 400.0)])
+    return {"pv": bhchem.pv_curves(rn), "gt": bhchem.gt_curves(rn),
+            "pt": bhchem.pt_diagram(rn), "tr": bhchem.tr_curves(rn), "cp": bhchem.cp_curves(rn),
+            "cycle": cycle_curves(rn, cycle),
+            "curvature": curvature_map(rn, nx=60, nT=50, with_amplitude=False)}
+
+
+def test_plot_pt_draws_into_the_given_axes(figure_inputs, monkeypatch):
+    """``ax=``: the diagram goes into the caller's axes; no figure is created."""
+    import matplotlib.figure
+    from bhchem import plot_pt
+    fig = matplotlib.figure.Figure()
+    ax = fig.add_subplot(1, 2, 2)
+
+    def no_new_figure(*args, **kwargs):
+        raise AssertionError("a plot function made a figure although it was given axes")
+    monkeypatch.setattr(matplotlib.figure, "Figure", no_new_figure)
+    data = figure_inputs["pt"]
+    res = plot_pt(data, ax=ax)
+    assert res.figure is fig and res.kind == "pt"
+    assert fig.axes == [ax]  # rn-ads has no small features, so no inset either
+    (line,) = [ln for ln in ax.get_lines() if len(ln.get_xdata()) == len(data.lines[0].points)]
+    np.testing.assert_array_equal(line.get_xdata(), data.lines[0].points[:, 0])
+    assert ax.get_xlabel() == "temperature $T$" and ax.get_title().startswith("rn-ads")
+
+
+def test_plot_functions_never_call_analyses(rn, figure_inputs, monkeypatch, tmp_path):
+    """Drawing reads the precomputed data: with every function of the analysis layer
+    (wherever a module imported it), root finding and every evaluation of the family's
+    thermodynamics made to fail, all figures still draw and hold the computed curves."""
+    import inspect
+    import sys
+    import bhchem
+    import scipy.optimize
+    from bhchem.core.compiled import Thermodynamics
+    from bhchem.present.analysis_plots import plot_curvature, plot_cycle
+
+    def forbidden(*args, **kwargs):
+        raise AssertionError("presentation called an analysis")
+    loaded = {name: mod for name, mod in sys.modules.items()
+              if name == "bhchem" or name.startswith("bhchem.")}
+    analyses = {id(obj) for name, mod in loaded.items() if name.startswith("bhchem.analysis")
+                for obj in vars(mod).values()
+                if inspect.isfunction(obj) and obj.__module__.startswith("bhchem.analysis")}
+    patched = 0
+    for mod in loaded.values():
+        for attr, obj in list(vars(mod).items()):
+            if inspect.isfunction(obj) and id(obj) in analyses:
+                monkeypatch.setattr(mod, attr, forbidden)
+                patched += 1
+    assert patched > 100
+    monkeypatch.setattr(scipy.optimize, "brentq", forbidden)
+    for method in ("T", "S", "M", "V", "G", "v", "quantity", "d", "physical", "state",
+                   "potential", "typical_state", "typical_pressure"):
+        monkeypatch.setattr(Thermodynamics, method, forbidden)
+    plotters = {"pv": bhchem.plot_pv, "gt": bhchem.plot_gt, "pt": bhchem.plot_pt,
+                "tr": bhchem.plot_tr, "cp": bhchem.plot_cp}
+    for kind, plot in plotters.items():
+        res = plot(figure_inputs[kind])
+        assert res.kind == kind and res.data
+        bhchem.save(res, tmp_path / f"{kind}.png")
+    pv = figure_inputs["pv"]
+    assert bhchem.plot_pv(pv).data["isotherm_0"] is pv.isotherms[0]  # drawn as given
+    res = plot_cycle(figure_inputs["cycle"])
+    assert set(res.data) >= {"side_0", "side_3"}
+    res = plot_curvature(figure_inputs["curvature"], rn)
+    assert res.data["R_N"] is figure_inputs["curvature"].R_N
+
+
+def test_plot_functions_refuse_a_bound_family(rn):
+    """``bhchem.plot_pv`` and friends take the data, and say so when given ``th``."""
+    import bhchem
+    with pytest.raises(TypeError, match=r"pv_curves\(th\).*make_figure\(th, 'pv'\)"):
+        bhchem.plot_pv(rn)
+
+
+def test_plot_gt_draws_one_panel_per_given_axes(figure_inputs):
+    import matplotlib.figure
+    from bhchem import plot_gt
+    data = figure_inputs["gt"]
+    fig = matplotlib.figure.Figure()
+    axes = fig.subplots(1, len(data.panels))
+    res = plot_gt(data, ax=axes)
+    assert res.figure is fig and len(fig.axes) == len(data.panels)
+    for i, ax in enumerate(axes):
+        assert ax.get_xlim() == pytest.approx(data.panels[i].T_window)
+    assert axes[-1].get_legend() is not None

@@ -152,8 +152,9 @@ def test_report_folder_and_files_get_umask_permissions(tmp_path, monkeypatch, um
 
 @pytest.mark.parametrize("mask", [0o022, 0o077])
 def test_saved_figure_gets_umask_permissions(tmp_path, umask, mask):
-    from bhchem.present.plots import make_plot, save
-    res = make_plot("tr", bind("rn-ads", Q=1.0), pressures=[0.002])
+    from bhchem.present.plots import save
+    from bhchem.workflows.figures import make_figure
+    res = make_figure(bind("rn-ads", Q=1.0), "tr", pressures=[0.002])
     umask(mask)
     for ext in ("png", "pdf", "svg"):
         path = save(res, tmp_path / f"f.{ext}")
@@ -259,13 +260,14 @@ def test_phases_text_counts_what_the_json_holds():
 def test_thirty_figures_leave_pyplot_alone(tmp_path):
     import matplotlib
     import matplotlib.pyplot as plt
-    from bhchem.present.plots import make_plot, save
+    from bhchem.present.plots import save
+    from bhchem.workflows.figures import make_figure
     th = bind("rn-ads", Q=1.0)
     open_before = plt.get_fignums()
     with warnings.catch_warnings():
         warnings.simplefilter("error", RuntimeWarning)  # 'More than 20 figures ...'
         for i in range(30):
-            res = make_plot("tr", th, pressures=[0.002 * (1 + i / 30)])
+            res = make_figure(th, "tr", pressures=[0.002 * (1 + i / 30)])
             save(res, tmp_path / f"f{i}.svg")
     assert plt.get_fignums() == open_before
     assert len(os.listdir(tmp_path)) == 30
@@ -274,12 +276,13 @@ def test_thirty_figures_leave_pyplot_alone(tmp_path):
 
 def test_backend_and_rcparams_unchanged_after_drawing(tmp_path):
     import matplotlib
-    from bhchem.present.plots import make_plot, save
+    from bhchem.present.plots import save
+    from bhchem.workflows.figures import make_figure
     original = matplotlib.get_backend()
     matplotlib.use("pdf")  # a user's choice that a library must keep
     try:
         before = dict(matplotlib.rcParams)
-        res = make_plot("cp", bind("rn-ads", Q=1.0))
+        res = make_figure(bind("rn-ads", Q=1.0), "cp")
         save(res, tmp_path / "cp.png")
         assert matplotlib.get_backend() == "pdf"
         after = dict(matplotlib.rcParams)

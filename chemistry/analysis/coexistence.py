@@ -183,7 +183,7 @@ def coexistence_near_critical(th: Thermodynamics, x_c: float, P_c: float, P: flo
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(64)
 
 
-def _isotherm_pressure(th: Thermodynamics, x, T: float, P_guess: float):
+def isotherm_pressure(th: Thermodynamics, x, T: float, P_guess: float):
     """P on the isotherm T at states x (vectorised Newton; exact if T is linear in P)."""
     P = np.full(np.shape(x), float(P_guess))
     for _ in range(60):
@@ -194,6 +194,9 @@ def _isotherm_pressure(th: Thermodynamics, x, T: float, P_guess: float):
         if np.all(np.abs(step) <= 1e-16 * np.abs(P)):
             break
     return P
+
+
+_isotherm_pressure = isotherm_pressure  # the old name, still used in this module and by exponents
 
 
 def equal_area_residual(th: Thermodynamics, T: float, P: float, x1: float, x2: float) -> float:

@@ -234,7 +234,7 @@ def _label(branches: list[Branch], single: str = "black hole") -> list[Branch]:
     return out
 
 
-def _x_of_T(th, P, br: Branch, T: float) -> float | None:
+def state_at_temperature(th, P, br: Branch, T: float) -> float | None:
     """Invert the monotone branch: the x on ``br`` where T(x) = T (None outside)."""
     if not (br.T_min <= T <= br.T_max):
         return None
@@ -247,6 +247,9 @@ def _x_of_T(th, P, br: Branch, T: float) -> float | None:
     if fa * fb > 0:
         return br.x_min if abs(fa) < abs(fb) else br.x_max
     return brentq(f, br.x_min, br.x_max, xtol=_XTOL * br.x_max, rtol=1e-15, maxiter=200)
+
+
+_x_of_T = state_at_temperature  # the old name, still used in this module and by phases
 
 
 def _G_on_grid(th, P, br: Branch, Ts: np.ndarray, m: int = 4000) -> np.ndarray:

@@ -23,9 +23,12 @@ from bhchem.present.serialize import to_json
 from bhchem.present.plots import save
 from bhchem.declare.registry import get_family
 from bhchem.analysis.expansion import expansion_json, expansion_text, joule_thomson_expansion, plot_expansion
-from bhchem.analysis.engines import analyze_cycle, engine_json, engine_text, parse_cycle, plot_cycle
-from bhchem.analysis.curvature import (critical_amplitude, curvature_json, curvature_map, curvature_text, plot_curvature)
+from bhchem.analysis.engines import CycleError, analyze_cycle
+from bhchem.analysis.curvature import critical_amplitude, curvature_map
 from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.figure_data import cycle_curves
+from bhchem.present.analysis_text import curvature_json, curvature_text, engine_json, engine_text
+from bhchem.present.analysis_plots import plot_curvature, plot_cycle
 
 
 def _family_args(p, figure_help: str):
@@ -44,6 +47,46 @@ def _number(text: str, what: str) -> float:
     if not math.isfinite(value):
         raise BhchemError(f"{what} {text!r} must be finite")
     return value
+
+
+def parse_cycle(text: str, parse_pressure=None, th=None) -> list:
+    """The corners of ``--cycle``: 'P1,V1 P2,V2 ...' -> [(P1, V1), ...].
+
+    Parameters
+    ----------
+    text : str
+        Corners separated by spaces (or semicolons), each ``P,V``.
+    parse_pressure : callable, optional
+        ``(text, th) -> float``, so that pressures may be relative ('0.5Pc'); default
+        :class:`float`.
+    th : Thermodynamics, optional
+        Passed to ``parse_pressure``.
+
+    Returns
+    -------
+    list of (float, float)
+
+    Raises
+    ------
+    CycleError
+        For a malformed corner or fewer than three corners.
+    """
+    items = str(text).replace(";", " ").split()
+    out = []
+    for item in items:
+        p, sep, v = item.partition(",")
+        if not sep or not p.strip() or not v.strip():
+            raise CycleError(f"cycle corner {item!r} must look like P,V (e.g. 0.01,120)")
+        try:
+            P = parse_pressure(p, th) if parse_pressure is not None else float(p)
+            V = float(v)
+        except ValueError:
+            raise CycleError(f"cycle corner {item!r}: P and V must be numbers") from None
+        out.append((float(P), V))
+    if len(out) < 3:
+        raise CycleError(f"--cycle needs at least three corners 'P1,V1 P2,V2 P3,V3 ...', "
+                         f"got {len(out)}")
+    return out
 
 
 def _finish(args, doc: dict, text: str, figure) -> int:
@@ -90,7 +133,8 @@ def register(sub, common, helpers: dict) -> None:
         th = bound(args)
         corners = parse_cycle(args.cycle, parse_pressure, th)
         res = analyze_cycle(th, corners)
-        return _finish(args, engine_json(res), engine_text(res), lambda: plot_cycle(res, th))
+        return _finish(args, engine_json(res), engine_text(res),
+                       lambda: plot_cycle(cycle_curves(th, res)))
 
     def cmd_curvature(args) -> int:
         th = bound(args)

@@ -23,12 +23,13 @@ import math
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.isobar import analyze_isobar, isobar_json, isobar_text
 from bhchem.analysis.phases import diagram_json, diagram_text, phase_diagram
-from bhchem.present.plots import make_plot, save
+from bhchem.present.plots import save
+from bhchem.workflows.figures import make_figure
 from bhchem.workflows.report import write_report
 from bhchem.demo import FAMILY_FILE
 from bhchem.workflows.atlas import parse_grid, scan
 from bhchem.version import __version__
-from bhchem.present.plots import KINDS
+from bhchem.workflows.figures import KINDS
 from bhchem.cli.analyses import register
 
 EXIT_USAGE = 2
@@ -191,7 +192,7 @@ def cmd_plot(args) -> int:
             kw["pressures"] = P
         else:
             raise BhchemError(f"--pressure does not apply to a '{args.kind}' plot")
-    res = make_plot(args.kind, th, **kw)
+    res = make_figure(th, args.kind, **kw)
     path = save(res, args.output)
     print(f"wrote {path}")
     return 0

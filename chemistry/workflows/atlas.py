@@ -54,7 +54,8 @@ from bhchem.errors import BhchemError
 from bhchem.fileio import atomic_write
 from bhchem.version import __version__
 from bhchem.workflows.report import dumps
-from bhchem.present.plots import PALETTE, PlotResult, _styled, save
+from bhchem.present.plots import PlotResult, save
+from bhchem.present.style import PALETTE, styled
 
 CHUNK_SIZE = 8
 ATLAS_ANCHORS = 48  # isobar anchors per phase diagram (narrow reentrant windows need them)
@@ -503,7 +504,7 @@ def _figure(out_dir, doc, axes):
     rows = doc["rows"]
     structures = doc["structures"]
     color = {s: PALETTE[i % len(PALETTE)] for i, s in enumerate(structures)}
-    with _styled() as plt:
+    with styled() as plt:
         if len(axes) == 1:
             fig, ax = plt.subplots(figsize=(6.0, 2.2))
             x = np.array(axes[0].values)
@@ -524,7 +525,7 @@ def _figure(out_dir, doc, axes):
             grid = np.array([structures.index(r["structure"]) for r in rows]).reshape(shape)
             if grid.ndim == 3:
                 grid = grid[:, :, 0]
-            from matplotlib.colors import ListedColormap
+            from matplotlib.colors import ListedColormap  # lazy: matplotlib only for the figure
             cmap = ListedColormap([color[s] for s in structures])
             ax.pcolormesh(a0.values, a1.values, grid.T, cmap=cmap, shading="nearest",
                           vmin=-0.5, vmax=len(structures) - 0.5)

@@ -27,7 +27,8 @@ from bhchem.present.critical_report import critical_json
 from bhchem.present.report_text import report_md, tables_tex
 from bhchem.analysis.phases import diagram_json, phase_diagram
 from bhchem.present.summary import show_json
-from bhchem.present.plots import EmptyFigureError, make_plot, save
+from bhchem.present.plots import EmptyFigureError, save
+from bhchem.workflows.figures import make_figure
 
 FIGURES = (("pv", "P-v isotherms with the equal-area construction"),
            ("gt", "G-T isobars"),
@@ -143,7 +144,7 @@ def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = Fal
                 progress(f"figure {name}")
             try:
                 kw = {"diagram": pd} if name == "pt" else {}
-                res = make_plot(name, th, **kw)
+                res = make_figure(th, name, **kw)
             except EmptyFigureError as exc:
                 doc.setdefault("figures_skipped", {})[name] = str(exc)
                 continue

@@ -1,0 +1,728 @@
+"""The curves of every figure kind, computed once and handed to the drawing code.
+
+One function per kind, each returning a frozen result of numpy arrays and numbers and
+nothing drawn: :mod:`bhchem.present.plots` draws them, and
+:func:`bhchem.workflows.figures.make_figure` does both.
+
+==========  =======================  ==================================================
+kind        function                 result
+==========  =======================  ==================================================
+``pv``      :func:`pv_curves`        P-v isotherms with the equal-area segments
+``gt``      :func:`gt_curves`        G-T isobars: branches, preferred phase, transitions
+``pt``      :func:`pt_diagram`       the P-T phase diagram with its region names
+``tr``      :func:`tr_curves`        T along isobars against the state variable
+``cp``      :func:`cp_curves`        C_P along one isobar, spinodals
+``cycle``   :func:`cycle_curves`     a heat-engine cycle with its T_hot, T_cold isotherms
+==========  =======================  ==================================================
+
+Default ranges come from the family's own scales: the first critical point (by
+pressure) on the globally preferred branch, else the first physical one, else the
+family's typical state and pressure.  The framing of each panel (temperature window,
+limits, inset box) is part of the data, since it follows from the analyses (where the
+transitions and spinodals are), so that drawing is reading.
+
+Every result carries ``family`` (the name), ``parameters`` (the values), ``state``
+(the name of the state variable) and ``notes``.  Curves that leave the physical range
+hold NaN there (a gap when drawn).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import brentq
+
+from bhchem.errors import BhchemError
+from bhchem.analysis.critical import loop_side
+from bhchem.analysis.critical_branch import find_critical_points_on_branches
+from bhchem.analysis.coexistence import coexistence_near_critical, isotherm_pressure
+from bhchem.analysis.isobar import analyze_isobar, state_at_temperature
+from bhchem.analysis.phases import phase_diagram
+from bhchem.analysis.engines import pressure_on_isotherm
+
+FIGURE_KINDS = ("pv", "gt", "pt", "tr", "cp")
+
+
+# -- results --------------------------------------------------------------------------------
+@dataclass(frozen=True, eq=False)
+class PvCurves:
+    """P-v isotherms around T_c with the equal-area (Maxwell) construction.
+
+    Attributes
+    ----------
+    family, parameters, state : str, dict, str
+        Which family at which parameter values; the state variable's name.
+    temperatures : tuple of float
+        One isotherm per temperature.
+    isotherms : tuple of ndarray (n, 2)
+        Rows (v, P) of each isotherm; NaN outside the physical states with P > 0.
+    equal_area : tuple of (ndarray (2, 2) or None)
+        Per isotherm, the coexistence segment ``[[v1, P], [v2, P]]`` (None above T_c or
+        when no first-order transition ends at the critical point at that temperature).
+    T_c : float or None
+        Temperature of the critical point setting the scales (labels are T/T_c).
+    critical_point : ndarray (2,) or None
+        (v_c, P_c) when the critical point has a specific volume.
+    notes : tuple of str
+    """
+
+    family: str
+    parameters: dict
+    state: str
+    temperatures: tuple
+    isotherms: tuple
+    equal_area: tuple
+    T_c: float | None
+    critical_point: np.ndarray | None
+    notes: tuple = ()
+
+
+@dataclass(frozen=True, eq=False)
+class GtBranch:
+    """One branch of an isobar in the G-T plane.
+
+    Attributes
+    ----------
+    index : int
+        The branch index of :class:`~bhchem.analysis.isobar.IsobarResult`.
+    stable : bool
+        C_P > 0 along it (locally stable).
+    curve : ndarray (n, 2)
+        Rows (T, G); NaN outside the temperature window of the panel.
+    """
+
+    index: int
+    stable: bool
+    curve: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
+class GtPanel:
+    """One isobar of the G-T figure.
+
+    Attributes
+    ----------
+    pressure : float
+    branches : tuple of GtBranch
+        The branches with at least one state inside the window.
+    preferred : tuple of ndarray (m, 2)
+        Rows (T, G) of the globally preferred phase, one array per interval.
+    transitions : ndarray (k, 2)
+        (T, G) of the zeroth- and first-order transitions inside the window.
+    T_window : (float, float)
+        The temperature window (framing the transitions, else the swallowtails).
+    G_window : (float, float) or None
+        The G range to show (framing the swallowtail when it is visible).
+    """
+
+    pressure: float
+    branches: tuple
+    preferred: tuple
+    transitions: np.ndarray
+    T_window: tuple
+    G_window: tuple | None
+
+
+@dataclass(frozen=True, eq=False)
+class GtCurves:
+    """G-T isobars, one panel per pressure.
+
+    Attributes
+    ----------
+    family, parameters, state : str, dict, str
+    panels : tuple of GtPanel
+    P_c : float or None
+        Pressure of the critical point setting the scales (labels are P/P_c).
+    notes : tuple of str
+    """
+
+    family: str
+    parameters: dict
+    state: str
+    panels: tuple
+    P_c: float | None
+    notes: tuple = ()
+
+
+@dataclass(frozen=True, eq=False)
+class PtLine:
+    """One line of the phase diagram.
+
+    Attributes
+    ----------
+    kind : str
+        ``first-order``, ``zeroth-order`` or ``hawking-page``.
+    points : ndarray (n, 2)
+        Rows (T, P) (empty when the line has no points).
+    terminal_points : ndarray (k, 2)
+        (T, P) of its ends that are terminal points.
+    """
+
+    kind: str
+    points: np.ndarray
+    terminal_points: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
+class PtDiagram:
+    """The P-T phase diagram as drawn.
+
+    Attributes
+    ----------
+    family, parameters, state : str, dict, str
+    lines : tuple of PtLine
+        Every line of the phase diagram, in its order.
+    critical_points : ndarray (k, 2)
+        (T, P) of the diagram's critical points.
+    critical_on_preferred : tuple of bool
+        Per critical point: does it lie on the globally preferred branch.
+    triple_points : ndarray (m, 2)
+        (T, P) of the triple points.
+    limits : (float, float) or None
+        (T_max, P_max) of the axes (None when no line has a point).
+    regions : tuple of (float, float, str)
+        (T, P, phase name) where each preferred phase's name is written.
+    inset_box : (float, float, float, float) or None
+        (T_lo, T_hi, P_lo, P_hi) of a zoom inset around small features (zeroth-order
+        lines, triple and terminal points), or None when they are readable as they are.
+    notes : tuple of str
+    """
+
+    family: str
+    parameters: dict
+    state: str
+    lines: tuple
+    critical_points: np.ndarray
+    critical_on_preferred: tuple
+    triple_points: np.ndarray
+    limits: tuple | None
+    regions: tuple
+    inset_box: tuple | None
+    notes: tuple = ()
+
+
+@dataclass(frozen=True, eq=False)
+class StateBranch:
+    """One branch of an isobar against the state variable.
+
+    Attributes
+    ----------
+    index : int
+    stable : bool
+        C_P > 0 along it.
+    curve : ndarray (n, 2)
+        Rows (x, y): y = T for :class:`TrCurves`, y = C_P for :class:`CpCurves`.
+    last : bool
+        The last branch of its isobar (the one the legend names).
+    spinodals : tuple of float
+        States x where the branch ends at a spinodal.
+    """
+
+    index: int
+    stable: bool
+    curve: np.ndarray
+    last: bool
+    spinodals: tuple = ()
+
+
+@dataclass(frozen=True, eq=False)
+class TrCurves:
+    """T along isobars against the horizon radius (or the state variable).
+
+    Attributes
+    ----------
+    family, parameters, state : str, dict, str
+    pressures : tuple of float
+    isobars : tuple of tuple of StateBranch
+        Per pressure, its branches inside the x range shown.
+    P_c : float or None
+        Pressure of the critical point setting the scales (labels are P/P_c).
+    critical_point : ndarray (2,) or None
+        (x_c, T_c).
+    notes : tuple of str
+    """
+
+    family: str
+    parameters: dict
+    state: str
+    pressures: tuple
+    isobars: tuple
+    P_c: float | None
+    critical_point: np.ndarray | None
+    notes: tuple = ()
+
+
+@dataclass(frozen=True, eq=False)
+class CpCurves:
+    """C_P along one isobar, with the spinodals.
+
+    Attributes
+    ----------
+    family, parameters, state : str, dict, str
+    pressure : float
+    branches : tuple of StateBranch
+        Rows (x, C_P) of each branch inside the x range shown.
+    P_c : float or None
+    linthresh : float or None
+        Linear range of the symmetric-log C_P axis (the 20th percentile of |C_P|); None
+        when there is no finite value.
+    notes : tuple of str
+    """
+
+    family: str
+    parameters: dict
+    state: str
+    pressure: float
+    branches: tuple
+    P_c: float | None
+    linthresh: float | None
+    notes: tuple = ()
+
+
+@dataclass(frozen=True, eq=False)
+class CycleCurves:
+    """A heat-engine cycle and the isotherms of its Carnot bound.
+
+    Attributes
+    ----------
+    family, parameters, state : str, dict, str
+    result : EngineResult
+        The analysed cycle (sides with their P-V paths, corners, work, efficiencies).
+    isotherms : dict
+        ``'hot'``, ``'cold'`` -> ndarray (n, 2) of rows (V, P) on the isotherms T_hot and
+        T_cold (NaN where the isotherm has no positive pressure); a key is missing when
+        that isotherm has no such state in range.
+    notes : tuple of str
+    """
+
+    family: str
+    parameters: dict
+    state: str
+    result: object
+    isotherms: dict
+    notes: tuple = ()
+
+
+def _identity(th) -> dict:
+    return {"family": th.family.name, "parameters": dict(th.values),
+            "state": th.derivation.state.name}
+
+
+def scale_point(th):
+    """The critical point that sets the figure scales: the first (by pressure) that lies
+    on the globally preferred branch; else the first physical one; else None."""
+    cps = find_critical_points_on_branches(th).physical
+    return next((cp for cp in cps if cp.on_preferred_branch), cps[0] if cps else None)
+
+
+def default_pressures(th, cp=None) -> list:
+    """Pressures of the isobar figures: 0.5, 0.8, 1, 1.4 P_c (or multiples of the
+    family's typical pressure without a critical point)."""
+    if cp is not None:
+        return [f * cp.P for f in (0.5, 0.8, 1.0, 1.4)]
+    P0 = th.typical_pressure()
+    return [f * P0 for f in (0.3, 1.0, 3.0, 10.0)]
+
+
+# -- P-v isotherms --------------------------------------------------------------------------
+def pv_curves(th, temperatures=None) -> PvCurves:
+    """P-v isotherms around T_c with their equal-area (Maxwell) segments.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    temperatures : sequence of float, optional
+        Default 0.85, 0.92, 0.97, 1, 1.05, 1.12 T_c (without a critical point: 0.7, 1,
+        1.5, 2.2 times the family's typical temperature).
+
+    Returns
+    -------
+    PvCurves
+    """
+    cp = scale_point(th)
+    if cp is not None:
+        Ts = temperatures or [f * cp.T for f in (0.85, 0.92, 0.97, 1.0, 1.05, 1.12)]
+        x = cp.x * np.geomspace(0.45, 4.0, 800)
+        P_ref = cp.P
+    else:
+        x0, P0 = th.typical_state(), th.typical_pressure()
+        T0 = float(th.T(x0, P0))
+        Ts = temperatures or [f * T0 for f in (0.7, 1.0, 1.5, 2.2)]
+        x = x0 * np.geomspace(0.3, 6.0, 800)
+        P_ref = P0
+    isotherms, segments = [], []
+    for T in Ts:
+        P = isotherm_pressure(th, x, T, P_ref)
+        ok = th.physical(x, P) & (P > 0) & np.isfinite(P)
+        v = th.v(x, P)
+        isotherms.append(np.column_stack([np.where(ok, v, np.nan), np.where(ok, P, np.nan)]))
+        coex = None
+        if cp is not None and T < cp.T:
+            coex = coexistence_at_temperature(th, cp, T)
+        if coex is None:
+            segments.append(None)
+        else:
+            Pco, x1, x2 = coex
+            v1, v2 = float(th.v(x1, Pco)), float(th.v(x2, Pco))
+            segments.append(np.array([[v1, Pco], [v2, Pco]]))
+    notes = () if cp is not None else \
+        ("no critical point: isotherms at multiples of the family's typical T",)
+    return PvCurves(**_identity(th), temperatures=tuple(float(T) for T in Ts),
+                    isotherms=tuple(isotherms), equal_area=tuple(segments),
+                    T_c=cp.T if cp is not None else None,
+                    critical_point=np.array([cp.v, cp.P])
+                    if cp is not None and cp.v is not None else None,
+                    notes=notes)
+
+
+def coexistence_at_temperature(th, cp, T, solver=coexistence_near_critical):
+    """The first-order transition ending at ``cp`` that occurs at temperature T.
+
+    Brent's method in log P on the transition temperature of the isobar (full isobar
+    analysis far from P_c, ``solver`` -- the near-critical solver -- close to it).
+
+    Returns
+    -------
+    (P, x1, x2) or None
+        The pressure and the coexisting states (x1 < x2); None when no such transition
+        is bracketed.
+    """
+    side = loop_side(th, cp)
+
+    def transition(P):
+        if abs(1 - P / cp.P) < 1e-3:
+            return solver(th, cp.x, cp.P, P)
+        tr = [t for t in analyze_isobar(th, P).transitions if t.kind == "first-order"]
+        if not tr:
+            return None
+        t = min(tr, key=lambda t: abs(t.T - cp.T))
+        return t.T, t.states[0].x, t.states[1].x
+
+    def f(u):
+        res = transition(cp.P * (1 + side * u))
+        return np.nan if res is None else res[0] - T
+
+    grid = np.geomspace(1e-6, 0.999, 40)
+    vals = np.array([f(u) for u in grid])
+    ok = np.isfinite(vals)
+    idx = np.nonzero(ok[:-1] & ok[1:] & (np.sign(vals[:-1]) != np.sign(vals[1:])))[0]
+    if not len(idx):
+        return None
+    try:
+        u = brentq(f, grid[idx[0]], grid[idx[0] + 1], xtol=1e-15, rtol=1e-12)
+    except ValueError:
+        return None
+    P = cp.P * (1 + side * u)
+    res = transition(P)
+    if res is None:
+        return None
+    return P, min(res[1], res[2]), max(res[1], res[2])
+
+
+# -- G-T isobars -----------------------------------------------------------------------------
+def gt_curves(th, pressures=None) -> GtCurves:
+    """G-T isobars: every branch, the globally preferred phase and the transitions.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    pressures : sequence of float, optional
+        Default :func:`default_pressures`.
+
+    Returns
+    -------
+    GtCurves
+    """
+    cp = scale_point(th)
+    pressures = pressures or default_pressures(th, cp)
+    return GtCurves(**_identity(th), panels=tuple(_gt_panel(th, P, cp) for P in pressures),
+                    P_c=cp.P if cp is not None else None)
+
+
+def _gt_panel(th, P, cp) -> GtPanel:
+    res = analyze_isobar(th, P)
+    T_lo, T_hi = _gt_window(res, cp)
+    spin = [T for b in res.branches for e, T in zip(b.ends, (b.T_at_x_min, b.T_at_x_max))
+            if e == "spinodal" and T_lo <= T <= T_hi]
+    spin += [t.T for t in res.transitions if t.kind != "second-order"]
+    # frame G on the swallowtail only when it spans a visible part of the window
+    # (just off a critical pressure it is infinitesimal)
+    if len(spin) >= 2 and max(spin) - min(spin) < 0.05 * (T_hi - T_lo):
+        spin = []
+    core = (min(spin), max(spin)) if len(spin) >= 2 else (T_lo, T_hi)
+    G_all, G_core, branches, preferred = [], [], [], []
+    for b in res.branches:
+        xs = np.geomspace(b.x_min, b.x_max, 1500)
+        T, G = th.T(xs, P), th.G(xs, P)
+        m = (T >= T_lo) & (T <= T_hi)
+        if not np.any(m):
+            continue
+        branches.append(GtBranch(b.index, bool(b.stable),
+                                 np.column_stack([np.where(m, T, np.nan),
+                                                  np.where(m, G, np.nan)])))
+        G_all.append(G[m])
+        G_core.append(G[(T >= core[0]) & (T <= core[1])])
+    for lo, hi, ph in res.preferred:
+        lo, hi = max(lo, T_lo), min(hi, T_hi)
+        if hi <= lo:
+            continue
+        Tg = np.linspace(lo, hi, 400)
+        Gg = _preferred_G(th, res, P, Tg, ph)
+        preferred.append(np.column_stack([Tg, Gg]))
+        G_all.append(Gg)
+    marks = [(t.T, t.states[0].G) for t in res.transitions
+             if T_lo <= t.T <= T_hi and t.kind != "second-order"]
+    G_window = None
+    if G_all:
+        Gc = np.concatenate([np.ravel(g) for g in (G_core if len(spin) >= 2 else G_all)])
+        Gc = Gc[np.isfinite(Gc)]
+        if Gc.size:
+            lo_, hi_ = float(np.min(Gc)), float(np.max(Gc))
+            pad = (0.5 if len(spin) >= 2 else 0.08) * (hi_ - lo_ + 1e-300)
+            G_window = (lo_ - pad, hi_ + pad)
+    return GtPanel(pressure=float(P), branches=tuple(branches), preferred=tuple(preferred),
+                   transitions=np.array(marks, float).reshape(-1, 2),
+                   T_window=(T_lo, T_hi), G_window=G_window)
+
+
+def _gt_window(res, cp):
+    """A temperature window that frames the transitions (else the swallowtails)."""
+    trans = [t.T for t in res.transitions if t.kind != "second-order"]
+    if trans:
+        lo, hi = min(trans), max(trans)
+        pad = max(0.6 * (hi - lo), 0.06 * hi)
+        return max(lo - pad, 0.0), hi + pad
+    temps = []
+    for b in res.branches:
+        for e, T in zip(b.ends, (b.T_at_x_min, b.T_at_x_max)):
+            if e == "spinodal":
+                temps.append(T)
+    temps = [t for t in temps if np.isfinite(t) and t > 0]
+    if len(temps) >= 2:
+        lo, hi = min(temps), max(temps)
+        span = hi - lo
+        return max(lo - 0.45 * span, 0.0), hi + 0.45 * span
+    centre = temps[0] if temps else (cp.T if cp is not None else
+                                     min(b.T_max for b in res.branches))
+    return 0.85 * centre, 1.15 * centre
+
+
+def _preferred_G(th, res, P, Ts, phase):
+    if phase == res.background:
+        return np.full(Ts.shape, float(th.quantity("G_background", 1.0, P)))
+    br = next(b for b in res.branches if b.label == phase)
+    return np.array([np.nan if (x := state_at_temperature(th, P, br, T)) is None
+                     else float(th.G(x, P)) for T in Ts])
+
+
+# -- P-T phase diagram -----------------------------------------------------------------------
+def pt_diagram(th, diagram=None) -> PtDiagram:
+    """The P-T phase diagram with the names of the preferred phases placed in their regions.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    diagram : PhaseDiagram, optional
+        A diagram already computed for ``th`` (default: :func:`phase_diagram`).
+
+    Returns
+    -------
+    PtDiagram
+    """
+    pd = diagram or phase_diagram(th)
+    lines = []
+    for line in pd.lines:
+        ends = [(line.ends[s]["T"], line.ends[s]["P"]) for s in ("low", "high")
+                if line.ends[s]["type"] == "terminal point"]
+        lines.append(PtLine(line.kind, np.array(line.points, float),
+                            np.array(ends, float).reshape(-1, 2)))
+    preferred = {(c.x, c.P): c.on_preferred_branch
+                 for c in find_critical_points_on_branches(th).points}
+    on_preferred = tuple(bool(preferred.get((cp.x, cp.P), cp.on_preferred_branch))
+                         for cp in pd.critical_points)
+    drawn = [ln.points for ln in lines if ln.points.size]
+    allpts = np.vstack(drawn) if drawn else np.zeros((0, 2))
+    limits, regions, box = None, (), None
+    if np.any(np.isfinite(allpts)):
+        Tmax = float(np.nanmax(allpts[:, 0])) * 1.25
+        Pmax = float(np.nanmax(allpts[:, 1])) * 1.25
+        limits = (Tmax, Pmax)
+        regions = _regions(th, Tmax, Pmax)
+        box = _inset_box(pd, Tmax, Pmax)
+    return PtDiagram(**_identity(th), lines=tuple(lines),
+                     critical_points=np.array([[cp.T, cp.P] for cp in pd.critical_points]),
+                     critical_on_preferred=on_preferred,
+                     triple_points=np.array([[tp.T, tp.P] for tp in pd.triple_points]),
+                     limits=limits, regions=regions, inset_box=box)
+
+
+def _inset_box(pd, Tmax, Pmax):
+    """The box of an inset around small features (zeroth-order lines, triple and terminal
+    points) that would otherwise be unreadable at the scale of the whole diagram."""
+    feats = []
+    for line in pd.lines:
+        if line.kind == "zeroth-order":
+            feats += list(line.points)
+        for side in ("low", "high"):
+            if line.ends[side]["type"] in ("terminal point", "triple point"):
+                feats.append((line.ends[side]["T"], line.ends[side]["P"]))
+    feats += [(tp.T, tp.P) for tp in pd.triple_points]
+    if not feats:
+        return None
+    f = np.array(feats, float)
+    t0, t1 = f[:, 0].min(), f[:, 0].max()
+    p0, p1 = f[:, 1].min(), f[:, 1].max()
+    if (t1 - t0) > 0.15 * Tmax or (p1 - p0) > 0.15 * Pmax:
+        return None
+    dt = max(t1 - t0, 0.01 * Tmax)
+    dp = max(p1 - p0, 0.01 * Pmax)
+    return (t0 - 0.6 * dt, t1 + 0.6 * dt, p0 - 0.6 * dp, p1 + 0.6 * dp)
+
+
+def _regions(th, Tmax, Pmax):
+    """(T, P, name): a point inside each preferred phase's region, on three isobars."""
+    placed, out = set(), []
+    for fy in (0.15, 0.45, 0.85):
+        P = fy * Pmax
+        try:
+            res = analyze_isobar(th, P)
+        except BhchemError:
+            continue
+        for lo, hi, ph in res.preferred:
+            hi = min(hi, Tmax)
+            if ph in placed or hi - lo < 0.12 * Tmax:
+                continue
+            out.append((0.5 * (lo + hi), P, ph))
+            placed.add(ph)
+    return tuple(out)
+
+
+# -- T-r+ isobars and C_P --------------------------------------------------------------------
+def tr_curves(th, pressures=None) -> TrCurves:
+    """T along isobars against the state variable, over 0.2 to 6 times x_c.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    pressures : sequence of float, optional
+        Default :func:`default_pressures`.
+
+    Returns
+    -------
+    TrCurves
+    """
+    cp = scale_point(th)
+    pressures = pressures or default_pressures(th, cp)
+    x_c = cp.x if cp is not None else th.typical_state()
+    isobars = []
+    for P in pressures:
+        res = analyze_isobar(th, P)
+        branches = []
+        for b in res.branches:
+            lo, hi = max(b.x_min, 0.2 * x_c), min(b.x_max, 6 * x_c)
+            if hi <= lo:
+                continue
+            xs = np.geomspace(lo, hi, 500)
+            branches.append(StateBranch(b.index, bool(b.stable),
+                                        np.column_stack([xs, th.T(xs, P)]),
+                                        last=b is res.branches[-1]))
+        isobars.append(tuple(branches))
+    return TrCurves(**_identity(th), pressures=tuple(float(P) for P in pressures),
+                    isobars=tuple(isobars), P_c=cp.P if cp is not None else None,
+                    critical_point=np.array([cp.x, cp.T]) if cp is not None else None)
+
+
+def cp_curves(th, pressure=None) -> CpCurves:
+    """C_P along one isobar over 0.2 to 6 times x_c, with the spinodal states.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    pressure : float, optional
+        Default 0.5 P_c (without a critical point: the family's typical pressure).
+
+    Returns
+    -------
+    CpCurves
+    """
+    cp = scale_point(th)
+    P = pressure or (0.5 * cp.P if cp is not None else th.typical_pressure())
+    res = analyze_isobar(th, P)
+    x_c = cp.x if cp is not None else th.typical_state()
+    branches = []
+    for b in res.branches:
+        lo, hi = max(b.x_min, 0.2 * x_c), min(b.x_max, 6 * x_c)
+        if hi <= lo:
+            continue
+        xs = np.geomspace(lo, hi, 600)[1:-1]
+        C = th.quantity("C_P", xs, P)
+        spin = tuple(x for e, x in zip(b.ends, (b.x_min, b.x_max)) if e == "spinodal")
+        branches.append(StateBranch(b.index, bool(b.stable), np.column_stack([xs, C]),
+                                    last=b is res.branches[-1], spinodals=spin))
+    linthresh = None
+    if branches:
+        allC = np.concatenate([b.curve[:, 1] for b in branches])
+        finite = np.abs(allC[np.isfinite(allC)])
+        if finite.size:
+            linthresh = float(np.nanpercentile(finite, 20) or 1.0)
+    return CpCurves(**_identity(th), pressure=float(P), branches=tuple(branches),
+                    P_c=cp.P if cp is not None else None, linthresh=linthresh)
+
+
+# -- heat-engine cycle -----------------------------------------------------------------------
+def cycle_curves(th, result) -> CycleCurves:
+    """A cycle of :func:`~bhchem.analysis.engines.analyze_cycle` with the isotherms at
+    its extreme temperatures T_hot and T_cold (over x from a third of the smallest corner
+    state to three times the largest).
+
+    Parameters
+    ----------
+    th : Thermodynamics
+        The family the cycle was analysed for.
+    result : EngineResult
+
+    Returns
+    -------
+    CycleCurves
+    """
+    Pall = np.concatenate([s.P_path for s in result.sides])
+    xs_all = np.array([c.x for c in result.corners])
+    isotherms = {}
+    for T, name in ((result.T_hot, "hot"), (result.T_cold, "cold")):
+        xs = np.geomspace(np.min(xs_all) / 3, np.max(xs_all) * 3, 600)
+        P = pressure_on_isotherm(th, T, xs, np.full(xs.shape, np.mean(Pall)))
+        ok = np.isfinite(P) & (P > 0)
+        if np.any(ok):
+            V = np.where(ok, th.V(xs, np.where(ok, P, 1.0)), np.nan)
+            isotherms[name] = np.column_stack([V, np.where(ok, P, np.nan)])
+    return CycleCurves(**_identity(th), result=result, isotherms=isotherms,
+                       notes=tuple(result.notes))
+
+
+FIGURE_DATA = {"pv": pv_curves, "gt": gt_curves, "pt": pt_diagram, "tr": tr_curves,
+               "cp": cp_curves}
+
+
+def figure_data(th, kind: str, **options):
+    """The data of the figure ``kind`` (one of :data:`FIGURE_KINDS`).
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    kind : str
+    **options
+        Passed to the kind's function (``temperatures``, ``pressures``, ``pressure``,
+        ``diagram``).
+
+    Returns
+    -------
+    PvCurves, GtCurves, PtDiagram, TrCurves or CpCurves
+
+    Raises
+    ------
+    BhchemError
+        For an unknown kind.
+    """
+    if kind not in FIGURE_DATA:
+        raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(FIGURE_KINDS)}")
+    return FIGURE_DATA[kind](th, **options)

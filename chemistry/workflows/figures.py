@@ -1,0 +1,46 @@
+"""One call for one figure: compute its data (analysis), then draw it (presentation)::
+
+    th = bhchem.bind("rn-ads", Q=1.0)
+    result = bhchem.make_figure(th, "tr", pressures=[0.002])
+    bhchem.save(result, "tr.png")
+
+is :func:`bhchem.analysis.figure_data.tr_curves` followed by
+:func:`bhchem.present.plots.plot_tr`.  Used by ``bhchem plot`` and the report bundle.
+"""
+from __future__ import annotations
+
+from bhchem.errors import BhchemError
+from bhchem.analysis.figure_data import FIGURE_DATA, FIGURE_KINDS
+from bhchem.present.plots import PLOTTERS, PlotResult
+
+KINDS = FIGURE_KINDS
+
+
+def make_figure(th, kind: str, ax=None, **options) -> PlotResult:
+    """Compute and draw the figure ``kind`` for the bound family ``th``.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    kind : str
+        ``pv``, ``gt``, ``pt``, ``tr`` or ``cp``.
+    ax : matplotlib.axes.Axes, optional
+        Draw into these axes (for ``gt``: a sequence of axes, one per pressure); default
+        a new figure.
+    **options
+        For the data: ``temperatures`` (pv), ``pressures`` (gt, tr), ``pressure`` (cp),
+        ``diagram`` (pt: a phase diagram already computed).
+
+    Returns
+    -------
+    PlotResult
+
+    Raises
+    ------
+    BhchemError
+        For an unknown kind; :class:`~bhchem.present.plots.EmptyFigureError` when the
+        figure would be empty.
+    """
+    if kind not in FIGURE_DATA:
+        raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(KINDS)}")
+    return PLOTTERS[kind](FIGURE_DATA[kind](th, **options), ax=ax)
