@@ -174,7 +174,7 @@ import sympy as sp  # noqa: E402
 
 from bhchem.declare import registry  # noqa: E402
 from bhchem.cli.main import main  # noqa: E402
-from bhchem.analysis.expansion import expansion_json  # noqa: E402
+from bhchem.present.analysis_text import expansion_json  # noqa: E402
 from bhchem.numerics import bracketed_root  # noqa: E402
 
 EXAMPLES = __import__("pathlib").Path(__file__).resolve().parents[1] / "examples" / "families"

@@ -68,9 +68,14 @@ import numpy as np
 import sympy as sp
 
 from bhchem.declare import symbols as sy
-from bhchem.core.compiled import Thermodynamics, _lambdify
+from bhchem.core.compiled import Thermodynamics, compile_expression
 from bhchem.analysis.critical import loop_side
 from bhchem.errors import BhchemError
+from bhchem.analysis.coexistence import coexistence_near_critical
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.response import isotherm_pressure
+from bhchem.analysis.response import isotherm_guess
+from bhchem.analysis.coexistence import coexistence_curve
 
 CONVENTION = {
     "sign": "R = -2K (K the Gaussian curvature of the Ruppeiner metric): the 2-sphere has "
@@ -84,6 +89,9 @@ CONVENTION = {
                  "fit_range of t = 1 - T/T_c (T the coexistence temperature)",
 }
 
+#: compiled curvature expressions kept (each entry holds its derivation, so its id is not
+#: reused while cached)
+_CACHE_ENTRIES = 64
 _cache: dict = {}
 _lock = threading.Lock()
 
@@ -115,7 +123,7 @@ def _expressions(th: Thermodynamics) -> dict:
         P_TV = D_T(P_V)
         P_TTV = D_T(P_TV)
         RN = (P_V**2 - T**2 * P_TV**2 + 2 * T**2 * P_V * P_TTV) / (2 * P_V**2)
-        out["R_N"] = _lambdify(der.arguments, RN)
+        out["R_N"] = compile_expression(der.arguments, RN)
     else:
         Tx, TP = sp.diff(T, x), sp.diff(T, P)
         Sx, SP = sp.diff(S, x), sp.diff(S, P)
@@ -128,15 +136,17 @@ def _expressions(th: Thermodynamics) -> dict:
                  "Fv": sp.diff(F, P), "Gu": sp.diff(G, x), "Gv": sp.diff(G, P),
                  "Evv": sp.diff(E, P, 2), "Fuv": sp.diff(F, x, P), "Guu": sp.diff(G, x, 2)}
         # each part compiled on its own: one Brioschi expression would be huge
-        out["metric"] = {k: _lambdify(der.arguments, e) for k, e in parts.items()}
+        out["metric"] = {k: compile_expression(der.arguments, e) for k, e in parts.items()}
     with _lock:
+        while len(_cache) >= _CACHE_ENTRIES:  # bounded: forget the oldest
+            _cache.pop(next(iter(_cache)))
         _cache[key] = (der, out)
     return out
 
 
 def _call(th, f, x, P):
     with np.errstate(all="ignore"):
-        return np.asarray(f(np.asarray(x, float), np.asarray(P, float), *th._param_values),
+        return np.asarray(f(np.asarray(x, float), np.asarray(P, float), *th.parameter_values),
                           dtype=float)
 
 
@@ -225,8 +235,6 @@ def critical_amplitude(th: Thermodynamics, cp=None, t_range=(1e-5, 1e-2), n: int
     critical point) the top of the range is halved until it does not; the range used
     and the residuals are reported.
     """
-    from bhchem.analysis.coexistence import coexistence_near_critical
-    from bhchem.analysis.critical import find_critical_points
     if cp is None:
         cps = [c for c in find_critical_points(th).physical if c.kind == "standard"]
         if not cps:
@@ -276,7 +284,6 @@ def critical_amplitude(th: Thermodynamics, cp=None, t_range=(1e-5, 1e-2), n: int
 def isochore_amplitude(th: Thermodynamics, cp, t_range=(1e-5, 1e-2), n: int = 40) -> float:
     """Fitted lim R_N (T/T_c - 1)^2 along the critical isochore above T_c (x = x_c fixed,
     P from T(x_c, P) = T); mean field: -1/2."""
-    from bhchem.analysis.response import isotherm_pressure
     ts = np.geomspace(*t_range, n)
     ys = []
     for t in ts:
@@ -321,8 +328,7 @@ def _v_of(th, x, P):
 
 def spinodal_curve(th: Thermodynamics, xs) -> np.ndarray:
     """Rows (x, P, T) of states with T_x = 0 (Newton in P at each x), P > 0 only."""
-    from bhchem.analysis.response import _isotherm_guess
-    P = np.full(np.shape(xs), _isotherm_guess(th))
+    P = np.full(np.shape(xs), isotherm_guess(th))
     with np.errstate(all="ignore"):
         for _ in range(60):
             f = th.d("T", "x", xs, P)
@@ -339,8 +345,6 @@ def spinodal_curve(th: Thermodynamics, xs) -> np.ndarray:
 
 def curvature_map(th: Thermodynamics, nx: int = 260, nT: int = 220, with_amplitude: bool = True) -> CurvatureMap:
     """R_N over the T-v plane around the critical point (or the family's typical state)."""
-    from bhchem.analysis.critical import find_critical_points
-    from bhchem.analysis.response import isotherm_pressure
     cps = [c for c in find_critical_points(th).physical if c.kind == "standard"]
     cp = cps[0] if cps else None
     notes = []
@@ -375,7 +379,6 @@ def curvature_map(th: Thermodynamics, nx: int = 260, nT: int = 220, with_amplitu
 
 
 def _coexistence_rows(th, cp, n: int = 60) -> np.ndarray:
-    from bhchem.analysis.coexistence import coexistence_curve
     side = loop_side(th, cp)
     eps = np.unique(np.concatenate([np.geomspace(1e-6, 0.995, n), np.linspace(0.02, 0.995, n)]))
     Ps = cp.P * (1 + side * eps)

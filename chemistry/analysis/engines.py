@@ -58,6 +58,7 @@ from scipy.optimize import brentq, minimize_scalar
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError, StateDomainError
 from bhchem.numerics import bracketed_root
+from bhchem.analysis.isobar import state_range
 
 #: relative tolerance for detecting a side's kind from its corners
 KIND_TOLERANCE = 1e-9
@@ -98,7 +99,6 @@ def state_at(th: Thermodynamics, P: float, V: float) -> float:
     StateDomainError
         When no physical state (or more than one) has this P and V.
     """
-    from bhchem.analysis.isobar import state_range
     if not (np.isfinite(P) and P > 0 and np.isfinite(V) and V > 0):
         raise StateDomainError(f"corner (P, V) = ({P:g}, {V:g}): P and V must be positive")
     lo, hi = state_range(th, P)

@@ -40,7 +40,7 @@ goes through :func:`bracketed_root`: a bracket that does not bracket is "no root
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from scipy.optimize import minimize_scalar
@@ -48,6 +48,8 @@ from scipy.optimize import minimize_scalar
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError
 from bhchem.numerics import bracketed_root
+from bhchem.analysis.isobar import state_range
+from bhchem.analysis.critical import find_critical_points
 
 
 def joule_thomson_coefficient(th: Thermodynamics, x, P) -> np.ndarray:
@@ -66,7 +68,6 @@ def _inversion_function(th: Thermodynamics, x, P) -> np.ndarray:
 
 
 def _x_grid(th: Thermodynamics, P_pos: float, n: int = 3000) -> np.ndarray:
-    from bhchem.analysis.isobar import state_range
     lo, hi = state_range(th, P_pos)
     return np.geomspace(lo, hi, n)
 
@@ -211,7 +212,6 @@ class InversionCurve:
 
 
 def _critical_point(th):
-    from bhchem.analysis.critical import find_critical_points
     cps = find_critical_points(th).physical
     return cps[0] if cps else None
 
@@ -787,6 +787,11 @@ class ExpansionResult:
     isenthalps: tuple
     masses_default: bool
     notes: tuple = field(default_factory=tuple)
+    #: P_c of the critical point that normalises T_i,min (None without one)
+    critical_pressure: float | None = None
+    #: 'above' or 'below': on which side of the inversion curve (in T at fixed P) the
+    #: expansion cools (mu > 0), read off an isenthalp (None when no isenthalp shows it)
+    cooling_side: str | None = None
 
 
 def _reference_pressure(th: Thermodynamics) -> float:
@@ -902,8 +907,11 @@ def joule_thomson_expansion(th: Thermodynamics, masses=None, pressure_max: float
             notes.append(f"no physical state with M = {c.M:g} in the pressure range")
         elif c.T_max is None:
             notes.append(f"the isenthalp M = {c.M:g} has no maximum inside the pressure range")
-    return ExpansionResult(family=th.family.name, parameters=dict(th.values), inversion=inv,
-                           isenthalps=tuple(curves), masses_default=default, notes=tuple(notes))
+    res = ExpansionResult(family=th.family.name, parameters=dict(th.values), inversion=inv,
+                          isenthalps=tuple(curves), masses_default=default, notes=tuple(notes))
+    cp = _critical_point(th) if inv.T_c else None
+    return replace(res, critical_pressure=cp.P if cp is not None else None,
+                   cooling_side=cooling_side(th, res))
 
 
 def _pressure_grid(Pmax: float, n: int) -> np.ndarray:
@@ -912,165 +920,7 @@ def _pressure_grid(Pmax: float, n: int) -> np.ndarray:
                                      np.linspace(0.0, Pmax, half)[1:]]))
 
 
-def _branch_json(b: InversionBranch) -> dict:
-    return {"points": b.points(), "ends": list(b.ends),
-            "reaches_zero_pressure": b.reaches_zero_pressure, "T_min": b.T_min,
-            "P_at_min": b.P_at_min, "x_at_min": b.x_at_min, "minimum_at": b.minimum_at,
-            "residual": b.residual, "converged": b.converged,
-            "why_no_minimum": b.why_no_minimum}
-
-
-def expansion_json(res: ExpansionResult) -> dict:
-    """The JSON document of ``bhchem expansion``.
-
-    Keys: ``inversion`` {``points`` [[T, P], ...] (all branches, by x), ``T_min`` (of the
-    branch reaching P = 0, null with ``why_no_T_min``), ``ratio_to_Tc``, ``T_c``,
-    ``P_at_min``, ``x_at_min``, ``at_low_pressure_end``, ``residual``, ``why_no_T_min``,
-    ``pressure_range`` [0, P_max], ``headline_branch`` (index or null), ``branches``
-    [{``points``, ``ends``, ``reaches_zero_pressure``, ``T_min``, ``P_at_min``, ``x_at_min``,
-    ``minimum_at``, ``residual``, ``converged``, ``why_no_minimum``}]}, ``isenthalps``
-    [{``M``, ``points``}], ``notes`` [str].
-    """
-    inv = res.inversion
-    return {"inversion": {"points": inv.points(), "T_min": inv.T_min,
-                          "ratio_to_Tc": inv.ratio_to_Tc, "T_c": inv.T_c,
-                          "P_at_min": inv.P_at_min, "x_at_min": inv.x_at_min,
-                          "at_low_pressure_end": inv.at_low_pressure_end,
-                          "residual": inv.residual, "why_no_T_min": inv.why_no_T_min,
-                          "pressure_range": [float(p) for p in inv.pressure_range],
-                          "headline_branch": inv.headline,
-                          "branches": [_branch_json(b) for b in inv.branches]},
-            "isenthalps": [{"M": c.M, "points": c.points()} for c in res.isenthalps],
-            "notes": list(res.notes)}
-
-
-def _branch_line(i: int, b: InversionBranch) -> str:
-    head = f"    branch {i + 1}" + (" (reaches P -> 0)" if b.reaches_zero_pressure else "")
-    rng = (f"x in [{b.x.min():.6g}, {b.x.max():.6g}], P in [{b.P.min():.6g}, {b.P.max():.6g}], "
-           f"T in [{b.T.min():.6g}, {b.T.max():.6g}], {len(b.T)} points; "
-           f"ends (by x): {b.ends[0]}; {b.ends[1]}")
-    if b.T_min is None:
-        return f"{head}: {rng}; no minimum: {b.why_no_minimum}"
-    where = "at the P -> 0 end" if b.minimum_at == "P = 0 end" else f"inside, at P = {b.P_at_min:.10g}"
-    flag = "" if b.converged else " (grid value, not refined)"
-    return (f"{head}: {rng}; its minimum T_i = {b.T_min:.12g} {where}{flag} "
-            f"(residual {b.residual:.1e})")
-
-
-def expansion_text(res: ExpansionResult) -> str:
-    inv = res.inversion
-    params = ", ".join(f"{k} = {v:g}" for k, v in res.parameters.items())
-    out = [f"{res.family} ({params}): Joule-Thomson expansion at fixed M (the enthalpy)",
-           "  mu = (dT/dP)_M = (T_P M_x - T_x M_P)/M_x; inversion curve mu = 0"]
-    if not inv.branches:
-        out.append(f"  no inversion curve in the pressure range [0, {inv.pressure_range[1]:.6g}]")
-    else:
-        nb = len(inv.branches)
-        out.append(f"  inversion curve: {len(inv.T)} points on {nb} branch{'es' if nb > 1 else ''}, "
-                   f"P in [0, {inv.pressure_range[1]:.6g}]")
-        out += [_branch_line(i, b) for i, b in enumerate(inv.branches)]
-        if inv.T_min is None:
-            out.append(f"  minimum inversion temperature: not given: {inv.why_no_T_min}")
-        else:
-            where = ("at the P -> 0 end" if inv.at_low_pressure_end
-                     else f"at P = {inv.P_at_min:.10g}")
-            out.append(f"  minimum inversion temperature T_i,min = {inv.T_min:.12g} "
-                       f"(branch {inv.headline + 1}, {where})")
-            if inv.ratio_to_Tc is not None:
-                out.append(f"  T_c = {inv.T_c:.12g};  T_i,min / T_c = {inv.ratio_to_Tc:.12g}")
-    for c in res.isenthalps:
-        if c.T.size == 0:
-            out.append(f"  isenthalp M = {c.M:.6g}: no physical state in range")
-            continue
-        s = f"  isenthalp M = {c.M:.6g}: {len(c.T)} points"
-        if c.T_max is not None:
-            s += (f", {'local ' if c.local_only else ''}maximum T = {c.T_max:.8g} at "
-                  f"P = {c.P_at_T_max:.8g} (mu there {c.mu_at_max:.1e})")
-        out.append(s)
-    for n in res.notes:
-        out.append(f"  note: {n}")
-    return "\n".join(out)
-
-
-# -- figure -------------------------------------------------------------------------------------
-def plot_expansion(res: ExpansionResult, th: Thermodynamics):
-    """Isenthalps and the inversion curve in the T-P plane (left), and the low-pressure
-    end of the inversion curve in units of the critical point, with T_i,min (right).
-    Returns a PlotResult."""
-    from bhchem.present.plots import PALETTE, EmptyFigureError, PlotResult, _styled, _title
-    inv = res.inversion
-    data = {}
-    if inv.T.size == 0 and not any(c.T.size for c in res.isenthalps):
-        raise EmptyFigureError("nothing to plot: no inversion state and no isenthalp in range")
-    with _styled() as plt:
-        fig, (ax, az) = plt.subplots(1, 2, figsize=(8.6, 3.7),
-                                     gridspec_kw={"width_ratios": [1.45, 1.0]})
-        Pshow = inv.pressure_range[1]
-        Tmax_seen = 0.0
-        for i, c in enumerate(res.isenthalps):
-            if c.T.size == 0:
-                continue
-            color = PALETTE[(i + 1) % len(PALETTE)]
-            ax.plot(c.P, c.T, "-", color=color, lw=1.3, label=f"$M={c.M:.4g}$")
-            data[f"isenthalp_{i}"] = np.column_stack([c.P, c.T])
-            Tmax_seen = max(Tmax_seen, float(np.max(c.T)))
-            if c.T_max is not None:
-                ax.plot([c.P_at_T_max], [c.T_max], "o", ms=3, color=color, zorder=6)
-        if inv.T.size:
-            for i, b in enumerate(inv.branches):  # one line per branch: no jump across gaps
-                ax.plot(b.P, b.T, "-", color="black", lw=2.0 if b.reaches_zero_pressure else 1.4,
-                        label="inversion curve" if i == 0 else None)
-                data[f"inversion_branch_{i}"] = np.column_stack([b.P, b.T])
-                if i + 1 < len(inv.branches) and b.ends[1] in (END_PRESSURE_MAX, END_PRESSURE_MIN):
-                    c = inv.branches[i + 1]  # the two branches meet at the turning point
-                    ax.plot([b.P[-1], c.P[0]], [b.T[-1], c.T[0]], "-", color="black", lw=1.4)
-            data["inversion"] = np.column_stack([inv.P, inv.T])
-            Tmax_seen = max(Tmax_seen, float(np.max(inv.T)))
-        ax.set_xlim(0, Pshow)
-        ax.set_ylim(0, 1.4 * Tmax_seen if Tmax_seen > 0 else None)  # room for the legend
-        ax.set_xlabel(r"pressure $P$")
-        ax.set_ylabel(r"temperature $T$")
-        ax.set_title("isenthalps and the inversion curve $\\mu = 0$")
-        ax.legend(loc="upper left", fontsize=7.5, ncol=2)
-        # right: the low-pressure end, in units of the critical point when there is one
-        if inv.T.size:
-            Tu = inv.T_c if inv.T_c else 1.0
-            cp = _critical_point(th) if inv.T_c else None
-            Pu = cp.P if cp is not None else 1.0
-            m = inv.P <= (10 * Pu if cp is not None else 0.1 * Pshow)
-            for b in inv.branches:
-                mb = b.P <= (10 * Pu if cp is not None else 0.1 * Pshow)
-                az.plot(b.P[mb] / Pu, b.T[mb] / Tu, "-", color="black", lw=2.0)
-            if inv.T_min is not None:
-                az.plot([inv.P_at_min / Pu], [inv.T_min / Tu], "o", color=PALETTE[1], ms=5,
-                        zorder=5, label=r"$T_{i,\min}$")
-                az.axhline(inv.T_min / Tu, color=PALETTE[1], lw=0.7, ls=":")
-            if cp is not None:
-                az.axhline(1.0, color=PALETTE[0], lw=0.8, ls="--", label=r"$T_c$")
-                az.plot([1.0], [1.0], "s", ms=4, color=PALETTE[0], label="critical point")
-                if inv.ratio_to_Tc is not None:
-                    txt = rf"$T_{{i,\min}}/T_c = {inv.ratio_to_Tc:.6g}$"
-                    az.text(0.97, 0.06, txt, transform=az.transAxes, ha="right", fontsize=8.5)
-            az.set_xlim(0, None)
-            az.set_ylim(0, max(1.25, 1.1 * float(np.max(inv.T[m] / Tu))) if np.any(m) else None)
-            az.set_xlabel(r"$P/P_c$" if cp is not None else r"$P$")
-            az.set_ylabel(r"$T/T_c$" if cp is not None else r"$T$")
-            az.set_title("low-pressure end of the inversion curve")
-            az.legend(loc="center right", fontsize=7.5)
-        else:
-            az.set_visible(False)
-        side = _cooling_side(th, res)
-        note = "dots: maxima of the isenthalps (they lie on the inversion curve)"
-        if side is not None:
-            note = (f"$\\mu>0$ (cooling on expansion) {side} the inversion curve, $\\mu<0$ "
-                    f"(heating) {'below' if side == 'above' else 'above'} it; " + note)
-        fig.suptitle(_title(th, ": Joule-Thomson expansion at fixed M"), y=1.0)
-        fig.text(0.5, -0.02, note, ha="center", va="top", fontsize=8, color="#404040")
-        fig.tight_layout()
-    return PlotResult(fig, "expansion", data, list(res.notes))
-
-
-def _cooling_side(th, res) -> str | None:
+def cooling_side(th, res) -> str | None:
     """'above' or 'below': on which side of the inversion curve (in T at fixed P) mu > 0,
     read off the rising part of the first isenthalp that has a maximum."""
     inv = res.inversion

@@ -262,7 +262,9 @@ def _path_states(th: Thermodynamics, path: str, value: float, xs: np.ndarray, P_
     return P, ok
 
 
-def _isotherm_guess(th: Thermodynamics) -> float:
+def isotherm_guess(th: Thermodynamics) -> float:
+    """A starting pressure for isotherm solves: P_c of the first physical critical point,
+    else the family's typical pressure."""
     cps = _critical_points(th)
     return cps[0].P if cps else th.typical_pressure()
 
@@ -281,7 +283,7 @@ def find_divergences(th: Thermodynamics, path: str, value: float, x_range=None,
     search range of the isobar analysis).  See the module docstring for the method."""
     if path not in ("isobar", "isotherm"):
         raise BhchemError(f"path must be 'isobar' or 'isotherm', not {path!r}")
-    P_guess = value if path == "isobar" else _isotherm_guess(th)
+    P_guess = value if path == "isobar" else isotherm_guess(th)
     lo, hi = x_range if x_range else _search_range(th, P_guess)
     xs = np.geomspace(lo, hi, n)
     P, ok = _path_states(th, path, value, xs, P_guess)
@@ -356,7 +358,7 @@ def _along(th: Thermodynamics, path: str, value: float, x_range=None, n: int = 8
     if not (0 < lo < hi):
         raise BhchemError(f"state range must satisfy 0 < x1 < x2, not [{lo}, {hi}]")
     xs = np.geomspace(lo, hi, n)
-    P_guess = value if path == "isobar" else _isotherm_guess(th)
+    P_guess = value if path == "isobar" else isotherm_guess(th)
     P, ok = _path_states(th, path, value, xs, P_guess)
     if not np.any(ok):
         raise StateDomainError(

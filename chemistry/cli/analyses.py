@@ -22,7 +22,9 @@ from bhchem.errors import BhchemError
 from bhchem.present.serialize import to_json
 from bhchem.present.plots import save
 from bhchem.declare.registry import get_family
-from bhchem.analysis.expansion import expansion_json, expansion_text, joule_thomson_expansion, plot_expansion
+from bhchem.analysis.expansion import joule_thomson_expansion
+from bhchem.present.analysis_plots import plot_expansion
+from bhchem.present.analysis_text import expansion_json, expansion_text
 from bhchem.analysis.engines import CycleError, analyze_cycle
 from bhchem.analysis.curvature import critical_amplitude, curvature_map
 from bhchem.analysis.critical import find_critical_points

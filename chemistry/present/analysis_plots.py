@@ -14,7 +14,8 @@ from bhchem.core.compiled import Thermodynamics
 from bhchem.analysis.curvature import CurvatureMap
 from bhchem.analysis.figure_data import CycleCurves
 from bhchem.present.plots import EmptyFigureError, PlotResult, canvas
-from bhchem.present.style import PALETTE, figure_title
+from bhchem.present.style import PALETTE, figure_title, styled
+from bhchem.analysis.expansion import END_PRESSURE_MAX, END_PRESSURE_MIN, ExpansionResult
 
 #: palette index of each kind of side of a cycle
 SIDE_COLOR = {"isobar": 0, "isochore": 1, "isotherm": 3, "adiabat": 4}
@@ -170,3 +171,79 @@ def plot_cycle(data: CycleCurves, ax=None) -> PlotResult:
                + rf"$\eta_C = {res.carnot:.5g}$")
         ax.text(1.03, 0.05, txt, transform=ax.transAxes, ha="left", va="bottom", fontsize=9)
     return PlotResult(fig, "engine", drawn, list(data.notes))
+
+
+def plot_expansion(res: ExpansionResult, th: Thermodynamics):
+    """Isenthalps and the inversion curve in the T-P plane (left), and the low-pressure
+    end of the inversion curve in units of the critical point, with T_i,min (right).
+    Returns a PlotResult."""
+    inv = res.inversion
+    data = {}
+    if inv.T.size == 0 and not any(c.T.size for c in res.isenthalps):
+        raise EmptyFigureError("nothing to plot: no inversion state and no isenthalp in range")
+    with styled() as plt:
+        fig, (ax, az) = plt.subplots(1, 2, figsize=(8.6, 3.7),
+                                     gridspec_kw={"width_ratios": [1.45, 1.0]})
+        Pshow = inv.pressure_range[1]
+        Tmax_seen = 0.0
+        for i, c in enumerate(res.isenthalps):
+            if c.T.size == 0:
+                continue
+            color = PALETTE[(i + 1) % len(PALETTE)]
+            ax.plot(c.P, c.T, "-", color=color, lw=1.3, label=f"$M={c.M:.4g}$")
+            data[f"isenthalp_{i}"] = np.column_stack([c.P, c.T])
+            Tmax_seen = max(Tmax_seen, float(np.max(c.T)))
+            if c.T_max is not None:
+                ax.plot([c.P_at_T_max], [c.T_max], "o", ms=3, color=color, zorder=6)
+        if inv.T.size:
+            for i, b in enumerate(inv.branches):  # one line per branch: no jump across gaps
+                ax.plot(b.P, b.T, "-", color="black", lw=2.0 if b.reaches_zero_pressure else 1.4,
+                        label="inversion curve" if i == 0 else None)
+                data[f"inversion_branch_{i}"] = np.column_stack([b.P, b.T])
+                if i + 1 < len(inv.branches) and b.ends[1] in (END_PRESSURE_MAX, END_PRESSURE_MIN):
+                    c = inv.branches[i + 1]  # the two branches meet at the turning point
+                    ax.plot([b.P[-1], c.P[0]], [b.T[-1], c.T[0]], "-", color="black", lw=1.4)
+            data["inversion"] = np.column_stack([inv.P, inv.T])
+            Tmax_seen = max(Tmax_seen, float(np.max(inv.T)))
+        ax.set_xlim(0, Pshow)
+        ax.set_ylim(0, 1.4 * Tmax_seen if Tmax_seen > 0 else None)  # room for the legend
+        ax.set_xlabel(r"pressure $P$")
+        ax.set_ylabel(r"temperature $T$")
+        ax.set_title("isenthalps and the inversion curve $\\mu = 0$")
+        ax.legend(loc="upper left", fontsize=7.5, ncol=2)
+        # right: the low-pressure end, in units of the critical point when there is one
+        if inv.T.size:
+            Tu = inv.T_c if inv.T_c else 1.0
+            has_cp = res.critical_pressure is not None
+            Pu = res.critical_pressure if has_cp else 1.0
+            m = inv.P <= (10 * Pu if has_cp else 0.1 * Pshow)
+            for b in inv.branches:
+                mb = b.P <= (10 * Pu if has_cp else 0.1 * Pshow)
+                az.plot(b.P[mb] / Pu, b.T[mb] / Tu, "-", color="black", lw=2.0)
+            if inv.T_min is not None:
+                az.plot([inv.P_at_min / Pu], [inv.T_min / Tu], "o", color=PALETTE[1], ms=5,
+                        zorder=5, label=r"$T_{i,\min}$")
+                az.axhline(inv.T_min / Tu, color=PALETTE[1], lw=0.7, ls=":")
+            if has_cp:
+                az.axhline(1.0, color=PALETTE[0], lw=0.8, ls="--", label=r"$T_c$")
+                az.plot([1.0], [1.0], "s", ms=4, color=PALETTE[0], label="critical point")
+                if inv.ratio_to_Tc is not None:
+                    txt = rf"$T_{{i,\min}}/T_c = {inv.ratio_to_Tc:.6g}$"
+                    az.text(0.97, 0.06, txt, transform=az.transAxes, ha="right", fontsize=8.5)
+            az.set_xlim(0, None)
+            az.set_ylim(0, max(1.25, 1.1 * float(np.max(inv.T[m] / Tu))) if np.any(m) else None)
+            az.set_xlabel(r"$P/P_c$" if has_cp else r"$P$")
+            az.set_ylabel(r"$T/T_c$" if has_cp else r"$T$")
+            az.set_title("low-pressure end of the inversion curve")
+            az.legend(loc="center right", fontsize=7.5)
+        else:
+            az.set_visible(False)
+        side = res.cooling_side
+        note = "dots: maxima of the isenthalps (they lie on the inversion curve)"
+        if side is not None:
+            note = (f"$\\mu>0$ (cooling on expansion) {side} the inversion curve, $\\mu<0$ "
+                    f"(heating) {'below' if side == 'above' else 'above'} it; " + note)
+        fig.suptitle(figure_title(th, ": Joule-Thomson expansion at fixed M"), y=1.0)
+        fig.text(0.5, -0.02, note, ha="center", va="top", fontsize=8, color="#404040")
+        fig.tight_layout()
+    return PlotResult(fig, "expansion", data, list(res.notes))

@@ -39,9 +39,6 @@ __all__ = ["KINDS", "PLOTTERS", "EmptyFigureError", "PlotResult", "save", "canva
            "figure_title", "styled", "FigureFactory", "PALETTE", "STYLE", "STABLE_GREY",
            "UNSTABLE_GREY", "LINE_STYLE", "LINE_COLOR"]
 
-# Old names still imported by bhchem.analysis.expansion (its figure moves to present later).
-_styled = styled
-_title = figure_title
 
 
 class EmptyFigureError(BhchemError):
