@@ -251,6 +251,14 @@ class ResponseCurve:
     max_identity_residual: float
     notes: tuple = field(default_factory=tuple)
 
+    def to_dict(self) -> dict:
+        """A JSON-ready summary (divergences, vanishing functions, identity residual)."""
+        return {"family": self.family, "parameters": self.parameters, "path": self.path,
+                "value": self.value, "vanishing": list(self.vanishing),
+                "divergences": [d.to_dict() for d in self.divergences],
+                "max_identity_residual": self.max_identity_residual,
+                "notes": list(self.notes)}
+
 
 def _path_states(th: Thermodynamics, path: str, value: float, xs: np.ndarray, P_guess: float):
     if path == "isobar":
@@ -429,12 +437,3 @@ def local_exponent(th: Thermodynamics, quantity: str, divergence: Divergence,
         pts.append((math.log(dT), math.log(q)))
     (a1, b1), (a2, b2) = pts
     return -(b2 - b1) / (a2 - a1)
-
-
-def response_json(curve: ResponseCurve) -> dict:
-    """A JSON-ready summary (divergences, vanishing functions, identity residual)."""
-    return {"family": curve.family, "parameters": curve.parameters, "path": curve.path,
-            "value": curve.value, "vanishing": list(curve.vanishing),
-            "divergences": [d.to_dict() for d in curve.divergences],
-            "max_identity_residual": curve.max_identity_residual,
-            "notes": list(curve.notes)}
