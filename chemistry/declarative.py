@@ -88,7 +88,7 @@ from . import symbols as sy
 from .domain import Domain
 from .errors import MalformedFamilyError
 from .expression_parser import (CONSTANTS, FUNCTIONS, ExpressionError, ParsedExpression, parse,
-                                time_limit)
+                                operation_limit)
 from .family import Family, Parameter
 
 try:  # Python >= 3.11
@@ -107,8 +107,10 @@ MAX_DEFINITIONS = 100
 MAX_CONDITIONS = 50
 #: largest fixed spacetime dimension (and dimension bound) a file may give
 MAX_DIMENSION = 1000
-#: time limit, in seconds, for building the family from its parsed formulas
-FAMILY_TIME_LIMIT = 2.0
+#: most operations (Python function calls, sympy's included) for building the family
+#: from its parsed formulas, and for evaluating each condition: a count, not a time
+#: (see :func:`chemistry.expression_parser.operation_limit`)
+FAMILY_MAX_OPERATIONS = 2_000_000
 
 _TOP_KEYS = ("name", "summary", "reference", "dimension", "state", "state_description",
              "parameters", "definitions", "expressions", "conventions")
@@ -324,7 +326,8 @@ class _Loader:
             if k in exprs:
                 kwargs[attr] = exprs[k]
         try:
-            with time_limit(FAMILY_TIME_LIMIT, "the family"):
+            with operation_limit(FAMILY_MAX_OPERATIONS, "the family",
+                                 "FAMILY_MAX_OPERATIONS"):
                 family = Family(**kwargs)
         except MalformedFamilyError as exc:
             self.fail((), str(exc))
@@ -566,7 +569,8 @@ class _Loader:
                 self.fail(key + (i,), f"must be a string such as \"r > b\", not {_type(text)}")
             try:
                 rel = parse(text, cond_symbols, condition=True).expr
-                with time_limit(FAMILY_TIME_LIMIT, "the condition"):
+                with operation_limit(FAMILY_MAX_OPERATIONS, "the condition",
+                                     "FAMILY_MAX_OPERATIONS"):
                     evaluated = rel.func(*rel.args)
             except ExpressionError as exc:
                 self.fail_formula(key, text, exc, element=i)
