@@ -70,6 +70,17 @@ or, instead of ``domain``, the keys ``minimum``, ``maximum`` (closed ends),
 ``exclusive_minimum``, ``exclusive_maximum`` (open ends), ``integer = true`` and
 ``choices = [...]``.
 
+Limits
+------
+Every limit is a count, none a time, so whether a file is accepted does not depend
+on the machine or its load: :data:`MAX_FILE_SIZE` bytes, :data:`MAX_PARAMETERS`,
+:data:`MAX_DEFINITIONS` and :data:`MAX_CONDITIONS` entries, the parser's limits on
+each formula (length, nesting, exponents, degree, nodes and
+:data:`~chemistry.expression_parser.MAX_OPERATIONS` operations), and
+:data:`FAMILY_MAX_OPERATIONS` operations for building the family and for
+evaluating each condition.  The derivation (:mod:`chemistry.derive`) then bounds
+each step by the estimated size of its expansion.
+
 The TOML reader is :mod:`tomllib` (Python >= 3.11) or the ``tomli`` package
 (Python 3.10).
 """

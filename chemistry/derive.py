@@ -24,6 +24,14 @@ S = -(\partial G/\partial T)_P = -G_x/T_x and M = G + T S, and the above applies
 
 The equation of state P(T, v) is closed-form when T is linear in P (solve for P,
 then substitute x(v)); otherwise it is parametric: (T(x, P), v(x)).
+
+The work is bounded by counts, never by time.  Before sympy puts a quantity over a
+common denominator, cancels or expands it, :func:`estimate_expansion` bounds the
+result from the expression tree (multinomial term counts for powers of sums,
+degree spreads of every variable); a step above :data:`MAX_EXPANDED_TERMS`,
+:data:`MAX_EXPANDED_DEGREE` or :data:`MAX_COEFFICIENT_DEGREE`, or a quantity
+above :data:`MAX_DERIVED_NODES` nodes, is refused in one line
+(:class:`DerivationTooLarge`) naming the step, the measure, the limit and what to do.
 """
 from __future__ import annotations
 
