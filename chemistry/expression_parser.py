@@ -984,6 +984,8 @@ def parse(text, symbols=None, *, condition: bool = False,
         raise ExpressionError("formula too complex: out of memory while building it",
                               text, None) from None
     except Exception as exc:  # a sympy failure on a strange but well-formed formula
+        if meter.exhausted:
+            raise _too_much_work(meter, text) from None
         raise ExpressionError(f"cannot build this formula: {type(exc).__name__}: "
                               f"{_short(str(exc), 120)}", text, None) from None
     if meter.exhausted:  # the interruption was swallowed (e.g. inside a finaliser)
