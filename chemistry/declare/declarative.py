@@ -70,6 +70,17 @@ or, instead of ``domain``, the keys ``minimum``, ``maximum`` (closed ends),
 ``exclusive_minimum``, ``exclusive_maximum`` (open ends), ``integer = true`` and
 ``choices = [...]``.
 
+Limits
+------
+Every limit is a count, none a time, so whether a file is accepted does not depend
+on the machine or its load: :data:`MAX_FILE_SIZE` bytes, :data:`MAX_PARAMETERS`,
+:data:`MAX_DEFINITIONS` and :data:`MAX_CONDITIONS` entries, the parser's limits on
+each formula (length, nesting, exponents, degree, nodes and
+:data:`~bhchem.declare.expression_parser.MAX_OPERATIONS` operations), and
+:data:`FAMILY_MAX_OPERATIONS` operations for building the family and for
+evaluating each condition.  The derivation (:mod:`bhchem.core.derive`) then bounds
+each step by the estimated size of its expansion.
+
 The TOML reader is :mod:`tomllib` (Python >= 3.11) or the ``tomli`` package
 (Python 3.10).
 """
@@ -88,7 +99,7 @@ from bhchem.declare import symbols as sy
 from bhchem.declare.domain import Domain
 from bhchem.errors import MalformedFamilyError
 from bhchem.declare.expression_parser import (CONSTANTS, FUNCTIONS, ExpressionError, ParsedExpression, parse,
-                                time_limit)
+                                operation_limit)
 from bhchem.declare.family import Family, Parameter
 
 try:  # Python >= 3.11
@@ -107,8 +118,10 @@ MAX_DEFINITIONS = 100
 MAX_CONDITIONS = 50
 #: largest fixed spacetime dimension (and dimension bound) a file may give
 MAX_DIMENSION = 1000
-#: time limit, in seconds, for building the family from its parsed formulas
-FAMILY_TIME_LIMIT = 2.0
+#: most operations (Python function calls, sympy's included) for building the family
+#: from its parsed formulas, and for evaluating each condition: a count, not a time
+#: (see :func:`bhchem.declare.expression_parser.operation_limit`)
+FAMILY_MAX_OPERATIONS = 2_000_000
 
 _TOP_KEYS = ("name", "summary", "reference", "dimension", "state", "state_description",
              "parameters", "definitions", "expressions", "conventions")
@@ -324,7 +337,8 @@ class _Loader:
             if k in exprs:
                 kwargs[attr] = exprs[k]
         try:
-            with time_limit(FAMILY_TIME_LIMIT, "the family"):
+            with operation_limit(FAMILY_MAX_OPERATIONS, "the family",
+                                 "FAMILY_MAX_OPERATIONS"):
                 family = Family(**kwargs)
         except MalformedFamilyError as exc:
             self.fail((), str(exc))
@@ -566,7 +580,8 @@ class _Loader:
                 self.fail(key + (i,), f"must be a string such as \"r > b\", not {_type(text)}")
             try:
                 rel = parse(text, cond_symbols, condition=True).expr
-                with time_limit(FAMILY_TIME_LIMIT, "the condition"):
+                with operation_limit(FAMILY_MAX_OPERATIONS, "the condition",
+                                     "FAMILY_MAX_OPERATIONS"):
                     evaluated = rel.func(*rel.args)
             except ExpressionError as exc:
                 self.fail_formula(key, text, exc, element=i)

@@ -33,7 +33,9 @@ and the functions of :data:`FUNCTIONS` (sqrt, exp, log, sin, cos, tan, sinh,
 cosh, tanh, atan/arctan, abs, ln (= log), gamma, hyp2f1(a, b, c, z) = 2F1(a, b; c; z) and
 omega(d) = the volume of the unit (d-2)-sphere).
 
-Limits (every input, valid or not, is dealt with in well under a second):
+Limits.  Every limit counts something (characters, tokens, nesting levels, bits,
+degrees, nodes, operations); none measures time, so whether a formula is accepted
+does not depend on the machine, its load or the clock:
 
 * :data:`MAX_LENGTH` characters, :data:`MAX_TOKENS` tokens, :data:`MAX_DEPTH`
   nested parentheses and calls (the parser never recurses deeper than that, so no
@@ -47,10 +49,23 @@ Limits (every input, valid or not, is dealt with in well under a second):
   most :data:`MAX_NUMBER_BITS` bits, exact roots only of numbers up to
   :data:`MAX_ROOT_BITS` bits, at most :data:`MAX_NODES` nodes once named
   sub-expressions are expanded;
-* a time budget (:data:`TIME_BUDGET`, checked after every node) and, because
-  sympy's automatic simplification can take minutes inside one operation on a
-  few rare small formulas, a hard limit (:data:`HARD_TIME_LIMIT`, a SIGALRM
-  timer, in the main thread on Unix; the previous handler and timer are restored).
+* at most :data:`MAX_OPERATIONS` operations to build the formula: every Python
+  function call made while building it, sympy's automatic simplification
+  included, is counted (:func:`operation_limit`, a per-thread ``sys.settrace``
+  hook; it works in any thread, and a tracer already installed, e.g. coverage,
+  keeps receiving its events).  sympy can spend minutes inside one operation on a
+  few rare small formulas (``abs(sinh(omega(d + 0.001**(d-3))))`` needs more than
+  10^7 operations); the count stops it after the same amount of work on every
+  machine, whatever its speed or load.  Formulas of physics need at most about
+  70 000 operations (the first formula of a process, which pays for sympy's lazy
+  initialisation) and usually a few thousand; a polynomial of 300 terms about
+  230 000.  The count of one formula is not exactly reproducible (sympy shuffles
+  the order in which it derives facts and iterates over hash-ordered sets: up to
+  about a factor of 2 between processes for a small formula; its cache can only
+  lower it), which is why the limit sits far from both kinds of formula.
+
+The derivation that follows (:mod:`bhchem.core.derive`) has counted limits of its
+own: the size of each expansion is estimated before sympy expands or cancels.
 
 Example
 -------
@@ -64,10 +79,7 @@ import cmath
 import keyword
 import math
 import re
-import signal
-import threading
-import time
-from contextlib import contextmanager
+import sys
 from dataclasses import dataclass
 from typing import Callable, Mapping
 
@@ -85,13 +97,12 @@ MAX_DEPTH = 100
 #: deepest nesting of function calls and exponents (sympy's automatic simplification
 #: of nested functions such as tanh(sqrt(1-r) + tanh(...)) costs exponential time)
 MAX_CALL_DEPTH = 4
-#: wall-clock budget for building one formula, in seconds, checked after every
-#: node (formulas of physics take milliseconds)
-TIME_BUDGET = 0.3
-#: hard wall-clock limit, in seconds, on one call of the parser (main thread on
-#: Unix only): sympy's automatic simplification can, on rare small formulas, run
-#: for minutes inside a single operation, where the budget above cannot look
-HARD_TIME_LIMIT = 0.5
+#: most operations (Python function calls, sympy's included) spent building one
+#: formula: formulas of physics need at most ~70 000 (the first of a process) and
+#: usually a few thousand, a polynomial of 300 terms ~230 000; sympy's automatic
+#: simplification can, on rare small formulas, run for minutes (> 10^7 operations)
+#: inside a single operation, and is stopped here
+MAX_OPERATIONS = 2_000_000
 #: largest magnitude of a numeric exponent (``r**1000`` is fine, ``r**1001`` is not)
 MAX_EXPONENT = 100
 #: largest polynomial degree (a bound: degrees add in products, multiply in powers);
@@ -163,6 +174,8 @@ class ParsedExpression:
     size: int
     value: complex | None = None
     degree: int = 1
+    #: operations (function calls) counted while building it, see :data:`MAX_OPERATIONS`
+    operations: int = 0
 
 
 @dataclass(frozen=True)
@@ -420,7 +433,7 @@ def _leaf(expr, value=None) -> _Node:
 # -- the parser -----------------------------------------------------------------------------
 class _Parser:
     def __init__(self, text, tokens, names, functions, condition, unavailable, max_depth,
-                 max_call_depth, time_budget):
+                 max_call_depth):
         self.text = text
         self.tokens = tokens
         self.names = names
@@ -429,8 +442,6 @@ class _Parser:
         self.unavailable = unavailable
         self.max_depth = max_depth
         self.max_call_depth = max_call_depth
-        self.time_budget = time_budget
-        self.deadline = time.perf_counter() + time_budget
         self.i = 0
         self.depth = 0
         self.call_depth = 0
@@ -477,9 +488,6 @@ class _Parser:
         if node.degree > MAX_DEGREE:
             self.fail(f"polynomial degree too high (above {MAX_DEGREE}; degrees add in "
                       f"products and multiply in powers)", pos)
-        if time.perf_counter() > self.deadline:
-            self.fail(f"formula too complex: building it took more than {self.time_budget:g} s "
-                      f"(deeply nested functions?)", pos)
         if node.size > MAX_NODES:
             self.fail(f"expression too large (more than {MAX_NODES} nodes once named "
                       f"sub-expressions are expanded)", pos)
@@ -786,76 +794,128 @@ class _Parser:
                           pos)
 
 
-# -- the hard time limit -------------------------------------------------------------------
-class _Timeout(BaseException):
-    """Raised by the timer signal; a BaseException so that no ``except Exception``
+# -- the operation limit -------------------------------------------------------------------
+class _OutOfOperations(BaseException):
+    """Raised by the operation meter; a BaseException so that no ``except Exception``
     inside sympy swallows it."""
 
 
-#: after the first interruption, interrupt again every so many seconds: an exception
-#: raised by a signal handler is lost when the handler happens to run inside a garbage
-#: collector callback, a ``__del__`` method or a weakref callback
-_RETRY_INTERVAL = 0.02
+class OperationMeter:
+    """Counts the Python function calls made in the current thread inside a ``with`` block.
 
+    Installed with ``sys.settrace`` for the duration of the block; a trace function
+    already installed (a coverage tool, a debugger, an outer meter) is called as
+    before, and is back in place afterwards.  Past ``limit`` calls the next call
+    raises an internal BaseException, which unwinds the work in progress; the
+    caller (:func:`parse`, :func:`operation_limit`) turns it into a one-line
+    :class:`ExpressionError`.
 
-@contextmanager
-def _hard_time_limit(seconds):
-    """Interrupt the block after ``seconds`` of wall-clock time (ITIMER_REAL, SIGALRM).
+    The count measures work, not time: it does not depend on the machine or its
+    load.  It is not exactly reproducible, because sympy deliberately shuffles the
+    order in which it derives facts (assumptions) and iterates over hash-ordered
+    sets (a small formula may need 3300 operations in one process and 8000 in the
+    next), and because its caches may already hold part of the work; the limits
+    sit far from the counts of real formulas.
 
-    Only in the main thread and where ``signal.setitimer`` exists; elsewhere it
-    does nothing (the per-node budget still applies).  The interruption repeats
-    until the block has been left; the previous handler and timer are restored.
+    Attributes
+    ----------
+    limit : int
+    count : int
+        Calls counted so far (one per Python frame entered, generators resumed included).
+    exhausted : bool
+        True once the count went past the limit.
     """
-    usable = (seconds and hasattr(signal, "setitimer") and hasattr(signal, "SIGALRM")
-              and threading.current_thread() is threading.main_thread())
-    if not usable:
-        yield
-        return
-    armed = [True]
 
-    def on_timer(signum, frame):
-        if armed[0]:
-            raise _Timeout()
+    def __init__(self, limit: int):
+        self.limit = int(limit)
+        self.count = 0
+        self.exhausted = False
+        self._previous = None
 
-    try:
-        previous_handler = signal.signal(signal.SIGALRM, on_timer)
-    except (ValueError, OSError):  # not the main interpreter / thread after all
-        yield
-        return
-    previous_timer = signal.setitimer(signal.ITIMER_REAL, seconds, _RETRY_INTERVAL)
-    started = time.perf_counter()
-    try:
-        yield
-    finally:
-        armed[0] = False  # a signal still pending is now harmless
-        signal.setitimer(signal.ITIMER_REAL, 0)
-        signal.signal(signal.SIGALRM, signal.SIG_DFL if previous_handler is None
-                      else previous_handler)  # None: a handler not set from Python
-        if previous_timer[0] > 0:  # someone else's alarm (pytest-timeout ...): give it back
-            left = max(previous_timer[0] - (time.perf_counter() - started), 1e-3)
-            signal.setitimer(signal.ITIMER_REAL, left, previous_timer[1])
+    def _trace(self, frame, event, arg):
+        self.count += 1
+        if self.count > self.limit:
+            self.exhausted = True
+            # an exception raised inside a __del__ method would be printed and dropped
+            # (and the hook removed with it): let the finaliser run, stop at the next call;
+            # never stop the exit of a meter itself
+            code = frame.f_code
+            if code.co_name != "__del__" and code not in _NEVER_STOPPED:
+                raise _OutOfOperations()
+        previous = self._previous
+        return previous(frame, event, arg) if previous is not None else None
+
+    def __enter__(self) -> "OperationMeter":
+        self._previous = sys.gettrace()
+        sys.settrace(self._trace)
+        return self
+
+    def __exit__(self, exc_type, exc, tb):
+        sys.settrace(self._previous)
+        return False
 
 
-@contextmanager
-def time_limit(seconds: float, what: str = "the formula"):
-    """Run a block under the hard time limit (see :data:`HARD_TIME_LIMIT`).
+def _clear_after_interruption():
+    # sympy may have cached half-evaluated facts (its assumption system stores None
+    # while it works on a fact); drop everything the interrupted work left behind
+    from sympy.core.cache import clear_cache
+    clear_cache()
 
-    For work on parsed formulas outside the parser (e.g. building a family from
-    them, which makes sympy evaluate them again).
+
+class operation_limit:  # noqa: N801 - used like a function: ``with operation_limit(...)``
+    """Run a block within a counted number of operations (Python function calls).
+
+    For work on parsed formulas outside the parser (building a family from them,
+    evaluating a condition), which makes sympy evaluate them again.  Nothing here
+    measures time: the block is stopped after the same amount of work on every
+    machine (see :class:`OperationMeter`).
+
+    Parameters
+    ----------
+    max_operations : int
+        Default :data:`MAX_OPERATIONS`.
+    what : str
+        Names the work in the message, e.g. "the family".
+    limit_name : str
+        Names the limit in the message, e.g. "FAMILY_MAX_OPERATIONS".
+
+    ``with operation_limit(...) as meter`` gives the :class:`OperationMeter`.
 
     Raises
     ------
     ExpressionError
-        "<what> is too complex ..." when the block is interrupted.
+        "<what> is too complex: sympy needed more than N operations ..." (one line)
+        when the block needs more than ``max_operations`` calls.
     """
-    try:
-        with _hard_time_limit(seconds):
-            yield
-    except _Timeout:
-        from sympy.core.cache import clear_cache
-        clear_cache()
-        raise ExpressionError(f"{what} is too complex: sympy could not process it within "
-                              f"{seconds:g} s") from None
+
+    def __init__(self, max_operations: int = MAX_OPERATIONS, what: str = "the formula",
+                 limit_name: str = "MAX_OPERATIONS"):
+        self.meter = OperationMeter(max_operations)
+        self.what = what
+        self.limit_name = limit_name
+
+    def __enter__(self) -> OperationMeter:
+        return self.meter.__enter__()
+
+    def __exit__(self, exc_type, exc, tb):
+        self.meter.__exit__(exc_type, exc, tb)
+        if not self.meter.exhausted:
+            return False
+        if exc_type is not None and not issubclass(exc_type, (_OutOfOperations,
+                                                              ExpressionError)):
+            return False  # another fault while unwinding: let it through
+        _clear_after_interruption()  # also when the interruption was swallowed on the way
+        raise ExpressionError(f"{self.what} is too complex: sympy needed more than "
+                              f"{self.meter.limit} operations (function calls, the limit "
+                              f"{self.limit_name}) to build it; {ADVICE}") from None
+
+
+#: code the meter never interrupts (leaving a meter must always work)
+_NEVER_STOPPED = frozenset({OperationMeter.__exit__.__code__,
+                            operation_limit.__exit__.__code__})
+
+#: what to do about a formula refused for its size or work
+ADVICE = "simplify the formula by hand or declare the family in a Python plug-in"
 
 
 # -- public API -------------------------------------------------------------------------------
@@ -894,8 +954,7 @@ def parse(text, symbols=None, *, condition: bool = False,
           unavailable: Mapping[str, str] | None = None,
           max_length: int = MAX_LENGTH, max_tokens: int = MAX_TOKENS,
           max_depth: int = MAX_DEPTH, max_call_depth: int = MAX_CALL_DEPTH,
-          time_budget: float = TIME_BUDGET,
-          hard_time_limit: float | None = HARD_TIME_LIMIT) -> ParsedExpression:
+          max_operations: int = MAX_OPERATIONS) -> ParsedExpression:
     """Parse ``text`` into a :class:`ParsedExpression` (see :func:`parse_expression`)."""
     if not isinstance(text, str):
         raise ExpressionError(f"a formula must be a string, not {type(text).__name__}")
@@ -907,27 +966,30 @@ def parse(text, symbols=None, *, condition: bool = False,
     fns = FUNCTIONS if functions is None else dict(functions)
     tokens = _tokenize(text, max_tokens, condition)
     parser = _Parser(text, tokens, names, fns, condition, dict(unavailable or {}), max_depth,
-                     max_call_depth, time_budget)
+                     max_call_depth)
+    meter = OperationMeter(max_operations)
     try:
-        with _hard_time_limit(hard_time_limit):
+        with meter:
             node = parser.parse()
             bits, size, undefined, imaginary, big_exponent = _measure(node.expr)
     except ExpressionError:
+        if meter.exhausted:  # a refusal raised while the interruption unwound: the count wins
+            raise _too_much_work(meter, text) from None
         raise
-    except _Timeout:
-        from sympy.core.cache import clear_cache
-        clear_cache()  # drop whatever the interrupted evaluation left behind
-        limit = f" within {hard_time_limit:g} s" if hard_time_limit else ""
-        raise ExpressionError(f"formula too complex: sympy could not build it{limit}",
-                              text, None) from None
+    except _OutOfOperations:
+        raise _too_much_work(meter, text) from None
     except RecursionError:
         raise ExpressionError("formula too deeply nested", text, None) from None
     except MemoryError:
         raise ExpressionError("formula too complex: out of memory while building it",
                               text, None) from None
     except Exception as exc:  # a sympy failure on a strange but well-formed formula
+        if meter.exhausted:
+            raise _too_much_work(meter, text) from None
         raise ExpressionError(f"cannot build this formula: {type(exc).__name__}: "
                               f"{_short(str(exc), 120)}", text, None) from None
+    if meter.exhausted:  # the interruption was swallowed (e.g. inside a finaliser)
+        raise _too_much_work(meter, text)
     if undefined:
         raise ExpressionError("the formula is undefined or infinite (a division by zero, "
                               "log(0), tan(pi/2) ...?)", text, None)
@@ -940,7 +1002,14 @@ def parse(text, symbols=None, *, condition: bool = False,
     if bits > MAX_NUMBER_BITS:
         raise ExpressionError(f"the formula contains an exact number of more than about "
                               f"{int(MAX_NUMBER_BITS / 3.33)} digits", text, None)
-    return ParsedExpression(node.expr, bits, node.size, node.value, node.degree)
+    return ParsedExpression(node.expr, bits, node.size, node.value, node.degree, meter.count)
+
+
+def _too_much_work(meter: OperationMeter, text: str) -> ExpressionError:
+    _clear_after_interruption()
+    return ExpressionError(f"formula too complex: building it needs more than {meter.limit} "
+                           f"operations (function calls, sympy's included; the limit "
+                           f"MAX_OPERATIONS); {ADVICE}", text, None)
 
 
 def parse_expression(text, symbols=None, **options) -> sp.Expr:
@@ -960,8 +1029,9 @@ def parse_expression(text, symbols=None, **options) -> sp.Expr:
     unavailable : mapping, optional
         name -> reason, for names known but not usable in this formula (the
         error then says why).
-    max_length, max_tokens, max_depth : int
-        Limits (defaults :data:`MAX_LENGTH`, :data:`MAX_TOKENS`, :data:`MAX_DEPTH`).
+    max_length, max_tokens, max_depth, max_call_depth, max_operations : int
+        Limits (defaults :data:`MAX_LENGTH`, :data:`MAX_TOKENS`, :data:`MAX_DEPTH`,
+        :data:`MAX_CALL_DEPTH`, :data:`MAX_OPERATIONS`); all are counts, none is a time.
 
     Returns
     -------
