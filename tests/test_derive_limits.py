@@ -10,7 +10,8 @@ import sympy as sp
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from bhchem import Family, Parameter, registry
+from bhchem import Family, Parameter
+from bhchem.declare import registry
 from bhchem.declare.declarative import load_declarative
 from bhchem.errors import MalformedFamilyError
 from bhchem.declare.expression_parser import operation_limit

@@ -27,7 +27,6 @@ Example
 """
 from __future__ import annotations
 
-import math
 import re
 from dataclasses import dataclass, field
 from typing import Mapping, Sequence
