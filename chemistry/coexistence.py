@@ -218,10 +218,14 @@ def equal_area_residual(th: Thermodynamics, T: float, P: float, x1: float, x2: f
     return abs(area - P * dV) / (abs(P * dV) + 1e-300)
 
 
-def clapeyron_residual(th: Thermodynamics, P: float, T: float, x1: float, x2: float) -> float:
+def clapeyron_residual(th: Thermodynamics, P: float, T: float, x1: float, x2: float,
+                       step: float = 1e-3) -> float:
     """|dP/dT - Delta S/Delta V| / |Delta S/Delta V|, with dP/dT of the computed line from
-    four nearby solves (Richardson-extrapolated central differences, error O(h^4))."""
-    h = 1e-3 * P
+    four nearby solves (Richardson-extrapolated central differences, error O(h^4)) at
+    h = ``step`` P.  Near the end of a line (where a branch stops at its spinodal, the line
+    T(P) has a (P - P_end)^(3/2) term) the step must be a small fraction of the distance to
+    the end; :func:`make_point` takes it as ``clapeyron_step``."""
+    h = step * P
     Ps = np.array([P - h, P + h, P - h / 2, P + h / 2])
     a, b, ok = coexistence_newton(th, Ps, np.full(4, x1), np.full(4, x2))
     if not np.all(ok):
@@ -236,8 +240,10 @@ def clapeyron_residual(th: Thermodynamics, P: float, T: float, x1: float, x2: fl
     return abs(slope - ref) / abs(ref)
 
 
-def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool = True) -> CoexistencePoint:
-    """Assemble a checked coexistence point from a solved pair."""
+def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool = True,
+               clapeyron_step: float = 1e-3) -> CoexistencePoint:
+    """Assemble a checked coexistence point from a solved pair (``clapeyron_step``: the
+    relative pressure step of the Clausius-Clapeyron check, see :func:`clapeyron_residual`)."""
     T1, T2 = float(th.T(x1, P)), float(th.T(x2, P))
     G1, G2 = float(th.G(x1, P)), float(th.G(x2, P))
     S1, S2 = float(th.S(x1, P)), float(th.S(x2, P))
@@ -254,7 +260,8 @@ def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool 
                                    + abs(T * S1) + abs(T * S2) + 1e-300))
     if checks:
         object.__setattr__(pt, "equal_area_residual", equal_area_residual(th, T, P, x1, x2))
-        object.__setattr__(pt, "clapeyron_residual", clapeyron_residual(th, P, T, x1, x2))
+        object.__setattr__(pt, "clapeyron_residual",
+                           clapeyron_residual(th, P, T, x1, x2, clapeyron_step))
     return pt
 
 
