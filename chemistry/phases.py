@@ -160,8 +160,10 @@ class PressureEvent:
         return key == self.key or key in self.also
 
     def to_dict(self) -> dict:
-        return {"P": self.P, "kind": self.kind, "T": self.T, "phases": list(self.phases),
-                "note": self.note, "residual": self.residual, "bracket": self.bracket}
+        def num(v):
+            return None if v is None or not math.isfinite(v) else float(v)
+        return {"P": self.P, "kind": self.kind, "T": num(self.T), "phases": list(self.phases),
+                "note": self.note, "residual": num(self.residual), "bracket": num(self.bracket)}
 
 
 @dataclass
@@ -498,11 +500,23 @@ def pressure_events(th: Thermodynamics, lo: float, hi: float, critical_points=No
 
 
 def _scan_pressures(lo, hi, n, cps) -> list:
+    """The log-spaced scan, the neighbours of every critical pressure, and eight pressures
+    between each two neighbouring critical pressures: the branches change only at those
+    (and at domain edges), so a branch that exists only between two close critical
+    pressures is sampled however narrow its interval is."""
     Ps = set(np.geomspace(lo, hi, max(n, 2)).tolist())
-    for cp in cps:
-        for f in (1 - 1e-2, 1 - 1e-3, 1 + 1e-3, 1 + 1e-2):
-            if lo <= cp.P * f <= hi:
-                Ps.add(cp.P * f)
+    Pcs = sorted({cp.P for cp in cps if lo < cp.P < hi})
+    for k, Pc in enumerate(Pcs):
+        gaps = [math.log(Pc / q) for q in Pcs[k - 1:k] if q < Pc] + \
+               [math.log(q / Pc) for q in Pcs[k + 1:k + 2] if q > Pc]
+        for eps in (1e-2, 1e-3):
+            eps = min([eps] + [0.25 * g for g in gaps])
+            for f in (1 - eps, 1 + eps):
+                if lo <= Pc * f <= hi:
+                    Ps.add(Pc * f)
+    for a, b in zip(Pcs[:-1], Pcs[1:]):
+        if b > a * (1 + 1e-12):
+            Ps.update(np.geomspace(a, b, 10)[1:-1].tolist())
     return sorted(Ps)
 
 
@@ -662,11 +676,20 @@ def _end_from_event(th, sks, e: PressureEvent, kind: str, t: Transition, side: s
                    note="at the pressure of a critical point whose states do not take part")
         return end
     if e.kind == "crossing meets branch end":
-        end.update(type="terminal point", branch=f"the {e.phases[0]} branch ends here",
-                   note=e.note)
+        end.update(type="terminal point", branch=f"the {e.phases[0]} branch ends here: the "
+                   f"{e.phases[0]}/{e.phases[1]} crossing reaches its end", note=e.note)
         return end
     if e.kind == "branch ends meet":
-        end.update(type="terminal point", branch=f"{e.phases[0]} / {e.phases[1]}", note=e.note)
+        # the line sits at the end of one branch; the other one stops existing at its T
+        info = _zeroth_order_end(sks, t, t.P) if kind == "zeroth-order" else None
+        if info is not None:
+            own = t.from_phase if info[0] == "from" else t.to_phase
+            other = t.to_phase if info[0] == "from" else t.from_phase
+            branch = (f"the {other} branch ends here: its end temperature reaches the "
+                      f"transition temperature (the {info[1]} end of the {own} branch)")
+        else:
+            branch = f"the ends of the {e.phases[0]} and {e.phases[1]} branches meet here"
+        end.update(type="terminal point", branch=branch, note=e.note)
         return end
     if e.kind == "triple point":
         end.update(type="triple point", note=e.note)
@@ -1059,7 +1082,8 @@ def _densify(th, sks, line, members, n_dense, warnings, isobar) -> None:
         pts.sort(key=lambda p: p.P)
         line.coexistence = pts
         flip = members[0][1].states[0].x > members[0][1].states[1].x
-        line.states = [(p.P, p.x2, p.x1) if flip else (p.P, p.x1, p.x2) for p in pts]
+        line.states = _merge_states(line.states, [(p.P, p.x2, p.x1) if flip else
+                                                  (p.P, p.x1, p.x2) for p in pts])
         line.points = [(p.T, p.P) for p in pts]
         line.checks = _line_checks(pts)
         if cp is not None:
@@ -1082,7 +1106,7 @@ def _densify(th, sks, line, members, n_dense, warnings, isobar) -> None:
             if _exact_end(end) and end["type"] != "range end":
                 pts.append((end["T"], end["P"]))
         line.points = sorted(pts, key=lambda p: p[1])
-        line.states = st or line.states
+        line.states = _merge_states(line.states, st)
         line.checks = {"max_residual_G": float(np.max(resid[good])) if np.any(good) else None}
     else:
         info = None
@@ -1125,13 +1149,21 @@ def _densify(th, sks, line, members, n_dense, warnings, isobar) -> None:
                             "points not solved (omitted)")
         order = np.argsort([p[1] for p in pts])
         line.points = [pts[i] for i in order]
-        line.states = [st[i] for i in order] or line.states
+        line.states = _merge_states(line.states, st)
         finite = [j for j in jumps if math.isfinite(j)]
         line.checks = {"max_delta_G": max(finite) if finite else
                        max(abs(t.delta_G) for _, t in members)}
     for side, end in (("low", lo_end), ("high", hi_end)):
         if end["type"] == "range end" and line.points:
             end["T"] = line.points[0][0] if side == "low" else line.points[-1][0]
+
+
+def _merge_states(anchors, dense) -> list:
+    """The line's states at its anchors and at its dense points, by pressure (one per P)."""
+    out = {}
+    for P, a, b in list(anchors) + list(dense):
+        out[float(P)] = (float(P), float(a), float(b))
+    return [out[P] for P in sorted(out)]
 
 
 def _end_pair(end, line, t):
