@@ -243,7 +243,8 @@ def clapeyron_residual(th: Thermodynamics, P: float, T: float, x1: float, x2: fl
 def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool = True,
                clapeyron_step: float = 1e-3) -> CoexistencePoint:
     """Assemble a checked coexistence point from a solved pair (``clapeyron_step``: the
-    relative pressure step of the Clausius-Clapeyron check, see :func:`clapeyron_residual`)."""
+    relative pressure step of the Clausius-Clapeyron check, see :func:`clapeyron_residual`;
+    None: no Clapeyron check, e.g. where no step both stays on the line and beats round-off)."""
     T1, T2 = float(th.T(x1, P)), float(th.T(x2, P))
     G1, G2 = float(th.G(x1, P)), float(th.G(x2, P))
     S1, S2 = float(th.S(x1, P)), float(th.S(x2, P))
@@ -260,8 +261,9 @@ def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool 
                                    + abs(T * S1) + abs(T * S2) + 1e-300))
     if checks:
         object.__setattr__(pt, "equal_area_residual", equal_area_residual(th, T, P, x1, x2))
-        object.__setattr__(pt, "clapeyron_residual",
-                           clapeyron_residual(th, P, T, x1, x2, clapeyron_step))
+        if clapeyron_step is not None:
+            object.__setattr__(pt, "clapeyron_residual",
+                               clapeyron_residual(th, P, T, x1, x2, clapeyron_step))
     return pt
 
 

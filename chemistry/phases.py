@@ -368,7 +368,9 @@ def _topology_changes(sks, a, b, all_cps) -> list:
         for cp in sorted(all_cps, key=lambda c: c.P):
             if not (cur < cp.P < b):
                 continue
-            left, right = cp.P * (1 - _ETA_TOPOLOGY), cp.P * (1 + _ETA_TOPOLOGY)
+            eta = min([_ETA_TOPOLOGY, 0.25 * math.log(cp.P / cur), 0.25 * math.log(b / cp.P)]
+                      + [0.25 * abs(math.log(o.P / cp.P)) for o in all_cps if o.P != cp.P])
+            left, right = cp.P * (1 - eta), cp.P * (1 + eta)
             if left > cur and sks.topology(left) == tc and sks.topology(right) != tc:
                 found = (cp.P, left, right, cp)
                 break
@@ -763,7 +765,9 @@ def _dense_first_order(th, line, members, grid, warnings, isobar):
     lo_, hi_ = np.minimum(g_from, g_to), np.maximum(g_from, g_to)
     a, b, ok = coexistence_newton(th, grid, lo_, hi_)
     near = (np.abs(np.log(a / lo_)) < 0.3) & (np.abs(np.log(b / hi_)) < 0.3)
-    # ends where a branch stops (terminal, triple): the Clapeyron step stays well inside
+    # where a branch of the line stops (terminal, triple point, domain edge), T(P) has a
+    # (P - P_end)^(3/2) term: the Clapeyron step stays well inside.  (Towards a critical
+    # point the step stays 1e-3 P; a step that crosses P_c gives no value, as before.)
     stops = [e["P"] for e in line.ends.values() if e["type"] not in ("critical point",
                                                                      "range end")]
     pts, failed = [], []
@@ -790,7 +794,9 @@ def _dense_first_order(th, line, members, grid, warnings, isobar):
 
 
 def _approach_critical(th, cp, P_last, direction):
-    """Coexistence points from P_last towards P_c, geometrically, down to 1e-10."""
+    """Coexistence points from P_last towards P_c, geometrically, down to 1e-10; checked
+    (equal T, G, equal area) down to 1 - P/P_c = 1e-7.  No Clausius-Clapeyron check: its
+    finite-difference step cannot stay on the line this close to P_c."""
     pts = []
     gap = abs(1 - P_last / cp.P)
     for s in np.geomspace(gap, 1e-10, 40)[1:]:
@@ -799,7 +805,7 @@ def _approach_critical(th, cp, P_last, direction):
         if res is None:
             continue
         T, x1, x2 = res
-        pts.append(make_point(th, P, x1, x2, checks=s > 1e-7))
+        pts.append(make_point(th, P, x1, x2, checks=s > 1e-7, clapeyron_step=None))
     return pts
 
 
@@ -875,6 +881,32 @@ def _refine_event_triple(th, e: PressureEvent):
     xs_sorted = tuple(float(v) for v in np.sort([x1, x2, x3]))
     return TriplePoint(T=T, P=Pt, phases=tuple(names), states=xs_sorted,
                        G=float(th.G(x1, Pt)), residual=r)
+
+
+def _on_preferred_phase(sks, e: PressureEvent) -> bool:
+    """Whether the phases of a scalar-function event have the lowest G of all stable phases
+    at its temperature (skeleton at P_e): then the preferred phase changes there and the
+    isobars beside it must show it."""
+    if e.key is None or e.T is None or not math.isfinite(e.T):
+        return False
+    sk = sks.get(e.P)
+    if e.key[0] == "ends":
+        involved = {e.key[1][0], e.key[2][0]}
+    elif e.key[0] == "gibbs":
+        involved = {e.key[1][0], e.key[2]}
+    else:
+        involved = {*e.key[1], e.key[2]}
+    G = {}
+    for k in sk.stable:
+        if sk.exists_at(k, e.T):
+            g, _ = sk.gibbs(sks.th, k, e.T)
+            if g is not None:
+                G[k] = g
+    if not G or not involved & set(G):
+        return False
+    g_min = min(G.values())
+    tol = 1e-12 * (abs(g_min) + 1e-300)
+    return min(G[k] for k in involved if k in G) <= g_min + tol
 
 
 def _span(e: PressureEvent) -> float:
@@ -954,6 +986,14 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
     if sks.exhausted:
         warnings.append(f"the event scan stopped after {MAX_SKELETONS} skeletons: events "
                         "may be missing")
+    for e in events:
+        if not e.relevant and _on_preferred_phase(sks, e):
+            d = _span(e)
+            warnings.append(
+                f"the scalar functions place a {e.kind} on the preferred phase at "
+                f"P = {e.P:.12g} (T = {e.T:.12g}; {', '.join(e.phases)}), but the isobar "
+                f"analysis at P (1 +- {d:.0e}) does not resolve the change: a structure "
+                "narrower than the isobars resolve is missing from the lines")
 
     lines, triple_points, tp_of = [], [], {}
     for rl in raw:
