@@ -204,10 +204,20 @@ def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000,
                 pieces.append((xa, xb, ea, eb))
         i = j + 1
     branches = []
+    # a domain edge where T reaches 0 (extremality, the condition T >= 0) is located to
+    # 1e-14 in x, so T there is round-off of 0: it is set to 0 exactly, else two branches
+    # that both start at T = 0 would be ordered by noise (a spurious zeroth-order jump at
+    # T ~ 1e-16)
+    with np.errstate(all="ignore"):
+        T_scale = float(np.median(np.abs(th.T(xs[phys], P)))) if np.any(phys) else 0.0
+
+    def end_T(x, kind):
+        T = float(th.T(x, P))
+        return 0.0 if kind == "domain" and abs(T) <= 1e-11 * T_scale else T
     for idx, (xa, xb, ea, eb) in enumerate(pieces):
         xm = math.sqrt(xa * xb)
         cp = float(th.quantity("C_P", xm, P))
-        branches.append(Branch(idx, xa, xb, float(th.T(xa, P)), float(th.T(xb, P)),
+        branches.append(Branch(idx, xa, xb, end_T(xa, ea), end_T(xb, eb),
                                bool(cp > 0), "", (ea, eb)))
     return _label(branches, "black hole" if th.family.gravitational else "fluid")
 
@@ -305,6 +315,10 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     G_bg = float(th.quantity("G_background", 1.0, P)) if has_bg else None
 
     T_lo = 0.0 if has_bg else min(b.T_min for b in branches)  # the background exists at all T
+    if th.family.require_nonnegative_temperature:
+        # a spinodal can dip below T = 0 between the grid points of the physical mask: the
+        # states there are not physical, and the walk starts at T = 0
+        T_lo = max(T_lo, 0.0)
     T_hi = max(b.T_max for b in branches)
     # a branch cut by the search range (not by physics) continues beyond it: above the
     # lowest such temperature the branch list is incomplete, so stop the walk there
@@ -625,6 +639,10 @@ def isobar_skeleton(th: Thermodynamics, P: float, critical_points=()) -> IsobarS
         for side, (x, kind) in enumerate(((b.x_min, b.ends[0]), (b.x_max, b.ends[1]))):
             if kind in ("spinodal", "domain"):
                 T = b.T_at_x_min if side == 0 else b.T_at_x_max
+                if T < 0 and th.family.require_nonnegative_temperature:
+                    # a spinodal dipping below T = 0 between the mask's grid points: the
+                    # physical branch ends where T = 0 (next to it)
+                    T, kind = 0.0, "domain"
                 ends.append(BranchEnd(b.index, side, kind, float(x), float(T),
                                       float(th.G(x, P))))
     topo = tuple((b.stable, b.ends) for b in branches) + (("background",) if has_bg else ())

@@ -80,7 +80,7 @@ _DELTA_CRITICAL = 1e-3
 #: events closer than this (relative) are one cluster
 _COINCIDENT = 1e-11
 #: largest number of skeletons one diagram may evaluate (bounds the work by a count)
-MAX_SKELETONS = 8000
+MAX_SKELETONS = 3000
 
 _MARGIN_KINDS = {"ends": "branch ends meet", "gibbs": "crossing meets branch end",
                  "triple": "triple point"}
@@ -610,7 +610,7 @@ def _near_anchors(events, lo, hi) -> None:
     them); never beyond a neighbouring event or the range."""
     evs = sorted(events, key=lambda e: e.P)
     for idx, e in enumerate(evs):
-        if e.anchors:
+        if e.kind == "unexplained":  # its anchors are the ends of its bisection
             continue
         d = _DELTA_CRITICAL if e.kind == "critical point" else _DELTA
         for other in evs[:idx][::-1]:
@@ -884,10 +884,11 @@ def _refine_event_triple(th, e: PressureEvent):
 
 
 def _on_preferred_phase(sks, e: PressureEvent) -> bool:
-    """Whether the phases of a scalar-function event have the lowest G of all stable phases
-    at its temperature (skeleton at P_e): then the preferred phase changes there and the
-    isobars beside it must show it."""
-    if e.key is None or e.T is None or not math.isfinite(e.T):
+    """Whether a scalar-function event lies on the preferred phase: at its temperature
+    (T > 0; the walk of the preferred phase starts at T = 0) no stable phase other than the
+    ones it involves has a lower G (skeleton at P_e).  Then the isobars beside it must show a
+    change."""
+    if e.key is None or e.T is None or not math.isfinite(e.T) or e.T <= 0:
         return False
     sk = sks.get(e.P)
     if e.key[0] == "ends":
@@ -902,11 +903,12 @@ def _on_preferred_phase(sks, e: PressureEvent) -> bool:
             g, _ = sk.gibbs(sks.th, k, e.T)
             if g is not None:
                 G[k] = g
-    if not G or not involved & set(G):
+    mine = [G[k] for k in involved if k in G]
+    if not mine:
         return False
-    g_min = min(G.values())
-    tol = 1e-12 * (abs(g_min) + 1e-300)
-    return min(G[k] for k in involved if k in G) <= g_min + tol
+    others = [g for k, g in G.items() if k not in involved]
+    g = min(mine)
+    return not others or g <= min(others) + 1e-12 * (abs(g) + 1e-300)
 
 
 def _span(e: PressureEvent) -> float:
@@ -1007,7 +1009,14 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
             if line.phases and line.phases[-1][2:] == (f, to):
                 line.phases[-1] = (line.phases[-1][0], P, f, to)
             else:
-                line.phases.append((P, P, f, to))
+                if line.phases:  # the names change at the event between the two anchors
+                    P_prev = line.phases[-1][1]
+                    at = [e.P for e in events if P_prev < e.P < P]
+                    cut = at[0] if at else math.sqrt(P_prev * P)
+                    line.phases[-1] = (*line.phases[-1][:1], cut, *line.phases[-1][2:])
+                    line.phases.append((cut, P, f, to))
+                else:
+                    line.phases.append((P, P, f, to))
         for side, desc, (Pm, tm) in (("low", rl["low"], members[0]),
                                      ("high", rl["high"], members[-1])):
             if desc[0] == "range":
@@ -1110,6 +1119,7 @@ def _densify(th, sks, line, members, n_dense, warnings, isobar) -> None:
     grid = np.unique(grid[(grid >= min(P_lo, g_lo)) & (grid <= max(P_hi, g_hi))])
 
     if line.kind == "first-order":
+        zero_ends = []
         pts = _dense_first_order(th, line, members, grid, warnings, isobar)
         for side, end in (("low", lo_end), ("high", hi_end)):
             if end["type"] == "critical point":
@@ -1117,14 +1127,17 @@ def _densify(th, sks, line, members, n_dense, warnings, isobar) -> None:
                 pts += _approach_critical(th, cp, P_edge, 1 if side == "high" else -1)
             elif _exact_end(end) and end["type"] != "range end":
                 pair = _end_pair(end, line, members[0 if side == "low" else -1][1])
-                if pair is not None:
+                if pair is not None and end["T"] > 0:
                     pts.append(make_point(th, end["P"], *sorted(pair), checks=False))
+                elif pair is not None:  # the line reaches T = 0: no relative residual there
+                    zero_ends.append((end["P"], *sorted(pair)))
         pts.sort(key=lambda p: p.P)
         line.coexistence = pts
         flip = members[0][1].states[0].x > members[0][1].states[1].x
         line.states = _merge_states(line.states, [(p.P, p.x2, p.x1) if flip else
                                                   (p.P, p.x1, p.x2) for p in pts])
-        line.points = [(p.T, p.P) for p in pts]
+        line.points = sorted([(p.T, p.P) for p in pts] + [(0.0, P) for P, _, _ in zero_ends],
+                             key=lambda q: q[1])
         line.checks = _line_checks(pts)
         if cp is not None:
             line.states.append((cp.P, cp.x, cp.x))

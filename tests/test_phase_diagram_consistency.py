@@ -35,7 +35,9 @@ CASES = {
     "gauss-bonnet-ads": ({"d": 6, "k": 1, "alpha": 1 / 6, "Q": 0.38}, (0.012, 0.08)),
     "kerr-ads": ({}, None),
     "kerr-newman-ads": ({}, None),
-    "lovelock3-ads": ({}, None),
+    # hyperbolic: a first-order line from a terminal point at T = 0 to a critical point, a
+    # second one from another critical point to the range end
+    "lovelock3-ads": ({"d": 7, "k": -1, "alpha2": 1.0, "alpha3": 2.5, "Q": 0.3}, None),
     "rn-ads": ({}, None),
     "schwarzschild-ads": ({"d": 5}, None),
     "vdw-fluid": ({}, None),

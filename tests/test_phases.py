@@ -277,3 +277,17 @@ def test_isobar_resolves_a_window_narrower_than_its_grid():
         a, b = t.states
         assert abs(a.G - b.G) <= 1e-13 * (abs(a.G) + abs(b.G))
         assert t.residual <= 1e-12
+
+
+def test_no_transition_at_zero_temperature():
+    """Exact: a state with T < 0 is not physical (the family requires T >= 0), so the walk of
+    the preferred phase starts at T = 0 and no transition sits at T <= 0.  Third-order
+    Lovelock, k = -1 (Frassino, Kubiznak, Mann & Simovic 2014 for the family): on this isobar
+    the large branch's lower spinodal dips to T = -6e-7 between grid points of the physical
+    mask, and the small branch starts at the extremal T = 0 (located to 1e-14 in r, so T there
+    is round-off of 0); a 'zeroth-order transition' at T ~ 1e-16 was reported."""
+    th = bind("lovelock3-ads", d=7, k=-1, alpha2=1.0, alpha3=2.5, Q=0.3)
+    res = analyze_isobar(th, 0.01657859)
+    assert all(t.T > 0 for t in res.transitions)
+    assert res.preferred[0][0] == 0.0 and res.preferred[0][2] == "small"
+    assert [t.kind for t in res.transitions] == ["first-order"]
