@@ -248,7 +248,10 @@ def _label(branches: list[Branch], single: str = "black hole") -> list[Branch]:
 
 
 def branch_state_at(th, P, br: Branch, T: float) -> float | None:
-    """Invert the monotone branch: the x on ``br`` where T(x) = T (None outside)."""
+    """Invert the monotone branch: the x on ``br`` where T(x, P) = T, or None outside its
+    temperature range.  Brent's method to 1e-15 relative in x (the absolute tolerance is
+    scaled by the branch's *small* end, so a branch running to the end of the search range
+    keeps full relative precision)."""
     if not (br.T_min <= T <= br.T_max):
         return None
     f = lambda z: float(th.T(z, P)) - T  # noqa: E731
@@ -625,9 +628,24 @@ class IsobarSkeleton:
 
 
 def isobar_skeleton(th: Thermodynamics, P: float, critical_points=()) -> IsobarSkeleton:
-    """The skeleton of the isobar at P (see :class:`IsobarSkeleton`); cheap: one branch split
-    and a few function values, no temperature grid.  No physical state: no branches and
-    topology ``('no state',)``."""
+    """The skeleton of the isobar at P (see :class:`IsobarSkeleton`).
+
+    Cheap: one split of T(x) into monotone branches at its stationary points T_x = 0 (the
+    spinodals) and domain edges, and T, G at the physical ends of the stable branches
+    (C_P = T S_x / T_x > 0); no temperature grid and no walk of the preferred phase.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    P : float
+    critical_points : sequence
+        As for :func:`analyze_isobar` (the branch grid is made dense near them).
+
+    Returns
+    -------
+    IsobarSkeleton
+        With no branches and topology ``('no state',)`` where there is no physical state.
+    """
     branches = tuple(isobar_branches(th, P, critical_points)) if P > 0 else ()
     has_bg = th.has("G_background")
     bg = th.family.background_name if has_bg else None

@@ -1239,12 +1239,24 @@ def _end_pair(end, line, t):
 
 
 def line_transition_at(th: Thermodynamics, line: PhaseLine, P: float, critical_points=()):
-    """The line's transition at pressure P, solved from its own equations (seeded from its
-    states): coexistence (equal T and G) for a first-order line, G = G_background for a
-    Hawking-Page line, the end temperature of the branch that ends for a zeroth-order line.
+    r"""The line's transition at pressure P, solved from its own equations, seeded from its
+    states (interpolated in log P, or in sqrt|1 - P/P_c| towards a critical end):
 
-    Returns a dict (kind, from, to, T, P, x_from, x_to), or None outside the line's pressure
-    interval or when the solve does not converge."""
+    * first order: T(x_1, P) = T(x_2, P), G(x_1, P) = G(x_2, P) (vectorised Newton of
+      :mod:`chemistry.coexistence`; the near-critical solver within 1e-3 of P_c);
+    * Hawking-Page: G(x, P) = G_background(P) (Newton in log x, G_x = -S T_x);
+    * zeroth order: T_x(x, P) = 0 at the spinodal (or the domain edge) where the branch ends,
+      from the skeleton (:func:`chemistry.isobar.isobar_skeleton`).
+
+    Independent of :func:`chemistry.isobar.analyze_isobar` (no temperature grid, no walk).
+
+    Returns
+    -------
+    dict or None
+        ``kind``, ``from``, ``to`` (the phases' names at P), ``T``, ``P``, ``x_from``,
+        ``x_to`` (NaN for the background phase); None outside the line's pressure interval or
+        when the solve does not converge.
+    """
     lo, hi = line.ends["low"]["P"], line.ends["high"]["P"]
     if not (lo <= P <= hi) or not line.states:
         return None

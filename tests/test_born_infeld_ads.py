@@ -409,3 +409,20 @@ def test_reentrance_reaches_down_to_the_critical_threshold():
     assert z.ends["high"]["P"] == pytest.approx(b * (1 - 2 * b) / (8 * math.pi), rel=1e-13)
     below = phase_diagram(bind("born-infeld-ads", b=edge * (1 - 1e-3), Q=1.0), n_dense=4)
     assert below.critical_points == () and below.lines == []
+
+
+@pytest.mark.parametrize("b", [0.418, 0.433, 0.463, 0.478])
+def test_reentrant_window_at_every_b(b):
+    """Between bQ = 1/sqrt(8) and 1/2 the window exists at every b (issue 19; the atlas
+    inherits it): with the atlas's settings (48 anchors, 4 dense points) the diagram has the
+    zeroth-order line, its upper end is b(1 - 2b)/(8 pi) (derived above), and there is no
+    triple point: only two phases (small, large) are ever stable here, and a triple point
+    needs three.  (With the anchors alone, these b lost the window or showed a spurious triple
+    point.)"""
+    from chemistry.phases import phase_diagram
+    pd = phase_diagram(bind("born-infeld-ads", b=b, Q=1.0), n_anchor=48, n_dense=4)
+    (z,) = [ln for ln in pd.lines if ln.kind == "zeroth-order"]
+    assert z.ends["high"]["P"] == pytest.approx(b * (1 - 2 * b) / (8 * math.pi), rel=1e-13)
+    assert z.ends["low"]["P"] < z.ends["high"]["P"]
+    assert "reentrant" in pd.structure and "triple-point" not in pd.structure
+    assert not pd.triple_points and not pd.warnings
