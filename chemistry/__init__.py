@@ -44,7 +44,7 @@ from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.critical_scan import CriticalScan, critical_scan
 from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_exponents
 from bhchem.analysis.isobar import IsobarResult, Transition, analyze_isobar
-from bhchem.analysis.coexistence import CoexistenceCurve, coexistence_curve
+from bhchem.analysis.coexistence_line import CoexistenceCurve, coexistence_curve
 from bhchem.analysis.phases import PhaseDiagram, PhaseLine, TriplePoint, phase_diagram
 from bhchem.analysis.figure_data import (CpCurves, GtCurves, PtDiagram, PvCurves, TrCurves,
                                          cp_curves, gt_curves, pt_diagram, pv_curves, tr_curves)

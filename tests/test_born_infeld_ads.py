@@ -270,3 +270,159 @@ def test_equation_of_state_closed_form():
     for args in ((0.03, 2.0, 1.0, 1.0), (0.1, 0.7, 0.3, 2.0), (0.01, 9.0, 4.0, 0.5)):
         got, want = fn(*args)
         assert got == pytest.approx(want, rel=1e-13)
+
+
+# -- reentrance: the zeroth-order window (issue 19) ------------------------------------------------
+#: values of issue 19, from an independent 30-digit mpmath calculation in the bundled
+#: normalisation (quoted there; the window's upper end is the closed form b(1 - 2b)/(8 pi))
+ISSUE19_P_LOW = 0.00251858306
+ISSUE19_T_ZEROTH_AT_0026 = 0.0394662403775
+ISSUE19_T_FIRST_AT_0026 = 0.0398342267185
+
+
+def _mp_T(r, P, b, Q=1):
+    """GKM12 Sec. 4 temperature in mpmath (the module's formula is not used)."""
+    x = Q**2 / (b**2 * r**4)
+    return (1 + 8 * mp.pi * P * r**2 + 2 * b**2 * r**2 * (1 - mp.sqrt(1 + x))) / (4 * mp.pi * r)
+
+
+def _mp_G(r, P, b, Q=1):
+    return paper(r, P, b, Q, dps=mp.mp.dps)["G"]
+
+
+def _mp_window(b, seeds_low, seeds_high):
+    """The two ends of the zeroth-order window, solved at 30 digits (seeds only from the tool):
+    low end: T'(r1) = 0 (the small branch's lower spinodal), T(r2) = T(r1), G(r2) = G(r1);
+    high end: T'(r1) = T'(r2) = 0 with T(r1) = T(r2) (the two lower spinodals at equal T)."""
+    b = mp.mpf(b)
+    Tr = lambda r, P: mp.diff(lambda z: _mp_T(z, P, b), r)  # noqa: E731
+    r1, r2, Pa = mp.findroot(lambda r1, r2, P: [Tr(r1, P), _mp_T(r1, P, b) - _mp_T(r2, P, b),
+                                                _mp_G(r1, P, b) - _mp_G(r2, P, b)],
+                             [mp.mpf(v) for v in seeds_low])
+    s1, s2, Pb = mp.findroot(lambda r1, r2, P: [Tr(r1, P), Tr(r2, P),
+                                                _mp_T(r1, P, b) - _mp_T(r2, P, b)],
+                             [mp.mpf(v) for v in seeds_high])
+    return (Pa, _mp_T(r1, Pa, b)), (Pb, _mp_T(s1, Pb, b), s1, s2)
+
+
+@pytest.fixture(scope="module")
+def diagram_042():
+    from bhchem.analysis.phases import phase_diagram
+    return phase_diagram(bind("born-infeld-ads", b=0.42, Q=1.0))
+
+
+def test_symmetric_isobar_at_the_upper_end_of_the_window():
+    """Derived here: with Q = 1, s = sqrt(b^2 r^4 + 1) and 8 pi P = b (1 - 2b), the GKM12
+    temperature is 4 pi T = 1/r + b r - 2 b s / r = sqrt(b/u) (1 + u - 2 b sqrt(1 + u^2)),
+    u = b r^2, which is invariant under u -> 1/u (r -> 1/(b r)).  So on that isobar every
+    stationary point of T(r) has a mirror image at equal T: the two lower spinodals (of the
+    small and the large branch) have equal temperatures exactly at P = b(1 - 2b)/(8 pi)."""
+    with mp.workdps(30):
+        for bv in ("0.40", "0.42", "0.47"):
+            b = mp.mpf(bv)
+            P = b * (1 - 2 * b) / (8 * mp.pi)
+            for r in (mp.mpf("0.3"), mp.mpf("0.9"), mp.mpf("2.5")):
+                assert abs(_mp_T(r, P, b) - _mp_T(1 / (b * r), P, b)) < mp.mpf(10) ** -28
+
+
+def test_reentrant_window_at_b_042(diagram_042):
+    """Issue 19: at Q = 1, b = 0.42 a zeroth-order line large -> small for P from
+    0.00251858306 to b(1 - 2b)/(8 pi) (independent high-precision values quoted in the
+    issue), structure reentrant.  Checked again here against our own 30-digit mpmath solve of
+    the GKM12 formulas (_mp_window): both ends to 1e-12 (measured ~1e-16), their temperatures
+    to 1e-12, and the two spinodals at the upper end are mirror images, r1 r2 = 1/b
+    (test_symmetric_isobar_at_the_upper_end_of_the_window)."""
+    pd = diagram_042
+    assert "reentrant" in pd.structure
+    (z,) = [ln for ln in pd.lines if ln.kind == "zeroth-order"]
+    assert set(z.between) == {"large", "small"}
+    lo, hi = z.ends["low"], z.ends["high"]
+    b = 0.42
+    assert lo["P"] == pytest.approx(ISSUE19_P_LOW, rel=2e-9)  # the issue quotes 9 digits
+    assert hi["P"] == pytest.approx(b * (1 - 2 * b) / (8 * math.pi), rel=1e-13)
+    with mp.workdps(30):
+        (Pa, Ta), (Pb, Tb, s1, s2) = _mp_window(b, (0.7286, 4.4186, lo["P"]),
+                                                (0.7214, 3.3004, hi["P"]))
+        assert lo["P"] == pytest.approx(float(Pa), rel=1e-12)
+        assert hi["P"] == pytest.approx(float(Pb), rel=1e-12)
+        assert lo["T"] == pytest.approx(float(Ta), rel=1e-12)
+        assert hi["T"] == pytest.approx(float(Tb), rel=1e-12)
+        assert float(s1 * s2) == pytest.approx(1 / b, rel=1e-12)
+    # every end is explained: terminal points, naming the branch that ends and the partner
+    assert lo["type"] == hi["type"] == "terminal point"
+    assert "small branch ends" in lo["branch"] and "large branch ends" in hi["branch"]
+    (f,) = [ln for ln in pd.lines if ln.kind == "first-order"]
+    assert f.ends["low"]["type"] == "terminal point"
+    assert f.ends["low"]["P"] == lo["P"] and f.ends["high"]["type"] == "critical point"
+    assert any("zeroth-order" in p for p in f.ends["low"]["partners"])
+    # the points reach the ends
+    for ln in (z, f):
+        assert ln.points[0][1] == ln.ends["low"]["P"] and ln.points[-1][1] == ln.ends["high"]["P"]
+        assert ln.points[0][0] == pytest.approx(ln.ends["low"]["T"], rel=1e-12)
+    assert not pd.warnings
+
+
+def test_isobar_in_the_window_matches_the_diagram(diagram_042):
+    """At P = 0.0026 (inside the window) the isobar has the zeroth-order transition at the
+    small branch's lower spinodal and the first-order one (values of issue 19, 12 digits), each
+    checked against mpmath (T'(r) = 0; equal T and G at 30 digits); the diagram's two lines,
+    solved from their own equations at that P, give the same temperatures to 1e-10."""
+    from bhchem.analysis.isobar import analyze_isobar
+    from bhchem.analysis.phases import diagram_transitions_at
+    th = bind("born-infeld-ads", b=0.42, Q=1.0)
+    P = 0.0026
+    zeroth, first = analyze_isobar(th, P).transitions
+    assert (zeroth.kind, zeroth.from_phase, zeroth.to_phase) == ("zeroth-order", "large", "small")
+    assert (first.kind, first.from_phase, first.to_phase) == ("first-order", "small", "large")
+    assert zeroth.T == pytest.approx(ISSUE19_T_ZEROTH_AT_0026, rel=2e-12)
+    assert first.T == pytest.approx(ISSUE19_T_FIRST_AT_0026, rel=2e-12)
+    with mp.workdps(30):
+        b, Pm = mp.mpf("0.42"), mp.mpf(P)
+        r_sp = mp.findroot(lambda r: mp.diff(lambda z: _mp_T(z, Pm, b), r),
+                           mp.mpf(zeroth.states[1].x))
+        assert zeroth.T == pytest.approx(float(_mp_T(r_sp, Pm, b)), rel=1e-13)
+        r1, r2 = mp.findroot(lambda a, c: [_mp_T(a, Pm, b) - _mp_T(c, Pm, b),
+                                           _mp_G(a, Pm, b) - _mp_G(c, Pm, b)],
+                             (mp.mpf(first.states[0].x), mp.mpf(first.states[1].x)))
+        assert first.T == pytest.approx(float(_mp_T(r1, Pm, b)), rel=1e-13)
+    lines = diagram_transitions_at(th, diagram_042, P)
+    assert [(d["kind"], d["from"], d["to"]) for d in lines] == \
+        [("zeroth-order", "large", "small"), ("first-order", "small", "large")]
+    for d, t in zip(lines, (zeroth, first)):
+        assert d["T"] == pytest.approx(t.T, rel=1e-10)
+
+
+def test_reentrance_reaches_down_to_the_critical_threshold():
+    """The window needs the stable small branch, which exists only between the two critical
+    pressures that appear at bQ = 1/sqrt(8) (GKM12; test_family_analyses); the window sits
+    inside that interval and is still found just above the threshold, where the interval is
+    ~2e-7 of P wide (the log-spaced anchors alone cannot see it); below the threshold there is
+    neither critical point nor reentrance."""
+    from bhchem.analysis.phases import phase_diagram
+    edge = 1 / math.sqrt(8)
+    above = phase_diagram(bind("born-infeld-ads", b=edge * (1 + 1e-3), Q=1.0), n_dense=4)
+    (z,) = [ln for ln in above.lines if ln.kind == "zeroth-order"]
+    c1, c2 = sorted(cp.P for cp in above.critical_points)
+    assert c1 < z.ends["low"]["P"] < z.ends["high"]["P"] < c2
+    assert "reentrant" in above.structure and not above.warnings
+    b = edge * (1 + 1e-3)
+    assert z.ends["high"]["P"] == pytest.approx(b * (1 - 2 * b) / (8 * math.pi), rel=1e-13)
+    below = phase_diagram(bind("born-infeld-ads", b=edge * (1 - 1e-3), Q=1.0), n_dense=4)
+    assert below.critical_points == () and below.lines == []
+
+
+@pytest.mark.parametrize("b", [0.418, 0.433, 0.463, 0.478])
+def test_reentrant_window_at_every_b(b):
+    """Between bQ = 1/sqrt(8) and 1/2 the window exists at every b (issue 19; the atlas
+    inherits it): with the atlas's settings (48 anchors, 4 dense points) the diagram has the
+    zeroth-order line, its upper end is b(1 - 2b)/(8 pi) (derived above), and there is no
+    triple point: only two phases (small, large) are ever stable here, and a triple point
+    needs three.  (With the anchors alone, these b lost the window or showed a spurious triple
+    point.)"""
+    from bhchem.analysis.phases import phase_diagram
+    pd = phase_diagram(bind("born-infeld-ads", b=b, Q=1.0), n_anchor=48, n_dense=4)
+    (z,) = [ln for ln in pd.lines if ln.kind == "zeroth-order"]
+    assert z.ends["high"]["P"] == pytest.approx(b * (1 - 2 * b) / (8 * math.pi), rel=1e-13)
+    assert z.ends["low"]["P"] < z.ends["high"]["P"]
+    assert "reentrant" in pd.structure and "triple-point" not in pd.structure
+    assert not pd.triple_points and not pd.warnings

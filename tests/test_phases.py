@@ -232,3 +232,62 @@ def test_cli_bad_pressures(capsys, argv, match):
     assert main(argv) == 2
     err = capsys.readouterr().err
     assert match in err and err.count("\n") == 1
+
+
+# -- issue 19: windows narrower than a grid cell, precise inversions -------------------------------
+def test_branch_inversion_is_precise_on_long_branches():
+    """The state at temperature T on a monotone branch: T(x) = T to 1e-14 relative (measured
+    ~2e-16) even on the large branch, which runs to the end of the search range (x ~ 2.5e5;
+    an absolute x tolerance scaled by that end left |T(x) - T|/T ~ 5e-12)."""
+    from bhchem.analysis.isobar import branch_state_at, find_branches
+    th = bind("born-infeld-ads", b=0.42, Q=1.0)
+    P = 0.0026
+    (large,) = [b for b in find_branches(th, P) if b.label == "large"]
+    assert large.x_max > 1e4 * large.x_min
+    for T in np.linspace(large.T_min * 1.0001, 0.06, 40):
+        x = branch_state_at(th, P, large, T)
+        assert abs(float(th.T(x, P)) - T) <= 1e-14 * T
+
+
+def test_isobar_resolves_a_window_narrower_than_its_grid():
+    """Wei & Liu, PRD 90 (2014) 044057: charged GB in d = 6 (alpha~ = 1, their charge in the
+    triple-point window; see test_family_analyses) has a triple point.  Exact consequence:
+    just above the triple pressure the intermediate phase is preferred on a temperature window
+    that shrinks linearly to zero at the triple point, between a small/intermediate and an
+    intermediate/large first-order transition, each with equal T and G; just below, one
+    small/large transition.  At 1 + 1e-7 times the triple pressure that window is ~1e-9 of T
+    wide, far inside one cell of the isobar's temperature grid: it must still be found."""
+    from bhchem.analysis.phases import refine_triple_point
+    th = bind("gauss-bonnet-ads", d=6, k=1, alpha=1 / 6, Q=0.38)
+    si, il = analyze_isobar(th, 0.0196).transitions  # all three phases take part here
+    xs = [si.states[0].x, si.states[1].x, il.states[1].x]
+    Pt, x1, x2, x3, res = refine_triple_point(th, 0.0196, xs)
+    assert res <= 1e-12
+    Tt = float(th.T(x1, Pt))
+    below = analyze_isobar(th, Pt * (1 - 1e-7)).transitions
+    assert [(t.kind, t.from_phase, t.to_phase) for t in below] == \
+        [("first-order", "small", "large")]
+    above = analyze_isobar(th, Pt * (1 + 1e-7)).transitions
+    assert [(t.kind, t.from_phase, t.to_phase) for t in above] == \
+        [("first-order", "small", "intermediate"), ("first-order", "intermediate", "large")]
+    lo, hi = above
+    assert 0 < hi.T - lo.T < 1e-8 * Tt
+    assert abs(lo.T - Tt) < 1e-7 * Tt
+    for t in above:
+        a, b = t.states
+        assert abs(a.G - b.G) <= 1e-13 * (abs(a.G) + abs(b.G))
+        assert t.residual <= 1e-12
+
+
+def test_no_transition_at_zero_temperature():
+    """Exact: a state with T < 0 is not physical (the family requires T >= 0), so the walk of
+    the preferred phase starts at T = 0 and no transition sits at T <= 0.  Third-order
+    Lovelock, k = -1 (Frassino, Kubiznak, Mann & Simovic 2014 for the family): on this isobar
+    the large branch's lower spinodal dips to T = -6e-7 between grid points of the physical
+    mask, and the small branch starts at the extremal T = 0 (located to 1e-14 in r, so T there
+    is round-off of 0); a 'zeroth-order transition' at T ~ 1e-16 was reported."""
+    th = bind("lovelock3-ads", d=7, k=-1, alpha2=1.0, alpha3=2.5, Q=0.3)
+    res = analyze_isobar(th, 0.01657859)
+    assert all(t.T > 0 for t in res.transitions)
+    assert res.preferred[0][0] == 0.0 and res.preferred[0][2] == "small"
+    assert [t.kind for t in res.transitions] == ["first-order"]

@@ -244,7 +244,8 @@ def test_cli_report_flag_is_wired():
 
 
 def test_phases_text_counts_what_the_json_holds():
-    from bhchem.analysis.phases import diagram_json, diagram_text, phase_diagram
+    from bhchem.analysis.phases import phase_diagram
+    from bhchem.present.phase_text import diagram_json, diagram_text
     pd = phase_diagram(bind("rn-ads", Q=1.0))
     doc, text = diagram_json(pd), diagram_text(pd)
     heads = [ln for ln in text.splitlines() if re.match(r"\s+\S+ line .* points", ln)]

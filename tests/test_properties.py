@@ -110,7 +110,7 @@ def test_coexisting_states_have_equal_T_P_G_and_G_is_continuous(name):
 @given(st.floats(0.05, 0.95))
 def test_clausius_clapeyron_along_the_line(frac):
     """dP/dT = Delta S / Delta V along charged-AdS coexistence (Richardson slope, <= 1e-8)."""
-    from bhchem.analysis.coexistence import coexistence_curve
+    from bhchem.analysis.coexistence_line import coexistence_curve
     th = bind("rn-ads", Q=1.0)
     cp = find_critical_points(th).points[0]
     curve = coexistence_curve(th, [frac * cp.P], critical_point=cp, checks=True)

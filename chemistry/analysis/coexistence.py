@@ -29,12 +29,13 @@ L = T Delta S; Delta v.
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, replace
 
 import numpy as np
 from scipy.optimize import brentq
 
 from bhchem.core.compiled import Thermodynamics
+from bhchem.numerics import isotherm_pressure
 
 
 @dataclass(frozen=True)
@@ -183,22 +184,6 @@ def coexistence_near_critical(th: Thermodynamics, x_c: float, P_c: float, P: flo
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(64)
 
 
-def isotherm_pressure(th: Thermodynamics, x, T: float, P_guess: float):
-    """P on the isotherm T at states x (vectorised Newton; exact if T is linear in P)."""
-    P = np.full(np.shape(x), float(P_guess))
-    for _ in range(60):
-        f = th.T(x, P) - T
-        fp = th.d("T", "P", x, P)
-        step = f / fp
-        P = P - step
-        if np.all(np.abs(step) <= 1e-16 * np.abs(P)):
-            break
-    return P
-
-
-_isotherm_pressure = isotherm_pressure  # the old name, still used in this module and by exponents
-
-
 def equal_area_residual(th: Thermodynamics, T: float, P: float, x1: float, x2: float) -> float:
     """|int P dV - P (V2 - V1)| / (P |V2 - V1|) along the isotherm.
 
@@ -210,7 +195,7 @@ def equal_area_residual(th: Thermodynamics, T: float, P: float, x1: float, x2: f
     for ua, ub in zip(edges[:-1], edges[1:]):
         us = 0.5 * (ub - ua) * _GL_X + 0.5 * (ua + ub)
         xs = np.exp(us)
-        Ps = _isotherm_pressure(th, xs, T, P)
+        Ps = isotherm_pressure(th, xs, T, P, allow_negative=True)
         # dV/dx along the isotherm = V_x + V_P dP/dx, with dP/dx = -T_x / T_P
         Vx = th.d("V", "x", xs, Ps)
         VP = th.d("V", "P", xs, Ps)
@@ -221,10 +206,14 @@ def equal_area_residual(th: Thermodynamics, T: float, P: float, x1: float, x2: f
     return abs(area - P * dV) / (abs(P * dV) + 1e-300)
 
 
-def clapeyron_residual(th: Thermodynamics, P: float, T: float, x1: float, x2: float) -> float:
+def clapeyron_residual(th: Thermodynamics, P: float, T: float, x1: float, x2: float,
+                       step: float = 1e-3) -> float:
     """|dP/dT - Delta S/Delta V| / |Delta S/Delta V|, with dP/dT of the computed line from
-    four nearby solves (Richardson-extrapolated central differences, error O(h^4))."""
-    h = 1e-3 * P
+    four nearby solves (Richardson-extrapolated central differences, error O(h^4)) at
+    h = ``step`` P.  Near the end of a line (where a branch stops at its spinodal, the line
+    T(P) has a (P - P_end)^(3/2) term) the step must be a small fraction of the distance to
+    the end; :func:`make_point` takes it as ``clapeyron_step``."""
+    h = step * P
     Ps = np.array([P - h, P + h, P - h / 2, P + h / 2])
     a, b, ok = coexistence_newton(th, Ps, np.full(4, x1), np.full(4, x2))
     if not np.all(ok):
@@ -239,8 +228,11 @@ def clapeyron_residual(th: Thermodynamics, P: float, T: float, x1: float, x2: fl
     return abs(slope - ref) / abs(ref)
 
 
-def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool = True) -> CoexistencePoint:
-    """Assemble a checked coexistence point from a solved pair."""
+def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool = True,
+               clapeyron_step: float = 1e-3) -> CoexistencePoint:
+    """Assemble a checked coexistence point from a solved pair (``clapeyron_step``: the
+    relative pressure step of the Clausius-Clapeyron check, see :func:`clapeyron_residual`;
+    None: no Clapeyron check, e.g. where no step both stays on the line and beats round-off)."""
     T1, T2 = float(th.T(x1, P)), float(th.T(x2, P))
     G1, G2 = float(th.G(x1, P)), float(th.G(x2, P))
     S1, S2 = float(th.S(x1, P)), float(th.S(x2, P))
@@ -256,103 +248,8 @@ def make_point(th: Thermodynamics, P: float, x1: float, x2: float, checks: bool 
         residual_G=abs(G1 - G2) / (abs(float(th.M(x1, P))) + abs(float(th.M(x2, P)))
                                    + abs(T * S1) + abs(T * S2) + 1e-300))
     if checks:
-        object.__setattr__(pt, "equal_area_residual", equal_area_residual(th, T, P, x1, x2))
-        object.__setattr__(pt, "clapeyron_residual", clapeyron_residual(th, P, T, x1, x2))
+        pt = replace(pt, equal_area_residual=equal_area_residual(th, T, P, x1, x2))
+        if clapeyron_step is not None:
+            pt = replace(pt, clapeyron_residual=clapeyron_residual(th, P, T, x1, x2,
+                                                                   clapeyron_step))
     return pt
-
-
-def _distance(pair, guess) -> float:
-    return max(abs(math.log(pair[0] / guess[0])), abs(math.log(pair[1] / guess[1])))
-
-
-def _close(pair, guess, tol: float = 0.5) -> bool:
-    return _distance(pair, guess) < tol
-
-
-@dataclass(frozen=True)
-class CoexistenceCurve:
-    """Coexistence points at the requested pressures, and the pressures that failed."""
-
-    points: tuple
-    failed_pressures: tuple
-    message: str
-
-    @property
-    def complete(self) -> bool:
-        return not self.failed_pressures
-
-
-def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anchor: int = 8,
-                      checks: bool = False) -> CoexistenceCurve:
-    """Coexistence points of one first-order transition at many pressures.
-
-    A few anchor isobars (full isobar analysis) seed one vectorised Newton solve over
-    all pressures (guesses interpolated in s = sqrt|1 - P/P_c| when the line ends at
-    ``critical_point``, where the states separate like s; else in log P).  Pressures
-    within 1e-3 of P_c, and any where Newton fails, go to the bracketing near-critical
-    solver, then to a full isobar analysis.  A pressure that still fails is listed in
-    ``failed_pressures``, never dropped silently.
-    """
-    from bhchem.analysis.isobar import analyze_isobar
-    Ps = np.sort(np.asarray(pressures, float))
-    cp = critical_point
-
-    def coord(P):
-        return np.sqrt(np.abs(1 - np.asarray(P) / cp.P)) if cp is not None else np.log(P)
-
-    def direct(P, guess=None):
-        if cp is not None:
-            res = coexistence_near_critical(th, cp.x, cp.P, P)
-            if res is not None and (guess is None or _close((res[1], res[2]), guess)):
-                return res[1], res[2]
-        tr = [tuple(sorted((t.states[0].x, t.states[1].x)))
-              for t in analyze_isobar(th, P).transitions if t.kind == "first-order"]
-        near = [pair for pair in tr if guess is not None and _close(pair, guess)]
-        if near:
-            # this line's pair: the one closest to the states interpolated along the line
-            near.sort(key=lambda pair: _distance(pair, guess))
-            return near[0]
-        if cp is not None:  # else the transition whose T is nearest T_c
-            tr.sort(key=lambda pair: abs(float(th.T(pair[0], P)) - cp.T))
-        return tr[0] if tr else None
-
-    near = np.abs(1 - Ps / cp.P) < 1e-3 if cp is not None else np.zeros(Ps.shape, bool)
-    far = Ps[~near]
-    solved = {}
-    if far.size:
-        anchors = np.unique(np.concatenate([np.geomspace(far[0], far[-1], min(n_anchor, far.size)),
-                                            far[[0, -1]]]))
-        aP, ax1, ax2 = [], [], []
-        for P in anchors:
-            pair = direct(P)
-            if pair is not None:
-                aP.append(P), ax1.append(pair[0]), ax2.append(pair[1])
-        if aP:
-            c, order = coord(np.array(aP)), None
-            order = np.argsort(c)
-            cf = coord(far)
-            g1 = np.exp(np.interp(cf, c[order], np.log(ax1)[order]))
-            g2 = np.exp(np.interp(cf, c[order], np.log(ax2)[order]))
-            a, b, ok = coexistence_newton(th, far, g1, g2)
-            # the same pair as the anchors: a solution far from its guess is another pair
-            near = (np.abs(np.log(a / g1)) < 0.5) & (np.abs(np.log(b / g2)) < 0.5)
-            for P, x1, x2, good in zip(far, a, b, ok & near):
-                if good:
-                    solved[float(P)] = (x1, x2)
-    guesses = {}
-    if far.size and aP:
-        guesses = {float(P): (x1, x2) for P, x1, x2 in zip(far, g1, g2)}
-    failed = []
-    for P in Ps:
-        if float(P) in solved:
-            continue
-        pair = direct(P, guesses.get(float(P)))
-        if pair is None:
-            failed.append(float(P))
-        else:
-            solved[float(P)] = pair
-    pts = tuple(make_point(th, P, *solved[P], checks) for P in sorted(solved))
-    msg = f"{len(pts)} of {len(Ps)} pressures solved"
-    if failed:
-        msg += f"; no coexistence found at {len(failed)} pressure(s)"
-    return CoexistenceCurve(points=pts, failed_pressures=tuple(failed), message=msg)

@@ -73,9 +73,9 @@ from bhchem.analysis.critical import loop_side
 from bhchem.errors import BhchemError
 from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.analysis.critical import find_critical_points
-from bhchem.analysis.response import isotherm_pressure
+from bhchem.numerics import isotherm_pressure
 from bhchem.analysis.response import isotherm_guess
-from bhchem.analysis.coexistence import coexistence_curve
+from bhchem.analysis.coexistence_line import coexistence_curve
 
 CONVENTION = {
     "sign": "R = -2K (K the Gaussian curvature of the Ruppeiner metric): the 2-sphere has "

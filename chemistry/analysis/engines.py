@@ -57,7 +57,7 @@ from scipy.optimize import brentq, minimize_scalar
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError, StateDomainError
-from bhchem.numerics import bracketed_root
+from bhchem.numerics import bracketed_root, isotherm_pressure
 from bhchem.analysis.isobar import state_range
 
 #: relative tolerance for detecting a side's kind from its corners
@@ -142,19 +142,10 @@ def _solve_x(th, quantity: str, target, P, x0, max_iter: int = 60):
     return np.where(ok, x, np.nan)
 
 
-def _solve_P(th, T, x, P0, max_iter: int = 60):
-    """P with T(x, P) = T (vectorised Newton from P0)."""
-    P = np.asarray(P0, float).copy()
-    with np.errstate(all="ignore"):
-        for _ in range(max_iter):
-            F = th.T(x, P) - T
-            step = F / th.d("T", "P", x, P)
-            step = np.where(np.isfinite(step), step, 0.0)
-            P = np.where(P - step > 0, P - step, 0.5 * P)
-            if np.all(np.abs(step) <= 1e-15 * np.abs(P)):
-                break
-        ok = np.abs(th.T(x, P) - T) <= 1e-12 * abs(T)
-    return np.where(ok, P, np.nan)
+def _solve_P(th, T, x, P0):
+    """P with T(x, P) = T (the shared Newton of :func:`bhchem.numerics.isotherm_pressure`;
+    NaN where it does not converge to a positive pressure)."""
+    return isotherm_pressure(th, x, T, P0)
 
 
 # -- sides -------------------------------------------------------------------------------------------
@@ -474,4 +465,3 @@ def _rectangle_formula(th, cs, sides, eta_numeric):
 
 # Parsing the --cycle text lives in bhchem.cli.analyses (parse_cycle), the text and JSON
 # in bhchem.present.analysis_text, the figure in bhchem.present.analysis_plots.
-pressure_on_isotherm = _solve_P  # public name: the isotherms of the cycle figure's data

@@ -35,10 +35,11 @@ from scipy.optimize import brentq
 from bhchem.errors import BhchemError
 from bhchem.analysis.critical import loop_side
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
-from bhchem.analysis.coexistence import coexistence_near_critical, isotherm_pressure
-from bhchem.analysis.isobar import analyze_isobar, state_at_temperature
+from bhchem.analysis.coexistence import coexistence_near_critical
+from bhchem.numerics import isotherm_pressure
+from bhchem.analysis.isobar import analyze_isobar, branch_state_at
 from bhchem.analysis.phases import phase_diagram
-from bhchem.analysis.engines import pressure_on_isotherm
+
 
 FIGURE_KINDS = ("pv", "gt", "pt", "tr", "cp")
 
@@ -352,7 +353,7 @@ def pv_curves(th, temperatures=None) -> PvCurves:
         P_ref = P0
     isotherms, segments = [], []
     for T in Ts:
-        P = isotherm_pressure(th, x, T, P_ref)
+        P = isotherm_pressure(th, x, T, P_ref, allow_negative=True)
         ok = th.physical(x, P) & (P > 0) & np.isfinite(P)
         v = th.v(x, P)
         isotherms.append(np.column_stack([np.where(ok, v, np.nan), np.where(ok, P, np.nan)]))
@@ -511,7 +512,7 @@ def _preferred_G(th, res, P, Ts, phase):
     if phase == res.background:
         return np.full(Ts.shape, float(th.quantity("G_background", 1.0, P)))
     br = next(b for b in res.branches if b.label == phase)
-    return np.array([np.nan if (x := state_at_temperature(th, P, br, T)) is None
+    return np.array([np.nan if (x := branch_state_at(th, P, br, T)) is None
                      else float(th.G(x, P)) for T in Ts])
 
 
@@ -690,7 +691,7 @@ def cycle_curves(th, result) -> CycleCurves:
     isotherms = {}
     for T, name in ((result.T_hot, "hot"), (result.T_cold, "cold")):
         xs = np.geomspace(np.min(xs_all) / 3, np.max(xs_all) * 3, 600)
-        P = pressure_on_isotherm(th, T, xs, np.full(xs.shape, np.mean(Pall)))
+        P = isotherm_pressure(th, xs, T, np.full(xs.shape, np.mean(Pall)))
         ok = np.isfinite(P) & (P > 0)
         if np.any(ok):
             V = np.where(ok, th.V(xs, np.where(ok, P, 1.0)), np.nan)

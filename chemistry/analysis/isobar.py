@@ -31,6 +31,9 @@ import numpy as np
 from scipy.optimize import brentq
 
 from bhchem.core.compiled import Thermodynamics
+from bhchem.errors import StateDomainError
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.coexistence import coexistence_newton
 
 _XTOL = 1e-15
 
@@ -149,15 +152,18 @@ def _refine_root(f, a, b):
 
 
 def _refine_boundary(th, P, a, b, inside_a: bool):
-    """Bisection on the physical mask between a and b (geometric), to 1e-14 relative."""
-    for _ in range(200):
-        m = math.sqrt(a * b)
-        if bool(th.physical(m, P)) == inside_a:
-            a = m
-        else:
-            b = m
+    """The edge of the physical mask between a (on the ``inside_a`` side) and b, to 1e-14
+    relative: each step evaluates the mask at 33 points across the bracket (one vectorised
+    call) and keeps the first cell where it changes, so the bracket shrinks 32-fold."""
+    for _ in range(60):
         if abs(b - a) <= 1e-14 * abs(a):
             break
+        xs = np.linspace(a, b, 33)
+        same = np.asarray(th.physical(xs, P)) == inside_a
+        k = int(np.argmin(same))  # the first point on the other side
+        if k == 0 or same[k]:
+            break
+        a, b = float(xs[k - 1]), float(xs[k])
     return a  # the physical side
 
 
@@ -201,10 +207,20 @@ def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000,
                 pieces.append((xa, xb, ea, eb))
         i = j + 1
     branches = []
+    # a domain edge where T reaches 0 (extremality, the condition T >= 0) is located to
+    # 1e-14 in x, so T there is round-off of 0: it is set to 0 exactly, else two branches
+    # that both start at T = 0 would be ordered by noise (a spurious zeroth-order jump at
+    # T ~ 1e-16)
+    with np.errstate(all="ignore"):
+        T_scale = float(np.median(np.abs(th.T(xs[phys], P)))) if np.any(phys) else 0.0
+
+    def end_T(x, kind):
+        T = float(th.T(x, P))
+        return 0.0 if kind == "domain" and abs(T) <= 1e-11 * T_scale else T
     for idx, (xa, xb, ea, eb) in enumerate(pieces):
         xm = math.sqrt(xa * xb)
         cp = float(th.quantity("C_P", xm, P))
-        branches.append(Branch(idx, xa, xb, float(th.T(xa, P)), float(th.T(xb, P)),
+        branches.append(Branch(idx, xa, xb, end_T(xa, ea), end_T(xb, eb),
                                bool(cp > 0), "", (ea, eb)))
     return _label(branches, "black hole" if th.family.gravitational else "fluid")
 
@@ -234,8 +250,11 @@ def _label(branches: list[Branch], single: str = "black hole") -> list[Branch]:
     return out
 
 
-def state_at_temperature(th, P, br: Branch, T: float) -> float | None:
-    """Invert the monotone branch: the x on ``br`` where T(x) = T (None outside)."""
+def branch_state_at(th, P, br: Branch, T: float) -> float | None:
+    """Invert the monotone branch: the x on ``br`` where T(x, P) = T, or None outside its
+    temperature range.  Brent's method to 1e-15 relative in x (the absolute tolerance is
+    scaled by the branch's *small* end, so a branch running to the end of the search range
+    keeps full relative precision)."""
     if not (br.T_min <= T <= br.T_max):
         return None
     f = lambda z: float(th.T(z, P)) - T  # noqa: E731
@@ -246,10 +265,9 @@ def state_at_temperature(th, P, br: Branch, T: float) -> float | None:
         return br.x_max
     if fa * fb > 0:
         return br.x_min if abs(fa) < abs(fb) else br.x_max
-    return brentq(f, br.x_min, br.x_max, xtol=_XTOL * br.x_max, rtol=1e-15, maxiter=200)
+    return brentq(f, br.x_min, br.x_max, xtol=_XTOL * br.x_min, rtol=1e-15, maxiter=200)
 
 
-_x_of_T = state_at_temperature  # the old name, still used in this module and by phases
 
 
 def _G_on_grid(th, P, br: Branch, Ts: np.ndarray, m: int = 4000) -> np.ndarray:
@@ -272,20 +290,25 @@ def _G_on_grid(th, P, br: Branch, Ts: np.ndarray, m: int = 4000) -> np.ndarray:
     return out
 
 
+def isobar_branches(th: Thermodynamics, P: float, critical_points=(), x_range=None) -> list:
+    """The branches :func:`analyze_isobar` works with at pressure P: :func:`find_branches` over
+    :func:`state_range`, with the grid made dense around every critical state whose pressure
+    is within 5 % of P (so the small swallowtail next to a critical pressure is resolved)."""
+    xr = x_range if x_range else state_range(th, P)
+    focus = [cp.x for cp in critical_points or () if abs(cp.P / P - 1) < 0.05]
+    return find_branches(th, P, xr, focus=focus)
+
+
 def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 3000,
                    critical_points=None) -> IsobarResult:
     """Branches, swallowtails, preferred phase and transitions at pressure P."""
     if not (np.isfinite(P) and P > 0):
-        from bhchem.errors import StateDomainError
         raise StateDomainError(f"pressure P = {P} is not positive: there is no AdS black hole")
     xr = x_range if x_range else state_range(th, P)
     if critical_points is None:
-        from bhchem.analysis.critical import find_critical_points
         critical_points = find_critical_points(th).physical
-    focus = [cp.x for cp in critical_points if abs(cp.P / P - 1) < 0.05]
-    branches = find_branches(th, P, xr, focus=focus)
+    branches = isobar_branches(th, P, critical_points, xr)
     if not branches:
-        from bhchem.errors import StateDomainError
         raise StateDomainError(
             f"no physical {th.family.name} state at P = {P:g} with "
             f"{', '.join(f'{k} = {v:g}' for k, v in th.values.items())}")
@@ -294,6 +317,10 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     G_bg = float(th.quantity("G_background", 1.0, P)) if has_bg else None
 
     T_lo = 0.0 if has_bg else min(b.T_min for b in branches)  # the background exists at all T
+    if th.family.require_nonnegative_temperature:
+        # a spinodal can dip below T = 0 between the grid points of the physical mask: the
+        # states there are not physical, and the walk starts at T = 0
+        T_lo = max(T_lo, 0.0)
     T_hi = max(b.T_max for b in branches)
     # a branch cut by the search range (not by physics) continues beyond it: above the
     # lowest such temperature the branch list is incomplete, so stop the walk there
@@ -314,7 +341,7 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     def G_of(k, T):
         if has_bg and k == len(branches):
             return G_bg, None
-        x = _x_of_T(th, P, branches[k], T)
+        x = branch_state_at(th, P, branches[k], T)
         return (None, None) if x is None else (float(th.G(x, P)), x)
 
     # swallowtail vertices: sign changes of G_i - G_j where both branches exist
@@ -336,7 +363,6 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     stable_rows = np.array([b.stable for b in branches] + ([True] if has_bg else []))
     Genv = np.where(stable_rows[:, None], Gs, np.nan)
     if not np.any(np.isfinite(Genv)):
-        from bhchem.errors import StateDomainError
         raise StateDomainError(
             f"no locally stable {th.family.name} state at P = {P:g}: every branch has C_P < 0")
     with np.errstate(invalid="ignore"):
@@ -352,16 +378,17 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
             warnings.append(f"no locally stable state for T in ({Ts[k]:.6g}, {Ts[nxt]:.6g})")
         if a == b or a < 0 or b < 0:
             continue
-        T_edge = _locate_switch(th, P, branches, G_of, a, b, Ts[k], Ts[k + 1], has_bg)
-        if T_edge is None:
+        switches = _switches(th, P, branches, G_of, a, b, Ts[k], Ts[k + 1], has_bg,
+                             [i for i in range(nb) if stable_rows[i]])
+        if switches is None:
             warnings.append(f"could not resolve the switch {names[a]} -> {names[b]} between "
                             f"T = {Ts[k]:.6g} and {Ts[k + 1]:.6g}")
             continue
-        kind, T_t = T_edge
-        tr = _transition(th, P, kind, T_t, a, b, names, branches, G_of, has_bg)
-        segments.append((float(start), float(tr.T), names[a]))
-        start = tr.T
-        transitions.append(tr)
+        for kind, T_t, p, q in switches:
+            tr = _transition(th, P, kind, T_t, p, q, names, branches, G_of, has_bg)
+            segments.append((float(start), float(tr.T), names[p]))
+            start = tr.T
+            transitions.append(tr)
     segments.append((float(start), float(Ts[valid[-1]]), names[Gmin_idx[valid[-1]]]))
 
     # second order at a critical pressure
@@ -421,6 +448,44 @@ def _locate_switch(th, P, branches, G_of, a, b, Ta, Tb, has_bg):
     return "zeroth-order", T_start
 
 
+def _switches(th, P, branches, G_of, a, b, Ta, Tb, has_bg, stable, depth: int = 0):
+    """The changes of the minimising phase inside the grid cell (Ta, Tb) where it goes from
+    a to b: [(kind, T, from, to)], or None.  A third stable phase can be preferred on a
+    window narrower than the cell (next to a triple point, or in a reentrant window): if it
+    lies below the a/b crossing (or below b just after a zeroth-order jump), the switch is
+    split into the switches through it (at most three levels)."""
+    edge = _locate_switch(th, P, branches, G_of, a, b, Ta, Tb, has_bg)
+    if edge is None:
+        return None
+    kind, T = edge
+    if depth >= 3:
+        return [(kind, T, a, b)]
+    ref, _ = G_of(b, T)
+    if ref is None:
+        return [(kind, T, a, b)]
+    below = []
+    for c in stable:
+        if c in (a, b):
+            continue
+        g, _ = G_of(c, T)
+        if g is not None and g < ref - 1e-13 * (abs(ref) + abs(g)):
+            below.append((g, c))
+    if not below:
+        return [(kind, T, a, b)]
+    _, c = min(below)
+    if kind == "zeroth-order" and G_of(a, T)[0] is not None and G_of(a, Tb)[0] is None:
+        # a ends at T and the jump lands on c, which b undercuts later in the cell
+        rest = _switches(th, P, branches, G_of, c, b, T, Tb, has_bg, stable, depth + 1)
+        return None if rest is None else [(kind, T, a, c)] + rest
+    if kind in ("first-order", "hawking-page"):
+        first = _switches(th, P, branches, G_of, a, c, Ta, T, has_bg, stable, depth + 1)
+        second = _switches(th, P, branches, G_of, c, b, T, Tb, has_bg, stable, depth + 1)
+        if first is None or second is None:
+            return None
+        return first + second
+    return [(kind, T, a, b)]
+
+
 def _state(th, P, name, x, T, G) -> StateData:
     if x is None:  # background phase
         return StateData(name, float("nan"), None, None, 0.0, G, T)
@@ -434,7 +499,6 @@ def _transition(th, P, kind, T, a, b, names, branches, G_of, has_bg) -> Transiti
     gb, xb = G_of(b, T)
     if kind == "first-order" and xa is not None and xb is not None:
         # polish the bracketed crossing: Newton on (T1 - T2, G1 - G2) in the two states
-        from bhchem.analysis.coexistence import coexistence_newton
         lo, hi = (xa, xb) if xa < xb else (xb, xa)
         n1, n2, ok = coexistence_newton(th, np.array([P]), np.array([lo]), np.array([hi]))
         if ok[0] and abs(np.log(n1[0] / lo)) < 0.1 and abs(np.log(n2[0] / hi)) < 0.1:
@@ -458,50 +522,187 @@ def _transition(th, P, kind, T, a, b, names, branches, G_of, has_bg) -> Transiti
                       float(residual))
 
 
-def isobar_json(res: IsobarResult) -> dict:
-    """JSON document of ``bhchem isobar`` (keys: pressure, branches, transitions, ...)."""
-    def state(s: StateData):
-        return {"phase": s.phase, "x": None if math.isnan(s.x) else s.x, "r": s.r, "v": s.v,
-                "S": s.S, "G": s.G}
-    return {
-        "pressure": res.pressure,
-        "parameters": res.parameters,
-        "branches": [{"index": b.index, "label": b.label, "stable": b.stable,
-                      "x_range": [b.x_min, b.x_max], "T_range": [b.T_min, b.T_max],
-                      "ends": list(b.ends)} for b in res.branches],
-        "background": res.background,
-        "crossings": [{"T": c.T, "between": list(c.branches), "G": c.G,
-                       "on_preferred": c.on_envelope} for c in res.crossings],
-        "transitions": [{"kind": t.kind, "T": t.T, "from": t.from_phase, "to": t.to_phase,
-                         "states": [state(s) for s in t.states],
-                         "latent_heat": t.latent_heat, "delta_v": t.delta_v,
-                         "delta_G": t.delta_G, "residual": t.residual} for t in res.transitions],
-        "preferred": [{"T_range": [lo, hi], "phase": ph} for lo, hi, ph in res.preferred],
-        "message": res.message,
-        "warnings": list(res.warnings),
-    }
+# -- the cheap skeleton of an isobar and its scalar functions ---------------------------------
+@dataclass(frozen=True)
+class BranchEnd:
+    """A physical end of a locally stable branch: a spinodal (T_x = 0) or the edge of the
+    physical domain (never a cut of the search range)."""
+
+    branch: int  # index into IsobarSkeleton.branches
+    side: int  # 0: at x_min, 1: at x_max
+    kind: str  # 'spinodal' | 'domain'
+    x: float
+    T: float
+    G: float
 
 
-def isobar_text(res: IsobarResult) -> str:
-    """Plain-text report of ``bhchem isobar``."""
-    params = ", ".join(f"{k} = {v:g}" for k, v in res.parameters.items())
-    lines = [f"isobar P = {res.pressure:.12g} ({params})", f"  {res.message}", "  branches:"]
-    for b in res.branches:
-        lines.append(f"    [{b.index}] {b.label:<28} x in [{b.x_min:.6g}, {b.x_max:.6g}]  "
-                     f"T in [{b.T_min:.6g}, {b.T_max:.6g}]  ends: {b.ends[0]}/{b.ends[1]}")
-    if res.background:
-        lines.append(f"    background phase: {res.background}")
-    lines.append("  preferred phase:")
-    for lo, hi, ph in res.preferred:
-        lines.append(f"    T in [{lo:.10g}, {hi:.10g}]: {ph}")
-    lines.append("  transitions:" if res.transitions else "  no transition")
-    for t in res.transitions:
-        extra = ""
-        if t.kind == "first-order":
-            extra = f"  latent heat {t.latent_heat:.10g}, dv {t.delta_v:.10g}, residual {t.residual:.1e}"
-        elif t.kind == "zeroth-order":
-            extra = f"  jump dG = {t.delta_G:.10g}"
-        lines.append(f"    {t.kind:<13} T = {t.T:.12g}  {t.from_phase} -> {t.to_phase}{extra}")
-    for w in res.warnings:
-        lines.append(f"  WARNING: {w}")
-    return "\n".join(lines)
+@dataclass(frozen=True)
+class IsobarSkeleton:
+    r"""What an isobar is made of, without walking the preferred phase: the branches (as in
+    :func:`analyze_isobar`), the physical ends of the stable ones with their T and G, and the
+    background phase.  ``topology`` is the sequence of (stable, end kinds) of the branches:
+    between pressures where it changes (critical points, domain edges), every branch keeps
+    its index, so the scalar functions of :func:`skeleton_margins` are continuous in P."""
+
+    pressure: float
+    branches: tuple
+    ends: tuple
+    background: str | None
+    G_background: float | None
+    topology: tuple
+
+    @property
+    def stable(self) -> tuple:
+        """Indices of the locally stable branches, and -1 for the background phase."""
+        idx = tuple(b.index for b in self.branches if b.stable)
+        return idx + ((-1,) if self.background is not None else ())
+
+    def label(self, k: int) -> str:
+        return self.background if k == -1 else self.branches[k].label
+
+    def exists_at(self, k: int, T: float) -> bool:
+        """Whether phase k has a state at temperature T inside the search range."""
+        if k == -1:
+            return T >= 0
+        b = self.branches[k]
+        return b.T_min <= T <= b.T_max
+
+    def gibbs(self, th: Thermodynamics, k: int, T: float):
+        """(G, x) of phase k at temperature T, or (None, None) where it has no state."""
+        if k == -1:
+            return (self.G_background, None) if T >= 0 else (None, None)
+        x = branch_state_at(th, self.pressure, self.branches[k], T)
+        return (None, None) if x is None else (float(th.G(x, self.pressure)), x)
+
+
+def isobar_skeleton(th: Thermodynamics, P: float, critical_points=()) -> IsobarSkeleton:
+    """The skeleton of the isobar at P (see :class:`IsobarSkeleton`).
+
+    Cheap: one split of T(x) into monotone branches at its stationary points T_x = 0 (the
+    spinodals) and domain edges, and T, G at the physical ends of the stable branches
+    (C_P = T S_x / T_x > 0); no temperature grid and no walk of the preferred phase.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    P : float
+    critical_points : sequence
+        As for :func:`analyze_isobar` (the branch grid is made dense near them).
+
+    Returns
+    -------
+    IsobarSkeleton
+        With no branches and topology ``('no state',)`` where there is no physical state.
+    """
+    branches = tuple(isobar_branches(th, P, critical_points)) if P > 0 else ()
+    has_bg = th.has("G_background")
+    bg = th.family.background_name if has_bg else None
+    G_bg = float(th.quantity("G_background", 1.0, P)) if has_bg else None
+    ends = []
+    for b in branches:
+        if not b.stable:
+            continue
+        for side, (x, kind) in enumerate(((b.x_min, b.ends[0]), (b.x_max, b.ends[1]))):
+            if kind in ("spinodal", "domain"):
+                T = b.T_at_x_min if side == 0 else b.T_at_x_max
+                if T < 0 and th.family.require_nonnegative_temperature:
+                    # a spinodal dipping below T = 0 between the mask's grid points: the
+                    # physical branch ends where T = 0 (next to it)
+                    T, kind = 0.0, "domain"
+                ends.append(BranchEnd(b.index, side, kind, float(x), float(T),
+                                      float(th.G(x, P))))
+    topo = tuple((b.stable, b.ends) for b in branches) + (("background",) if has_bg else ())
+    if not branches:
+        topo = ("no state",)
+    return IsobarSkeleton(float(P), branches, tuple(ends), bg, G_bg, topo)
+
+
+def phase_crossing(th: Thermodynamics, sk: IsobarSkeleton, i: int, j: int):
+    """The temperature where phases i and j (stable branch indices, -1 for the background) have
+    equal G inside the T range where both exist, or None.  dG/dT = -S on each branch, so
+    G_i - G_j is monotone there when the entropies are ordered like the states, and a sign
+    change at the two ends of the common range brackets the single crossing."""
+    def rng(k):
+        if k == -1:
+            return 0.0, math.inf
+        b = sk.branches[k]
+        return b.T_min, b.T_max
+    lo = max(rng(i)[0], rng(j)[0])
+    hi = min(rng(i)[1], rng(j)[1])
+    if not hi > lo or not math.isfinite(hi):
+        return None
+
+    def f(T):
+        gi, _ = sk.gibbs(th, i, T)
+        gj, _ = sk.gibbs(th, j, T)
+        return np.nan if gi is None or gj is None else gi - gj
+    fa, fb = f(lo), f(hi)
+    if not (np.isfinite(fa) and np.isfinite(fb)) or fa * fb > 0:
+        return None
+    if fa == 0 or fb == 0:
+        return lo if fa == 0 else hi
+    return brentq(f, lo, hi, xtol=1e-15 * hi, rtol=1e-15, maxiter=200)
+
+
+def skeleton_margins(th: Thermodynamics, sk: IsobarSkeleton, keys=None) -> dict:
+    r"""The scalar functions of one isobar whose signs fix which transitions its preferred
+    phase has (``keys``: only these).  Each value is ``(margin, T)``:
+
+    * ``('ends', (i, s), (j, t))``: T_{i,s} - T_{j,t}, the difference of the temperatures of
+      two physical ends (spinodal or domain edge) of different stable branches; its zero is
+      where a branch starts or stops existing at the other's end temperature;
+    * ``('gibbs', (i, s), j)``: G_j(T_{i,s}) - G_i(T_{i,s}) at the end of branch i, for
+      every other stable phase j (-1: background) that exists there; its zero is where a
+      first-order (or Hawking-Page) crossing of i and j reaches the end of branch i: a
+      terminal point, where a zeroth-order line with zero jump begins;
+    * ``('triple', (i, j), k)``: G_k(T_ij) - G_i(T_ij) at the crossing T_ij of i and j, for a
+      third stable phase k; its zero is a triple point.
+
+    The preferred phase minimises G over the stable branches and the background; its
+    sequence of transitions can change only where one of these changes sign, where the
+    branches themselves change (``topology``), or at a critical pressure.
+    """
+    want = None if keys is None else set(keys)
+    out = {}
+    ends = sk.ends
+    for a in range(len(ends)):
+        for b in range(a + 1, len(ends)):
+            ea, eb = ends[a], ends[b]
+            if ea.branch == eb.branch:
+                continue
+            key = ("ends", (ea.branch, ea.side), (eb.branch, eb.side))
+            if want is None or key in want:
+                out[key] = (ea.T - eb.T, ea.T, max(abs(ea.T), abs(eb.T)))
+    for e in ends:
+        for j in sk.stable:
+            if j == e.branch:
+                continue
+            key = ("gibbs", (e.branch, e.side), j)
+            if want is not None and key not in want:
+                continue
+            if not sk.exists_at(j, e.T):
+                continue
+            g, _ = sk.gibbs(th, j, e.T)
+            if g is not None:
+                out[key] = (g - e.G, e.T, abs(g) + abs(e.G))
+    phases = sk.stable
+    need_triple = want is None or any(k[0] == "triple" for k in want)
+    if len(phases) >= 3 and need_triple:
+        for a in range(len(phases)):
+            for b in range(a + 1, len(phases)):
+                i, j = phases[a], phases[b]
+                third = [k for k in phases if k not in (i, j)]
+                tkeys = [("triple", (i, j), k) for k in third]
+                if want is not None and not any(k in want for k in tkeys):
+                    continue
+                T = phase_crossing(th, sk, i, j)
+                if T is None:
+                    continue
+                gi, _ = sk.gibbs(th, i, T)
+                for k, key in zip(third, tkeys):
+                    if gi is None or not sk.exists_at(k, T):
+                        continue
+                    gk, _ = sk.gibbs(th, k, T)
+                    if gk is not None:
+                        out[key] = (gk - gi, T, abs(gk) + abs(gi))
+    return out

@@ -52,6 +52,7 @@ import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
 from bhchem.core.compiled import Thermodynamics
+from bhchem.numerics import isotherm_pressure
 from bhchem.errors import BhchemError, StateDomainError
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.isobar import state_range
@@ -140,27 +141,6 @@ def _denominators(th: Thermodynamics, x, P) -> dict:
 
 
 # -- paths ------------------------------------------------------------------------------------
-def isotherm_pressure(th: Thermodynamics, x, T: float, P_guess) -> np.ndarray:
-    """P(x) on the isotherm T (vectorised Newton on T(x, P) = T; one step when T is linear
-    in P).  NaN where Newton does not converge to a positive pressure."""
-    x = np.asarray(x, float)
-    P = np.broadcast_to(np.asarray(P_guess, float), x.shape).astype(float).copy()
-    with np.errstate(all="ignore"):
-        for _ in range(80):
-            f = th.T(x, P) - T
-            fp = th.d("T", "P", x, P)
-            step = f / fp
-            step = np.where(np.isfinite(step), step, 0.0)
-            # keep P positive: damp steps that would cross zero
-            P_new = np.where(P - step > 0, P - step, 0.5 * P)
-            done = np.abs(P_new - P) <= 1e-15 * np.abs(P_new)
-            P = P_new
-            if np.all(done):
-                break
-        ok = np.abs(th.T(x, P) - T) <= 1e-11 * abs(T)
-    return np.where(ok & (P > 0), P, np.nan)
-
-
 def _critical_points(th: Thermodynamics):
     return find_critical_points(th).physical  # computed once per bound family
 

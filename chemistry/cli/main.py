@@ -21,8 +21,9 @@ from bhchem.present.summary import show_json, show_text
 from bhchem.present.critical_report import critical_json, critical_text
 import math
 from bhchem.analysis.critical import find_critical_points
-from bhchem.analysis.isobar import analyze_isobar, isobar_json, isobar_text
-from bhchem.analysis.phases import diagram_json, diagram_text, phase_diagram
+from bhchem.analysis.isobar import analyze_isobar
+from bhchem.analysis.phases import phase_diagram
+from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
 from bhchem.present.plots import save
 from bhchem.workflows.figures import make_figure
 from bhchem.workflows.report import write_report

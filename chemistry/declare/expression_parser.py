@@ -87,6 +87,7 @@ import sympy as sp
 
 from bhchem.declare import symbols as sy
 from bhchem.errors import MalformedFamilyError
+from sympy.core.cache import clear_cache
 
 #: longest accepted text (characters)
 MAX_LENGTH = 10_000
@@ -858,7 +859,6 @@ class OperationMeter:
 def _clear_after_interruption():
     # sympy may have cached half-evaluated facts (its assumption system stores None
     # while it works on a fact); drop everything the interrupted work left behind
-    from sympy.core.cache import clear_cache
     clear_cache()
 
 

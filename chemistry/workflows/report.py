@@ -25,7 +25,8 @@ from bhchem.fileio import atomic_directory, atomic_write
 from bhchem.present.serialize import jsonable, to_json
 from bhchem.present.critical_report import critical_json
 from bhchem.present.report_text import report_md, tables_tex
-from bhchem.analysis.phases import diagram_json, phase_diagram
+from bhchem.analysis.phases import phase_diagram
+from bhchem.present.phase_text import diagram_json
 from bhchem.present.summary import show_json
 from bhchem.present.plots import EmptyFigureError, save
 from bhchem.workflows.figures import make_figure
