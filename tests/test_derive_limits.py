@@ -1,6 +1,7 @@
 """Counted bounds on the derivation (issue 22 item 13): sizes are estimated before sympy
 expands or cancels, and a step above a limit is refused in one line, never timed."""
 import dataclasses
+import os
 import importlib
 import math
 from pathlib import Path
@@ -162,10 +163,16 @@ def _largest_estimates(fam, **discrete):
         return est
 
     dv.check_expansion = spy
+    saved = os.environ.get("BHCHEM_CACHE_DIR")
+    os.environ["BHCHEM_CACHE_DIR"] = "off"   # derive for real, not from the on-disk cache
     try:
         der = dv.derive(dataclasses.replace(fam), **discrete)
     finally:
         dv.check_expansion = original
+        if saved is None:
+            os.environ.pop("BHCHEM_CACHE_DIR", None)
+        else:
+            os.environ["BHCHEM_CACHE_DIR"] = saved
     assert der.quantities["T"] is not None and seen
     return (max(e.terms for e in seen), max(e.degree for e in seen),
             max(e.coefficient_degree for e in seen))

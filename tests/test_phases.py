@@ -291,3 +291,21 @@ def test_no_transition_at_zero_temperature():
     assert all(t.T > 0 for t in res.transitions)
     assert res.preferred[0][0] == 0.0 and res.preferred[0][2] == "small"
     assert [t.kind for t in res.transitions] == ["first-order"]
+
+
+def test_unphysical_critical_point_with_negative_pressure_does_not_break_the_diagram():
+    """Euler-Heisenberg-AdS (user file), Q = 1, a = 0.5: the critical cubic
+    y^3 - 24 y^2 + 448 a = 0 (y = v^2; derived in tests/test_atlas.py) has a root whose P_c < 0.
+    That unphysical point must not enter the event scan (it crashed with a math domain error)."""
+    from pathlib import Path
+
+    from bhchem import load_family_file
+    from bhchem.declare import registry
+    path = Path(__file__).resolve().parents[1] / "examples" / "families" / "euler_heisenberg_ads.toml"
+    with registry.registry_scope():
+        (fam,) = load_family_file(path)
+        th = bind(fam, Q=1.0, a=0.5)
+        assert any(cp.P < 0 for cp in find_critical_points(th).points)
+        pd = phase_diagram(th)
+        assert pd.structure == "vdw-like" and len(pd.lines) == 1
+        assert pd.lines[0].ends["high"]["type"] == "critical point"

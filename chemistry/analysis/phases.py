@@ -375,7 +375,8 @@ def _topology_changes(sks, a, b, all_cps) -> list:
             if not (cur < cp.P < b):
                 continue
             eta = min([_ETA_TOPOLOGY, 0.25 * math.log(cp.P / cur), 0.25 * math.log(b / cp.P)]
-                      + [0.25 * abs(math.log(o.P / cp.P)) for o in all_cps if o.P != cp.P])
+                      + [0.25 * abs(math.log(o.P / cp.P)) for o in all_cps
+                         if o.P > 0 and o.P != cp.P])
             left, right = cp.P * (1 - eta), cp.P * (1 + eta)
             if left > cur and sks.topology(left) == tc and sks.topology(right) != tc:
                 found = (cp.P, left, right, cp)
