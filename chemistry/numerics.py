@@ -17,7 +17,19 @@ import math
 from typing import Callable
 
 import numpy as np
-from scipy.optimize import brentq
+
+def brentq(f, a, b, **kwargs):
+    """:func:`scipy.optimize.brentq` (imported on first use: ``scipy.optimize`` costs about
+    0.25 s of start-up that commands which solve nothing, such as ``bhchem show``, skip)."""
+    from scipy.optimize import brentq as scipy_brentq  # lazy: start-up cost, see docstring
+    return scipy_brentq(f, a, b, **kwargs)
+
+
+def minimize_scalar(fun, **kwargs):
+    """:func:`scipy.optimize.minimize_scalar`, imported on first use (see :func:`brentq`)."""
+    from scipy.optimize import minimize_scalar as scipy_min  # lazy: start-up cost, see brentq
+    return scipy_min(fun, **kwargs)
+
 
 #: Newton steps of :func:`isotherm_pressure` (quadratic convergence needs < 10 from a
 #: reasonable guess; one step when T is linear in P)

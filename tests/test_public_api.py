@@ -46,3 +46,18 @@ def test_a_research_folder_with_its_own_models_module_does_not_break_bhchem(tmp_
                           capture_output=True, text=True, cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr[-2000:]
     assert int(proc.stdout) >= 8
+
+
+def test_import_and_show_load_no_solver_graph_or_figure_library():
+    """Start-up: ``import bhchem`` and ``bhchem show`` import neither scipy's solvers nor
+    networkx nor matplotlib (they are loaded when an analysis or a figure needs them)."""
+    code = ("import sys, io, contextlib\n"
+            "import bhchem\n"
+            "from bhchem.cli.main import main\n"
+            "with contextlib.redirect_stdout(io.StringIO()):\n"
+            "    main(['show', 'rn-ads', '-p', 'Q=1'])\n"
+            "heavy = ('scipy.optimize', 'scipy.special', 'networkx', 'matplotlib')\n"
+            "print(sorted(m for m in heavy if m in sys.modules))")
+    proc = _fresh(code)
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    assert proc.stdout.strip() == "[]"

@@ -32,10 +32,9 @@ import math
 from dataclasses import asdict, dataclass, replace
 
 import numpy as np
-from scipy.optimize import brentq
 
 from bhchem.core.compiled import Thermodynamics
-from bhchem.numerics import isotherm_pressure
+from bhchem.numerics import brentq, isotherm_pressure
 
 
 @dataclass(frozen=True)

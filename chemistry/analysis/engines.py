@@ -53,11 +53,10 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import brentq, minimize_scalar
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError, StateDomainError
-from bhchem.numerics import bracketed_root, isotherm_pressure
+from bhchem.numerics import bracketed_root, brentq, isotherm_pressure, minimize_scalar
 from bhchem.analysis.isobar import state_range
 
 #: relative tolerance for detecting a side's kind from its corners

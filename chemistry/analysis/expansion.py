@@ -43,11 +43,10 @@ import math
 from dataclasses import dataclass, field, replace
 
 import numpy as np
-from scipy.optimize import minimize_scalar
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError
-from bhchem.numerics import bracketed_root
+from bhchem.numerics import bracketed_root, minimize_scalar
 from bhchem.analysis.isobar import state_range
 from bhchem.analysis.critical import find_critical_points
 

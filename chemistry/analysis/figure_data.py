@@ -30,13 +30,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from bhchem.errors import BhchemError
 from bhchem.analysis.critical import loop_side
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.coexistence import coexistence_near_critical
-from bhchem.numerics import isotherm_pressure
+from bhchem.numerics import brentq, isotherm_pressure
 from bhchem.analysis.isobar import analyze_isobar, branch_state_at
 from bhchem.analysis.phases import phase_diagram
 

@@ -28,12 +28,12 @@ import math
 from dataclasses import asdict, dataclass, field
 
 import numpy as np
-from scipy.optimize import brentq
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import StateDomainError
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.coexistence import coexistence_newton
+from bhchem.numerics import brentq
 
 _XTOL = 1e-15
 

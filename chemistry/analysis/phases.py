@@ -55,12 +55,12 @@ Weisfeiler-Lehman hash of the graph, so two diagrams can be compared.
 """
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import math
 from dataclasses import dataclass, field
 
-import networkx as nx
 import numpy as np
-from scipy.optimize import brentq, minimize_scalar
 
 from bhchem.analysis.coexistence import (CoexistencePoint, coexistence_near_critical, coexistence_newton,
                           make_point)
@@ -70,6 +70,16 @@ from bhchem.errors import StateDomainError
 from bhchem.analysis.isobar import (Transition, analyze_isobar, branch_state_at, isobar_skeleton,
                      skeleton_margins)
 from bhchem.analysis.critical import loop_side
+from bhchem.numerics import brentq, minimize_scalar
+
+if TYPE_CHECKING:  # annotations only; networkx itself is loaded when a graph is built
+    import networkx as nx
+
+
+def _networkx():
+    """The networkx module, imported when a phase graph is first built or queried."""
+    import networkx  # lazy: ~0.1 s of start-up that commands without a phase graph skip
+    return networkx
 
 #: relative offset of the skeletons evaluated on both sides of an event
 _ETA = 1e-9
@@ -1071,13 +1081,13 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
     graph = build_graph(lines, cps, triple_points, regions, th.family.background_name
                         if th.has("G_background") else None)
     structure = structure_signature(graph, cps, lines)
-    simple = nx.Graph()
+    simple = _networkx().Graph()
     simple.add_nodes_from(graph.nodes)
     for u, v, dd in graph.edges(data=True):  # one edge per pair, kinds joined
         kinds = sorted({dd["kind"]} | set(simple.edges[u, v]["kind"].split("|"))) \
             if simple.has_edge(u, v) else [dd["kind"]]
         simple.add_edge(u, v, kind="|".join(k for k in kinds if k))
-    h = nx.weisfeiler_lehman_graph_hash(simple, edge_attr="kind")
+    h = _networkx().weisfeiler_lehman_graph_hash(simple, edge_attr="kind")
     msg = (f"{len(lines)} line(s), {len(cps)} physical critical point(s), "
            f"{len(triple_points)} triple point(s); structure: {structure}")
     return PhaseDiagram(family=th.family.name, parameters=dict(th.values),
@@ -1424,7 +1434,7 @@ def _regions(anchors, isobars) -> list:
 # -- the phase graph ---------------------------------------------------------------------------
 def build_graph(lines, cps, triple_points, regions, background=None) -> nx.MultiGraph:
     """Phases as nodes, lines as edges (kind, ends), special points as attributes."""
-    g = nx.MultiGraph()
+    g = _networkx().MultiGraph()
     for r in regions:
         g.add_node(r["phase"], kind="background" if r["phase"] == background else "black hole")
     for line in lines:
@@ -1455,22 +1465,22 @@ def build_graph(lines, cps, triple_points, regions, background=None) -> nx.Multi
 def supercritical_connection(g: nx.MultiGraph, a: str, b: str) -> bool:
     """Can phases a and b be joined without crossing a line?  True when a chain of lines
     between them each ends at a critical point (go around it)."""
-    h = nx.Graph()
+    h = _networkx().Graph()
     h.add_nodes_from(g.nodes)
     for u, v, data in g.edges(data=True):
         if "critical point" in data.get("ends", ()) and data["kind"] != "zeroth-order":
             h.add_edge(u, v)
-    return a in h and b in h and nx.has_path(h, a, b)
+    return a in h and b in h and _networkx().has_path(h, a, b)
 
 
 def distinct_phases(g: nx.MultiGraph) -> int:
     """Number of phases that cannot be joined around critical points."""
-    h = nx.Graph()
+    h = _networkx().Graph()
     h.add_nodes_from(g.nodes)
     for u, v, data in g.edges(data=True):
         if "critical point" in data.get("ends", ()):
             h.add_edge(u, v)
-    return nx.number_connected_components(h)
+    return _networkx().number_connected_components(h)
 
 
 def phases_at_triple_points(g: nx.MultiGraph) -> list:
@@ -1502,5 +1512,5 @@ def structure_signature(g: nx.MultiGraph, cps, lines) -> str:
 
 def same_structure(g1: nx.MultiGraph, g2: nx.MultiGraph) -> bool:
     """Whether two phase graphs are isomorphic with matching line kinds."""
-    return nx.is_isomorphic(g1, g2, edge_match=lambda a, b: sorted(x["kind"] for x in a.values())
+    return _networkx().is_isomorphic(g1, g2, edge_match=lambda a, b: sorted(x["kind"] for x in a.values())
                             == sorted(x["kind"] for x in b.values()))

@@ -49,10 +49,9 @@ import math
 from dataclasses import asdict, dataclass, field
 
 import numpy as np
-from scipy.optimize import brentq, minimize_scalar
 
 from bhchem.core.compiled import Thermodynamics
-from bhchem.numerics import isotherm_pressure
+from bhchem.numerics import brentq, isotherm_pressure, minimize_scalar
 from bhchem.errors import BhchemError, StateDomainError
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.isobar import state_range

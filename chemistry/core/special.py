@@ -6,7 +6,6 @@ scipy stays out of the cold start of families that do not need it.
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import hyp2f1
 
 
 def hyp2f1_real(a, b, c, z):
@@ -17,5 +16,6 @@ def hyp2f1_real(a, b, c, z):
     callers' finiteness masks catch them.
     """
 
+    from scipy.special import hyp2f1  # lazy: scipy.special costs ~0.1 s of start-up
     out = hyp2f1(float(a), float(b), float(c), np.asarray(z, dtype=float))
     return np.where(np.isfinite(out), out, np.nan)
