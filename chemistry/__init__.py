@@ -29,7 +29,7 @@ P_c = 1/(96 pi Q^2) (Kubiznak & Mann, JHEP 07 (2012) 033):
 >>> abs(cp.T * 18 * math.pi / math.sqrt(6) - 1) < 1e-12, abs(cp.P * 96 * math.pi - 1) < 1e-12
 (True, True)
 """
-from bhchem.errors import (BhchemError, ConvergenceError, DuplicateFamilyError,
+from bhchem.errors import (BhchemError, DuplicateFamilyError, FamilyFileReloaded,
                            MalformedFamilyError, ParameterDomainError, StateDomainError,
                            UnknownFamilyError, UnknownParameterError)
 from bhchem.declare.domain import Domain
@@ -74,7 +74,7 @@ __all__ = [
     "EmptyFigureError", "PlotResult", "plot_cp", "plot_gt", "plot_pt", "plot_pv",
     "plot_tr", "save", "make_figure",
     # errors
-    "BhchemError", "ConvergenceError", "DuplicateFamilyError", "MalformedFamilyError",
+    "BhchemError", "DuplicateFamilyError", "FamilyFileReloaded", "MalformedFamilyError",
     "ParameterDomainError", "StateDomainError", "UnknownFamilyError",
     "UnknownParameterError",
     "__version__",

@@ -38,10 +38,6 @@ class StateDomainError(BhchemError, ValueError):
     """A request that has no physical black-hole (or fluid) state, e.g. P <= 0."""
 
 
-class ConvergenceError(BhchemError, RuntimeError):
-    """A numerical method did not reach its tolerance; the result cannot be trusted."""
-
-
 class FamilyFileReloaded(UserWarning):
     """A plug-in file was loaded again after its content changed; its families were
     replaced by the new ones (results computed before refer to the old ones)."""

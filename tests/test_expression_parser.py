@@ -691,3 +691,11 @@ def _extend(children):
 @given(st.recursive(_leaf, _extend, max_leaves=25))
 def test_fuzz_grammatical_formulas_parse_or_are_refused(text):
     _check_random(text, False)
+
+
+def test_ln_is_the_natural_logarithm():
+    """Papers write ln; a declarative file may too (same function as log)."""
+    import sympy as sp
+    r_sym = sp.Symbol("r", positive=True)
+    got = ep.parse_expression("ln(r) + 2*ln(r^2)", {"r": r_sym})
+    assert sp.simplify(got - 5 * sp.log(r_sym)) == 0
