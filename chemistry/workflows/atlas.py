@@ -59,6 +59,9 @@ from bhchem.present.plots import PlotResult, save
 from bhchem.present.style import PALETTE, styled
 
 CHUNK_SIZE = 8
+#: finished chunks between two rewrites of the manifest's checksums (at most this many
+#: chunks are recomputed after a kill)
+MANIFEST_EVERY = 16
 ATLAS_ANCHORS = 48  # isobar anchors per phase diagram (narrow reentrant windows need them)
 
 
@@ -330,12 +333,23 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     def chunk_path(i):
         return os.path.join(chunk_dir, f"chunk-{i:06d}.json")
 
+    pending = []
+
+    def save_checksums():
+        if pending:
+            _atomic_write(man_path, _dumps(manifest))
+            pending.clear()
+
     def record(i, rows):
+        # the manifest is rewritten every MANIFEST_EVERY chunks (a count), not after each:
+        # a chunk whose checksum was not yet saved when the run died is recomputed
         text = _dumps(rows)
         _atomic_write(chunk_path(i), text)
         fault_point("atlas-chunk-written")
         manifest["chunks"][os.path.basename(chunk_path(i))] = _sha256(text.encode("utf-8"))
-        _atomic_write(man_path, _dumps(manifest))
+        pending.append(i)
+        if len(pending) >= MANIFEST_EVERY:
+            save_checksums()
 
     _atomic_write(man_path, _dumps(manifest))
     loaded = {}
@@ -364,6 +378,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                 progress.add(len(rows))
                 written += 1
                 if stop_after_chunks is not None and written >= stop_after_chunks:
+                    save_checksums()
                     return {"interrupted": True, "chunks_written": written}
         else:
             futs = {}
@@ -380,7 +395,9 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                 if stop_after_chunks is not None and written >= stop_after_chunks:
                     for g in futs:
                         g.cancel()
+                    save_checksums()
                     return {"interrupted": True, "chunks_written": written}
+        save_checksums()
         progress.close()
         progress = None
         computed = {}
