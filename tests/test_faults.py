@@ -189,6 +189,7 @@ def test_damaged_manifest_is_named_and_every_chunk_recomputed(atlas_run, tmp_pat
     assert any("chunk-000000.json" in n and "recomputing" in n for n in notes)
 
 
+@pytest.mark.filterwarnings("ignore:family file")
 def test_edited_family_file_refuses_to_resume_naming_both_hashes(atlas_run, tmp_path):
     base, fam, out, doc = atlas_run
     copy = tmp_path / "A"
@@ -209,6 +210,7 @@ def test_edited_family_file_refuses_to_resume_naming_both_hashes(atlas_run, tmp_
         in msg
 
 
+@pytest.mark.filterwarnings("ignore:family file")
 def test_other_version_refuses_to_resume_naming_both(atlas_run, tmp_path):
     def older(folder):
         m = json.loads((folder / "manifest.json").read_text())
@@ -268,3 +270,39 @@ def test_bad_output_paths_are_one_line_exit_2(capsys, tmp_path, monkeypatch):
         assert code == 2, (argv, err)
         assert len(err.strip().splitlines()) == 1 and "internal error" not in err, (argv, err)
     assert afile.read_text() == "x" and os.listdir(readonly) == []
+
+
+# -- the same faults through the command line (the symptoms of the issue) ------------------------
+SCAN = ["scan", "rn-ads", "--grid", "Q=0.5:1:2", "--refine", "0", "--quiet"]
+
+
+def test_cli_edited_chunk_is_not_trusted_and_garbage_is_no_internal_error(tmp_path, capsys):
+    out = str(tmp_path / "A")
+    assert main(SCAN + ["-o", out]) == 0
+    capsys.readouterr()
+    table = (tmp_path / "A" / "atlas.csv").read_text()
+    chunk = tmp_path / "A" / CHUNK
+    _edit_rows(tmp_path / "A")  # valid JSON, wrong rows
+    assert main(SCAN + ["-o", out]) == 0
+    _, err = capsys.readouterr()
+    assert "chunk-000000.json" in err and "recomputing" in err
+    assert (tmp_path / "A" / "atlas.csv").read_text() == table
+    chunk.write_bytes(b"\x00garbage")
+    assert main(SCAN + ["-o", out]) == 0
+    _, err = capsys.readouterr()
+    assert "internal error" not in err and "chunk-000000.json" in err
+    assert (tmp_path / "A" / "atlas.csv").read_text() == table
+
+
+def test_kill_after_a_chunk_before_its_checksum_then_rerun_recomputes_it(tmp_path, capsys):
+    out = str(tmp_path / "A")
+    killed = bhchem(*SCAN, "-o", out, stage="atlas-chunk-written")
+    assert killed.returncode == -signal.SIGKILL
+    assert main(SCAN + ["-o", out]) == 0
+    _, err = capsys.readouterr()
+    assert err.strip().splitlines() == [
+        f"bhchem: note: {tmp_path / 'A' / CHUNK} has no checksum in the manifest; "
+        f"recomputing it"]
+    assert main(SCAN + ["-o", str(tmp_path / "B")]) == 0
+    assert (tmp_path / "A" / "atlas.csv").read_text() == \
+        (tmp_path / "B" / "atlas.csv").read_text()
