@@ -15,7 +15,9 @@ chunks run in local processes (``workers``), or on any executor with ``submit``
 (a ``concurrent.futures`` executor or a Dask ``distributed.Client``).  Every finished
 chunk is written atomically to ``DIR/chunks/``; rerunning the same scan into the same
 folder computes only the missing chunks, and the final table is assembled from the
-chunks in grid order, so an interrupted and resumed scan gives the identical table.
+chunks in grid order, so an interrupted and resumed scan gives the identical table.  A chunk
+is reused only if its SHA-256 matches the manifest (damaged or edited chunks are recomputed,
+and named); a resume with another bhchem version or an edited family file is refused.
 
 Boundaries: along every grid edge whose two ends differ in any classified column (the
 structure signature, the number of physical critical points ``n_critical`` and the kind of
