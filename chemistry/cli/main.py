@@ -11,9 +11,10 @@ import os
 import sys
 
 from bhchem.errors import BhchemError
+from bhchem.fileio import check_writable_folder, clean_stale, output_lock
 from bhchem.present.serialize import to_json
 from bhchem.declare.registry import load_family_file
-from bhchem.core.compiled import bind
+from bhchem.core.compiled import bind, parse_number
 from bhchem.declare.registry import get_family
 from bhchem.declare.registry import available_families
 from bhchem.conventions import convention_record
@@ -182,7 +183,25 @@ def _progress(args, what):
     return show
 
 
+def _note(line: str) -> None:
+    """One line on stderr about a recovery (a stale temporary removed, a chunk recomputed)."""
+    print(f"bhchem: note: {line}", file=sys.stderr)
+
+
+def _check_plot_output(path: str) -> str:
+    """Refuse a plot output that cannot be written, before anything is computed."""
+    path = os.path.abspath(path)
+    ext = os.path.splitext(path)[1].lower().lstrip(".")
+    if ext not in ("png", "pdf", "svg"):
+        raise BhchemError(f"output {path}: use a .png, .pdf or .svg file name")
+    if os.path.isdir(path):
+        raise BhchemError(f"output {path} is a folder; give a file name")
+    check_writable_folder(os.path.dirname(path), f"output {path}")
+    return path
+
+
 def cmd_plot(args) -> int:
+    _check_plot_output(args.output)
     th = _bound(args)
     kw = {}
     if args.pressure:
@@ -194,7 +213,10 @@ def cmd_plot(args) -> int:
         else:
             raise BhchemError(f"--pressure does not apply to a '{args.kind}' plot")
     res = make_figure(th, args.kind, **kw)
-    path = save(res, args.output)
+    with output_lock(args.output):
+        for note in clean_stale(args.output):
+            _note(f"{note} (left by an interrupted run)")
+        path = save(res, args.output)
     print(f"wrote {path}")
     return 0
 
@@ -202,8 +224,14 @@ def cmd_plot(args) -> int:
 def cmd_report(args) -> int:
     th = _bound(args)
     progress = _stage_progress(args)
-    path = write_report(th, args.output, digits=args.digits, force=args.force,
-                        progress=progress, include_unphysical=args.include_unphysical)
+    try:
+        path = write_report(th, args.output, digits=args.digits, force=args.force,
+                            progress=progress, include_unphysical=args.include_unphysical,
+                            notify=_note)
+    except OSError as exc:  # e.g. disk full: nothing was moved into place
+        print(f"bhchem: error: the report {args.output} was not written ({exc}); any "
+              f"earlier folder there is untouched", file=sys.stderr)
+        return 1
     print(f"wrote {path}/ (report.md, tables.tex, results.json, figures)")
     return 0
 
@@ -214,14 +242,20 @@ def cmd_demo(args) -> int:
     out = args.output or "bhchem-demo"
     print(f"demo: {fam.name} ({fam.summary})")
     print(f"      parameters {', '.join(f'{k}={v:g}' for k, v in th.values.items())}")
-    path = write_report(th, out, force=True, progress=_stage_progress(args))
+    path = write_report(th, out, force=True, progress=_stage_progress(args), notify=_note)
     print(f"wrote {path}/ -- open report.md; figures as PNG and PDF, tables.tex for a paper")
     return 0
 
 
 def cmd_scan(args) -> int:
     axes = [parse_grid(g) for g in args.grid]
-    fixed = {k: float(v) for k, v in parse_assignments(args.param).items()}
+    fixed = {k: parse_number(v, k) for k, v in parse_assignments(args.param).items()}
+    out = os.path.abspath(args.output)
+    if os.path.lexists(out) and not os.path.isdir(out):
+        raise BhchemError(f"output folder {out} exists and is not a folder; choose another name")
+    check_writable_folder(os.path.dirname(out), f"output folder {out}")
+    if os.path.isdir(out) and not os.access(out, os.W_OK | os.X_OK):
+        raise BhchemError(f"output folder {out}: the folder is not writable")
     executor, client = None, None
     if args.scheduler:
         try:
@@ -236,7 +270,7 @@ def cmd_scan(args) -> int:
         family_file = (args.family_file or [None])[-1]
         doc = scan(args.family, axes, fixed, args.output, family_file=family_file,
                    workers=args.workers, executor=executor, quiet=args.quiet,
-                   refine=args.refine)
+                   refine=args.refine, notify=_note)
     except OSError as exc:  # e.g. disk full or a read-only folder: say what is missing
         print(f"bhchem: error: the atlas table in {args.output} was not written ({exc}); "
               f"a rerun reuses any finished chunks in {args.output}/chunks",

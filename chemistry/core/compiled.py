@@ -9,6 +9,7 @@ returns a :class:`Thermodynamics` object: the entry point of every analysis.
 """
 from __future__ import annotations
 
+import decimal
 import math
 import threading
 from dataclasses import dataclass
@@ -200,6 +201,51 @@ class State:
 MAX_DIMENSION = 30
 
 
+def parse_number(raw, name: str = "value") -> float:
+    """A float that is exactly what the text says, to double precision, or a one-line error.
+
+    Refuses text that is not a number, that overflows (``1e400`` -> inf), that names a
+    non-finite value, or that is nonzero but underflows to 0.0 (``1e-400``): such a value
+    would silently describe a different black hole.  Subnormal results (``4.9e-324``) are
+    nonzero and kept.
+
+    Parameters
+    ----------
+    raw : str or float
+    name : str
+        The parameter name for the message.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    ParameterDomainError
+
+    Examples
+    --------
+    >>> parse_number("0.5", "Q")
+    0.5
+    """
+    try:
+        value = float(raw)
+    except (TypeError, ValueError):
+        raise ParameterDomainError(f"{name} = {raw!r} is not a number") from None
+    if not math.isfinite(value):
+        raise ParameterDomainError(f"{name} = {raw} is not a finite double-precision number")
+    if value == 0.0 and isinstance(raw, str):
+        try:
+            exact = decimal.Decimal(raw.strip().replace("_", ""))
+        except decimal.InvalidOperation:
+            exact = decimal.Decimal(0)
+        if exact != 0:
+            raise ParameterDomainError(
+                f"{name} = {raw} underflows to 0 in double precision (smallest nonzero "
+                f"magnitude ~4.9e-324); give 0 or a representable value")
+    return value
+
+
 def validate_values(family: Family, values: Mapping[str, object]) -> dict:
     """Fill defaults and check every value against its declared domain.
 
@@ -221,6 +267,11 @@ def validate_values(family: Family, values: Mapping[str, object]) -> dict:
         except (TypeError, ValueError):
             raise ParameterDomainError(
                 f"{name} = {raw!r} is not a number; expected {p.domain.describe(name)}") from None
+        if not math.isfinite(value):
+            raise ParameterDomainError(
+                f"{name} = {raw} is outside its domain {p.domain.describe(name)}: not a finite "
+                f"double-precision number (family {family.name})")
+        value = parse_number(raw, name)
         if not p.domain.contains(value):
             raise ParameterDomainError(
                 f"{name} = {raw} is outside its domain {p.domain.describe(name)} "

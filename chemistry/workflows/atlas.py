@@ -15,7 +15,9 @@ chunks run in local processes (``workers``), or on any executor with ``submit``
 (a ``concurrent.futures`` executor or a Dask ``distributed.Client``).  Every finished
 chunk is written atomically to ``DIR/chunks/``; rerunning the same scan into the same
 folder computes only the missing chunks, and the final table is assembled from the
-chunks in grid order, so an interrupted and resumed scan gives the identical table.
+chunks in grid order, so an interrupted and resumed scan gives the identical table.  A chunk
+is reused only if its SHA-256 matches the manifest (damaged or edited chunks are recomputed,
+and named); a resume with another bhchem version or an edited family file is refused.
 
 Boundaries: along every grid edge whose two ends differ in any classified column (the
 structure signature, the number of physical critical points ``n_critical`` and the kind of
@@ -32,6 +34,7 @@ first; if it cannot be written (matplotlib missing, disk full) the table says so
 from __future__ import annotations
 
 import csv
+import hashlib
 import io
 import itertools
 import json
@@ -48,16 +51,19 @@ from concurrent.futures import as_completed as futures_as_completed
 
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.phases import phase_diagram
-from bhchem.core.compiled import bind, validate_values
+from bhchem.core.compiled import bind, parse_number, validate_values
 from bhchem.declare.registry import get_family, load_family_file
 from bhchem.errors import BhchemError
-from bhchem.fileio import atomic_write
+from bhchem.fileio import atomic_write, fault_point
 from bhchem.version import __version__
 from bhchem.workflows.report import dumps
 from bhchem.present.plots import PlotResult, save
 from bhchem.present.style import PALETTE, styled
 
 CHUNK_SIZE = 8
+#: finished chunks between two rewrites of the manifest's checksums (at most this many
+#: chunks are recomputed after a kill)
+MANIFEST_EVERY = 16
 ATLAS_ANCHORS = 48  # isobar anchors per phase diagram (narrow reentrant windows need them)
 
 
@@ -87,6 +93,9 @@ def parse_grid(spec: str) -> GridAxis:
         raise BhchemError(f"grid {spec!r} must look like NAME=START:STOP:N")
     try:
         lo, hi, n = float(parts[0]), float(parts[1]), int(parts[2])
+        lo, hi = parse_number(parts[0], f"{name} START"), parse_number(parts[1], f"{name} STOP")
+    except BhchemError as exc:
+        raise BhchemError(f"grid {spec!r}: {exc}") from None
     except ValueError:
         raise BhchemError(f"grid {spec!r}: START and STOP must be numbers and N an integer") from None
     if not (math.isfinite(lo) and math.isfinite(hi)) or n < 1 or n > 10**6:
@@ -165,6 +174,76 @@ def run_chunk(family_name, family_file, fixed, points) -> list:
 
 
 # -- the scan ------------------------------------------------------------------------------------
+def _sha256(data: bytes) -> str:
+    return hashlib.sha256(data).hexdigest()
+
+
+def family_source_sha256(fam):
+    """SHA-256 of the file that declares ``fam`` (None if it has no readable source file)."""
+    src = getattr(fam, "source", None) or ""
+    if not src or not os.path.isfile(src):
+        return None
+    with open(src, "rb") as fh:
+        return _sha256(fh.read())
+
+
+#: manifest keys that identify a scan (``chunks`` holds the checksums and may grow)
+_IDENTITY = ("family", "family_file", "grid", "fixed", "chunk_size", "anchors")
+
+
+def _resume_manifest(man_path, manifest, out_dir, say) -> dict:
+    """The chunk checksums to trust from an existing manifest (empty for a new scan).
+
+    Raises BhchemError for another scan, another bhchem version or an edited family file.
+    """
+    if not os.path.lexists(man_path):
+        return {}
+    try:
+        with open(man_path, "rb") as fh:
+            old = json.loads(fh.read().decode("utf-8"))
+        if not isinstance(old, dict) or not isinstance(old.get("chunks", {}), dict):
+            raise ValueError("not a manifest object")
+    except (OSError, ValueError) as exc:
+        say(f"{man_path} is damaged ({type(exc).__name__}); recomputing every chunk")
+        return {}
+    new = json.loads(_dumps(manifest))
+    if any(old.get(k) != new.get(k) for k in _IDENTITY):
+        raise BhchemError(f"{out_dir} holds a different scan; use another folder")
+    if old.get("version") != new["version"]:
+        raise BhchemError(f"{out_dir} was started by bhchem {old.get('version')}, this is "
+                          f"bhchem {new['version']}; refusing to mix versions (use another "
+                          f"folder)")
+    if old.get("family_source_sha256") != new["family_source_sha256"]:
+        raise BhchemError(f"the family source changed since {out_dir} was started: SHA-256 "
+                          f"{old.get('family_source_sha256')} then, "
+                          f"{new['family_source_sha256']} now; refusing to mix formulas "
+                          f"(use another folder)")
+    return {k: v for k, v in old.get("chunks", {}).items() if isinstance(v, str)}
+
+
+def _read_chunk(path, checksums, expected):
+    """(rows, None) for an intact chunk, or (None, why) for a damaged or edited one."""
+    try:
+        with open(path, "rb") as fh:
+            data = fh.read()
+    except OSError as exc:
+        return None, f"cannot be read ({exc.strerror})"
+    want = checksums.get(os.path.basename(path))
+    if want is None:
+        return None, "has no checksum in the manifest"
+    if _sha256(data) != want:
+        return None, "was changed since it was written (checksum mismatch)"
+    try:
+        rows = json.loads(data.decode("utf-8"))
+    except ValueError:
+        return None, "is damaged (not JSON)"
+    ok = isinstance(rows, list) and len(rows) == len(expected) and all(
+        isinstance(r, dict) and r.get("index") == i for r, (i, _) in zip(rows, expected))
+    if not ok:
+        return None, "is damaged (not the rows of this chunk)"
+    return rows, None
+
+
 def _atomic_write(path, text):
     atomic_write(path, text)
 
@@ -204,11 +283,18 @@ def _as_completed(executor, futures):
 
 def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, workers=1,
          executor=None, chunk_size=CHUNK_SIZE, refine=8, quiet=True,
-         stop_after_chunks=None) -> dict:
+         stop_after_chunks=None, notify=None) -> dict:
     """Run (or resume) an atlas scan; write atlas.csv, atlas.json, atlas.png into out_dir.
 
     Returns the atlas document (as written to atlas.json).  ``stop_after_chunks`` stops
     after that many new chunks (to test resuming).
+
+    Resuming trusts nothing it cannot verify: the manifest records the bhchem version, the
+    SHA-256 of the family's source file and the SHA-256 of every finished chunk.  A resume
+    with another version or an edited family file is refused (naming both); a chunk that is
+    damaged (unreadable, not the rows it should hold) or edited (checksum mismatch) is
+    recomputed, and a damaged manifest makes every chunk be recomputed; each recovery is
+    reported through ``notify`` (one line naming the file).
     """
     fixed = dict(fixed or {})
     fam = _family(family_name, family_file)
@@ -233,22 +319,50 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             reps.append(i)
     manifest = {"family": family_name, "family_file": os.path.abspath(family_file) if family_file else None,
                 "grid": [a.spec for a in axes], "fixed": fixed, "chunk_size": chunk_size,
-                "anchors": ATLAS_ANCHORS}
+                "anchors": ATLAS_ANCHORS, "version": __version__,
+                "family_source_sha256": family_source_sha256(fam)}
     out_dir = os.path.abspath(out_dir)
     chunk_dir = os.path.join(out_dir, "chunks")
     os.makedirs(chunk_dir, exist_ok=True)
     man_path = os.path.join(out_dir, "manifest.json")
-    if os.path.exists(man_path):
-        with open(man_path, encoding="utf-8") as fh:
-            old = json.load(fh)
-        if old != json.loads(_dumps(manifest)):
-            raise BhchemError(f"{out_dir} holds a different scan; use another folder")
-    else:
-        _atomic_write(man_path, _dumps(manifest))
     rep_points = [(i, points[i]) for i in reps]
     chunks = [rep_points[i:i + chunk_size] for i in range(0, len(rep_points), chunk_size)]
-    missing = [i for i in range(len(chunks))
-               if not os.path.exists(os.path.join(chunk_dir, f"chunk-{i:06d}.json"))]
+    say = notify or (lambda line: None)
+    checksums = _resume_manifest(man_path, manifest, out_dir, say)
+    manifest = json.loads(_dumps(manifest))
+    manifest["chunks"] = checksums
+
+    def chunk_path(i):
+        return os.path.join(chunk_dir, f"chunk-{i:06d}.json")
+
+    pending = []
+
+    def save_checksums():
+        if pending:
+            _atomic_write(man_path, _dumps(manifest))
+            pending.clear()
+
+    def record(i, rows):
+        # the manifest is rewritten every MANIFEST_EVERY chunks (a count), not after each:
+        # a chunk whose checksum was not yet saved when the run died is recomputed
+        text = _dumps(rows)
+        _atomic_write(chunk_path(i), text)
+        fault_point("atlas-chunk-written")
+        manifest["chunks"][os.path.basename(chunk_path(i))] = _sha256(text.encode("utf-8"))
+        pending.append(i)
+        if len(pending) >= MANIFEST_EVERY:
+            save_checksums()
+
+    _atomic_write(man_path, _dumps(manifest))
+    loaded = {}
+    for i in range(len(chunks)):
+        if os.path.lexists(chunk_path(i)):
+            rows, why = _read_chunk(chunk_path(i), manifest["chunks"], chunks[i])
+            if why:
+                say(f"{chunk_path(i)} {why}; recomputing it")
+            else:
+                loaded[i] = rows
+    missing = [i for i in range(len(chunks)) if i not in loaded]
     progress = _Progress(len(rep_points), quiet)
     progress.add(sum(len(chunks[i]) for i in range(len(chunks)) if i not in set(missing)))
     # one pool for the whole run: chunks and boundary refinement; a caller's executor is
@@ -261,10 +375,12 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         if executor is None:
             for i in missing:
                 rows = run_chunk(family_name, family_file, fixed, chunks[i])
-                _atomic_write(os.path.join(chunk_dir, f"chunk-{i:06d}.json"), _dumps(rows))
+                record(i, rows)
+                loaded[i] = json.loads(_dumps(rows))
                 progress.add(len(rows))
                 written += 1
                 if stop_after_chunks is not None and written >= stop_after_chunks:
+                    save_checksums()
                     return {"interrupted": True, "chunks_written": written}
         else:
             futs = {}
@@ -274,20 +390,22 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             for f in _as_completed(executor, list(futs)):
                 i = futs[f]
                 rows = f.result()
-                _atomic_write(os.path.join(chunk_dir, f"chunk-{i:06d}.json"), _dumps(rows))
+                record(i, rows)
+                loaded[i] = json.loads(_dumps(rows))
                 progress.add(len(rows))
                 written += 1
                 if stop_after_chunks is not None and written >= stop_after_chunks:
                     for g in futs:
                         g.cancel()
+                    save_checksums()
                     return {"interrupted": True, "chunks_written": written}
+        save_checksums()
         progress.close()
         progress = None
         computed = {}
         for i in range(len(chunks)):
-            with open(os.path.join(chunk_dir, f"chunk-{i:06d}.json"), encoding="utf-8") as fh:
-                for r in json.load(fh):
-                    computed[r["index"]] = r
+            for r in loaded[i]:
+                computed[r["index"]] = r
         rows = []
         for i, p in enumerate(points):
             r = dict(computed[rep_of[keys[i]]])

@@ -21,7 +21,8 @@ from bhchem.version import __version__
 from bhchem.core.compiled import Thermodynamics
 from bhchem.conventions import convention_record
 from bhchem.errors import BhchemError
-from bhchem.fileio import atomic_directory, atomic_write
+from bhchem.fileio import (atomic_directory, atomic_write, check_writable_folder, clean_stale,
+                           fault_point, output_lock)
 from bhchem.present.serialize import jsonable, to_json
 from bhchem.present.critical_report import critical_json
 from bhchem.present.report_text import report_md, tables_tex
@@ -98,7 +99,7 @@ def compute_results(th: Thermodynamics, progress=None) -> tuple[dict, object]:
 
 # -- LaTeX tables ------------------------------------------------------------------------
 def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = False,
-                 progress=None, include_unphysical: bool = False) -> str:
+                 progress=None, include_unphysical: bool = False, notify=None) -> str:
     """Compute and write the report bundle atomically into ``out_dir``.
 
     Parameters
@@ -116,6 +117,9 @@ def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = Fal
         List unphysical critical points in ``tables.tex`` too (default: physical only;
         the file says how many it left out).  ``results.json`` and ``report.md`` always
         list every solution with its ``physical`` flag.
+    notify : callable, optional
+        Called with one line for each temporary of an interrupted earlier run that was
+        removed (or a bundle restored from its renamed-aside copy).
 
     Returns
     -------
@@ -124,38 +128,63 @@ def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = Fal
         :func:`bhchem.present.serialize.atomic_write` inside a folder built by
         :func:`bhchem.present.serialize.atomic_directory`, so files end 0666 & ~umask and the
         folder 0777 & ~umask.
+
+    Raises
+    ------
+    BhchemError
+        Before anything is computed: the folder exists (without ``force``), is a file, its
+        parent is missing, a file or not writable, or another process is writing it
+        (:class:`bhchem.fileio.OutputBusyError`).
+
+    Notes
+    -----
+    Faults: the folder is written under a temporary name and renamed into place; with
+    ``force`` the old folder is first renamed aside and removed only after the new one is
+    in place, so a kill at any instant leaves one complete bundle (the next run restores the
+    aside copy if the kill fell between the two renames, and removes stale temporaries).
     """
     out_dir = os.path.abspath(os.fspath(out_dir))
+    _check_target(out_dir, force)
+    if not 1 <= digits <= 17:
+        raise BhchemError("--digits must be between 1 and 17")
+    with output_lock(out_dir):
+        for note in clean_stale(out_dir):
+            if notify:
+                notify(f"{note} (left by an interrupted run)")
+        _check_target(out_dir, force)
+        with atomic_directory(out_dir, replace=force) as tmp:
+            doc, pd = compute_results(th, progress)
+            fault_point("report-computed")
+            figures = []
+            for name, caption in FIGURES:
+                if progress:
+                    progress(f"figure {name}")
+                try:
+                    kw = {"diagram": pd} if name == "pt" else {}
+                    res = make_figure(th, name, **kw)
+                except EmptyFigureError as exc:
+                    doc.setdefault("figures_skipped", {})[name] = str(exc)
+                    continue
+                save(res, os.path.join(tmp, f"{name}.png"))
+                save(res, os.path.join(tmp, f"{name}.pdf"))
+                del res  # saved, not returned: the figure (never in pyplot) is released
+                figures.append((name, caption))
+            doc["figures"] = [n for n, _ in figures]
+            atomic_write(os.path.join(tmp, "results.json"), dumps(doc, family=th.family))
+            atomic_write(os.path.join(tmp, "tables.tex"),
+                         tables_tex(doc, digits, include_unphysical=include_unphysical))
+            atomic_write(os.path.join(tmp, "report.md"), report_md(doc, figures, digits))
+            fault_point("report-written")
+            _check_target(out_dir, force)
+    return out_dir
+
+
+def _check_target(out_dir: str, force: bool) -> None:
+    """Refuse an output folder that cannot be (re)placed, before anything is computed."""
     if os.path.lexists(out_dir):
-        if not force:
-            raise BhchemError(f"output folder {out_dir} exists; choose another or pass --force")
         if not os.path.isdir(out_dir) or os.path.islink(out_dir):
             raise BhchemError(f"output folder {out_dir} exists and is not a folder; "
                               f"choose another name")
-    parent = os.path.dirname(out_dir)
-    if not os.path.isdir(parent):
-        raise BhchemError(f"output folder {out_dir}: parent {parent} does not exist")
-    if not 1 <= digits <= 17:
-        raise BhchemError("--digits must be between 1 and 17")
-    with atomic_directory(out_dir, replace=force) as tmp:
-        doc, pd = compute_results(th, progress)
-        figures = []
-        for name, caption in FIGURES:
-            if progress:
-                progress(f"figure {name}")
-            try:
-                kw = {"diagram": pd} if name == "pt" else {}
-                res = make_figure(th, name, **kw)
-            except EmptyFigureError as exc:
-                doc.setdefault("figures_skipped", {})[name] = str(exc)
-                continue
-            save(res, os.path.join(tmp, f"{name}.png"))
-            save(res, os.path.join(tmp, f"{name}.pdf"))
-            del res  # saved, not returned: the figure (never in pyplot) is released
-            figures.append((name, caption))
-        doc["figures"] = [n for n, _ in figures]
-        atomic_write(os.path.join(tmp, "results.json"), dumps(doc, family=th.family))
-        atomic_write(os.path.join(tmp, "tables.tex"),
-                     tables_tex(doc, digits, include_unphysical=include_unphysical))
-        atomic_write(os.path.join(tmp, "report.md"), report_md(doc, figures, digits))
-    return out_dir
+        if not force:
+            raise BhchemError(f"output folder {out_dir} exists; choose another or pass --force")
+    check_writable_folder(os.path.dirname(out_dir), f"output folder {out_dir}")
