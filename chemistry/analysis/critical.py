@@ -155,6 +155,11 @@ class CriticalSearch:
     converged : bool
         Every reported point meets RESIDUAL_TOLERANCE.
     message : str
+    convention : dict
+    warnings : tuple of str
+        Filled by :func:`~bhchem.analysis.critical_branch.find_critical_points_on_branches`
+        (``on_preferred_branch`` rests on G, hence on the first law); the plain search,
+        from the equation of state alone, leaves it empty.
     """
 
     family: str
@@ -166,6 +171,7 @@ class CriticalSearch:
     converged: bool
     message: str
     convention: dict = field(default_factory=dict)
+    warnings: tuple = ()
 
     @property
     def physical(self) -> tuple:

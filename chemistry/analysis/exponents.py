@@ -39,6 +39,7 @@ from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.analysis.critical import CriticalPoint, loop_side
 from bhchem.analysis.critical import isotherm_form
 from bhchem.numerics import isotherm_pressure
+from bhchem.analysis.consistency import emit, first_law_warnings
 
 ZERO_TOLERANCE = 1e-8
 
@@ -66,6 +67,10 @@ class ExponentResult:
         n and m (see module docstring).
     agree : bool
         Every fitted exponent agrees with the exact one.
+    message : str
+    disagreements : list of str
+    warnings : tuple of str
+        A first-law failure of the family (the fitted beta rests on coexistence from G).
     """
 
     exact: dict
@@ -75,6 +80,7 @@ class ExponentResult:
     agree: bool
     message: str
     disagreements: list = field(default_factory=list)
+    warnings: tuple = ()
 
     def to_dict(self) -> dict:
         d = asdict(self)
@@ -246,8 +252,10 @@ def critical_exponents(th: Thermodynamics, cp: CriticalPoint) -> ExponentResult:
         if abs(f.value - ex) > max(5 * (f.uncertainty or 0.0), 1e-2):
             disagreements.append(f"{k}: exact {exact[k]}, fitted {f.value:.4f} +- {f.uncertainty:.1e}")
     agree = not disagreements
+    flagged = first_law_warnings(th)
+    emit(flagged)
     msg = "fitted exponents agree with the exact ones" if agree else \
         "DISAGREEMENT: " + "; ".join(disagreements)
     return ExponentResult(exact=exact, fitted={k: asdict(v) for k, v in fitted.items()},
                           coefficients=coeffs, orders=orders, agree=agree, message=msg,
-                          disagreements=disagreements)
+                          disagreements=disagreements, warnings=flagged)

@@ -34,6 +34,7 @@ from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import StateDomainError
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.coexistence import coexistence_newton
+from bhchem.analysis.consistency import emit, first_law_warnings
 
 _XTOL = 1e-15
 
@@ -300,8 +301,30 @@ def isobar_branches(th: Thermodynamics, P: float, critical_points=(), x_range=No
 
 
 def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 3000,
-                   critical_points=None) -> IsobarResult:
-    """Branches, swallowtails, preferred phase and transitions at pressure P."""
+                   critical_points=None, warn: bool = True) -> IsobarResult:
+    """Branches, swallowtails, preferred phase and transitions at pressure P.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    P : float
+        The pressure (> 0).
+    x_range : (float, float), optional
+        State range to search (default: :func:`state_range`).
+    n_T : int
+        Temperatures of the grid on which the branches are compared.
+    critical_points : sequence of CriticalPoint, optional
+        Default: the physical points of :func:`~bhchem.analysis.critical.find_critical_points`.
+    warn : bool
+        Issue the result's warnings with :func:`warnings.warn` (the phase diagram passes
+        False and issues its own, once). The result carries them either way.
+
+    Returns
+    -------
+    IsobarResult
+        ``warnings`` names a first-law failure of the family (its transitions then have no
+        thermodynamic meaning) and anything the walk could not resolve.
+    """
     if not (np.isfinite(P) and P > 0):
         raise StateDomainError(f"pressure P = {P} is not positive: there is no AdS black hole")
     xr = x_range if x_range else state_range(th, P)
@@ -368,7 +391,8 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     with np.errstate(invalid="ignore"):
         Gmin_idx = np.where(np.all(np.isnan(Genv), axis=0), -1,
                             np.nanargmin(np.where(np.isnan(Genv), np.inf, Genv), axis=0))
-    transitions, segments, warnings = [], [], []
+    transitions, segments = [], []
+    warnings = list(first_law_warnings(th))
     valid = np.nonzero(Gmin_idx >= 0)[0]
     start = Ts[valid[0]]
     for k in range(valid[0], valid[-1]):
@@ -402,6 +426,8 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
                            round(T, 12) in env_T) for T, i, j in sorted(crossings))
     msg = (f"{len(branches)} branch(es), {len(cross)} G-T crossing(s), "
            f"{len(transitions)} transition(s) of the preferred phase")
+    if warn:
+        emit(first_law_warnings(th))
     return IsobarResult(pressure=P, parameters=dict(th.values), branches=tuple(branches),
                         crossings=cross, transitions=tuple(transitions),
                         preferred=tuple(segments), background=bg_name,

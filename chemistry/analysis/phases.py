@@ -70,6 +70,7 @@ from bhchem.errors import StateDomainError
 from bhchem.analysis.isobar import (Transition, analyze_isobar, branch_state_at, isobar_skeleton,
                      skeleton_margins)
 from bhchem.analysis.critical import loop_side
+from bhchem.analysis.consistency import emit, first_law_warnings, line_check_warnings
 
 #: relative offset of the skeletons evaluated on both sides of an event
 _ETA = 1e-9
@@ -956,7 +957,7 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
         P = float(P)
         if P not in isos:
             try:
-                isos[P] = analyze_isobar(th, P, critical_points=cps)
+                isos[P] = analyze_isobar(th, P, critical_points=cps, warn=False)
             except StateDomainError:
                 isos[P] = None
         return isos[P]
@@ -1066,6 +1067,13 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
             for k in ("_cp", "_event", "_tp"):
                 e.pop(k, None)
 
+    # results resting on the first law, and residuals above their bound, are flagged first
+    flagged = list(first_law_warnings(th))
+    for line in lines:
+        flagged.extend(line_check_warnings(
+            f"{line.kind} line {line.between[0]}/{line.between[1]}", line.checks))
+    warnings = list(dict.fromkeys(flagged + warnings))
+    emit(flagged)
     iso_list = [isos[P] for P in anchors if isos[P] is not None]
     regions = _regions([iso.pressure for iso in iso_list], iso_list)
     graph = build_graph(lines, cps, triple_points, regions, th.family.background_name
@@ -1384,7 +1392,7 @@ def takes_part_in_transition(th: Thermodynamics, cp, eps: float = 1e-4) -> bool 
     if res is None:
         return False
     T, x1, x2 = res
-    iso = analyze_isobar(th, P)
+    iso = analyze_isobar(th, P, warn=False)
     for t in iso.transitions:
         if t.kind == "first-order" and abs(t.T - T) <= 1e-8 * T:
             return True

@@ -7,10 +7,12 @@ Bad input ends with one line on stderr and exit code 2, never a traceback.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import sys
+import warnings
 
-from bhchem.errors import BhchemError
+from bhchem.errors import BhchemError, BhchemWarning
 from bhchem.present.serialize import to_json
 from bhchem.declare.registry import load_family_file
 from bhchem.core.compiled import bind
@@ -106,9 +108,19 @@ def cmd_show(args) -> int:
     return 0
 
 
+@contextlib.contextmanager
+def _warnings_in_output():
+    """The result's warnings are printed with it (WARNING lines, a ``warnings`` key): do not
+    repeat them on stderr as Python warnings."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", BhchemWarning)
+        yield
+
+
 def cmd_critical(args) -> int:
     th = _bound(args)
-    doc = critical_json(th, with_exponents=args.command == "exponents")
+    with _warnings_in_output():
+        doc = critical_json(th, with_exponents=args.command == "exponents")
     if args.json:
         print(to_json(doc, family=th.family))
     else:
@@ -148,7 +160,8 @@ def parse_pressure(text: str, th) -> float:
 def cmd_isobar(args) -> int:
     th = _bound(args)
     P = parse_pressure(args.pressure, th)
-    res = analyze_isobar(th, P, critical_points=find_critical_points(th).physical)
+    with _warnings_in_output():
+        res = analyze_isobar(th, P, critical_points=find_critical_points(th).physical)
     print(to_json(isobar_json(res), family=th.family) if args.json else isobar_text(res))
     return 0
 
@@ -161,7 +174,8 @@ def cmd_phases(args) -> int:
         if rng[0] >= rng[1]:
             raise BhchemError("--pressure-range needs P1 < P2")
     progress = _progress(args, "isobars")
-    pd = phase_diagram(th, pressure_range=rng, progress=progress)
+    with _warnings_in_output():
+        pd = phase_diagram(th, pressure_range=rng, progress=progress)
     if progress:
         progress(None, None)
     print(to_json(diagram_json(pd), family=th.family) if args.json else diagram_text(pd))

@@ -32,6 +32,8 @@ practice).
 """
 from __future__ import annotations
 
+import threading
+import weakref
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -184,6 +186,34 @@ def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202
                f"(finite differences {fd_worst:.1e}) at x={worst_pt.get('x', float('nan')):.6g}, "
                f"P={worst_pt.get('P', float('nan')):.6g}")
     return FirstLawResult(holds, worst, fd_worst, sample.n_points, proved, msg, worst_pt)
+
+
+#: the first-law verdict of each bound family, kept while the bound object lives (every
+#: analysis whose meaning rests on the first law asks for it); nothing is stored on the object
+_FIRST_LAW_VERDICTS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+_FIRST_LAW_LOCK = threading.Lock()
+
+
+def first_law_verdict(th: Thermodynamics) -> FirstLawResult:
+    """:func:`check_first_law` with its defaults, computed once per bound family.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+
+    Returns
+    -------
+    FirstLawResult
+        The same object for every call with the same bound family.
+    """
+    with _FIRST_LAW_LOCK:
+        hit = _FIRST_LAW_VERDICTS.get(th)
+    if hit is not None:
+        return hit
+    verdict = check_first_law(th)
+    with _FIRST_LAW_LOCK:
+        _FIRST_LAW_VERDICTS[th] = verdict
+    return verdict
 
 
 def _finite_difference_residual(bound: Thermodynamics, xs, Ps) -> float:

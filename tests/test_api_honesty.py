@@ -1,0 +1,116 @@
+"""Issue 21: the Python API as a notebook user meets it.
+
+Item 2: results that rest on the first law carry a failed verdict (a ``warnings`` entry,
+a WARNING line / ``warnings`` key in the CLI output and a Python warning of a named
+category); residuals above their promised bound are warnings too.
+"""
+from __future__ import annotations
+
+import json
+import warnings
+from pathlib import Path
+
+import pytest
+
+from bhchem import bind, load_family_file
+from bhchem.analysis.coexistence_line import coexistence_curve
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical_branch import find_critical_points_on_branches
+from bhchem.analysis.exponents import critical_exponents
+from bhchem.analysis.isobar import analyze_isobar
+from bhchem.analysis.phases import phase_diagram
+from bhchem.cli.main import main
+from bhchem.core.checks import first_law_verdict
+from bhchem.declare import registry
+from bhchem.errors import BhchemWarning, InconsistentFamilyWarning, ResidualBoundWarning
+from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
+
+ROOT = Path(__file__).resolve().parents[1]
+BARDEEN = ROOT / "examples" / "families" / "bardeen_area_law.py"
+
+
+@pytest.fixture(scope="module")
+def bardeen():
+    """Bardeen-AdS with S = pi r^2 and T from the surface gravity (metric: Tzikas, Phys.
+    Lett. B 788 (2019) 219): the pair fails the first law (tests/test_checks_faults.py
+    derives the size of the mismatch)."""
+    with registry.registry_scope():
+        (fam,) = load_family_file(BARDEEN)
+        yield bind(fam)
+
+
+@pytest.fixture(scope="module")
+def bardeen_diagram(bardeen):
+    with pytest.warns(BhchemWarning) as record:
+        pd = phase_diagram(bardeen)
+    return pd, [(w.category, str(w.message)) for w in record]
+
+
+def _first_law(messages) -> bool:
+    return any(m.startswith("the family fails the first law") for m in messages)
+
+
+def test_first_law_verdict_is_computed_once_per_bound_family(bardeen):
+    a = first_law_verdict(bardeen)
+    assert a.holds is False
+    assert first_law_verdict(bardeen) is a
+    assert not any("first_law" in k for k in vars(bardeen))  # nothing stored on the object
+
+
+def test_phase_diagram_of_an_inconsistent_family_warns(bardeen_diagram):
+    pd, record = bardeen_diagram
+    assert _first_law(pd.warnings)
+    assert any(c is InconsistentFamilyWarning and _first_law([m]) for c, m in record)
+    # the equal-area and Clapeyron residuals (~1e-1, promised 1e-10) are warnings, not
+    # only numbers in the checks
+    fo = [line for line in pd.lines if line.kind == "first-order"]
+    assert fo and fo[0].checks["max_equal_area_residual"] > 1e-10
+    bound = [m for m in pd.warnings if "max_equal_area_residual" in m]
+    assert bound and "promised bound" in bound[0]
+    assert any(c is ResidualBoundWarning and "max_clapeyron_residual" in m for c, m in record)
+    assert len(pd.warnings) == len(set(pd.warnings))  # the isobars' copies are merged
+    assert "WARNING: the family fails the first law" in diagram_text(pd)
+    assert _first_law(diagram_json(pd)["warnings"])
+
+
+def test_isobar_critical_exponents_and_coexistence_of_an_inconsistent_family_warn(bardeen):
+    with pytest.warns(InconsistentFamilyWarning):
+        res = analyze_isobar(bardeen, 0.5 * find_critical_points(bardeen).physical[0].P)
+    assert _first_law(res.warnings)
+    assert "WARNING: the family fails the first law" in isobar_text(res)
+    assert _first_law(isobar_json(res)["warnings"])
+    with pytest.warns(InconsistentFamilyWarning):
+        search = find_critical_points_on_branches(bardeen)
+    assert _first_law(search.warnings)
+    cp = search.physical[0]
+    with pytest.warns(InconsistentFamilyWarning):
+        assert _first_law(critical_exponents(bardeen, cp).warnings)
+    with pytest.warns(InconsistentFamilyWarning):
+        curve = coexistence_curve(bardeen, [0.3 * cp.P, 0.5 * cp.P], critical_point=cp,
+                                  checks=True)
+    assert _first_law(curve.warnings)
+    assert any("max_equal_area_residual" in m for m in curve.warnings)
+
+
+def test_consistent_family_gives_no_warning():
+    th = bind("rn-ads", Q=1.0)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", BhchemWarning)
+        cp = find_critical_points_on_branches(th).physical[0]
+        res = analyze_isobar(th, 0.5 * cp.P)
+        curve = coexistence_curve(th, [0.3 * cp.P, 0.5 * cp.P], critical_point=cp, checks=True)
+    assert res.warnings == () and curve.warnings == ()
+
+
+@pytest.mark.parametrize("command", ["critical", "isobar", "phases"])
+def test_cli_shows_the_failed_verdict(command, capsys):
+    extra = ["--pressure", "0.5Pc"] if command == "isobar" else []
+    base = [command, "bardeen-area-law", "--family-file", str(BARDEEN), *extra]
+    with registry.registry_scope():
+        assert main(base) == 0
+        out = capsys.readouterr()
+        assert "WARNING: the family fails the first law" in out.out
+        assert "Warning:" not in out.err  # shown once, in the output
+        assert main(base + ["--json"]) == 0
+        doc = json.loads(capsys.readouterr().out)
+    assert _first_law(doc["warnings"])
