@@ -85,9 +85,10 @@ def test_isobar_critical_exponents_and_coexistence_of_an_inconsistent_family_war
     cp = search.physical[0]
     with pytest.warns(InconsistentFamilyWarning):
         assert _first_law(critical_exponents(bardeen, cp).warnings)
-    with pytest.warns(InconsistentFamilyWarning):
+    with pytest.warns(BhchemWarning) as record:
         curve = coexistence_curve(bardeen, [0.3 * cp.P, 0.5 * cp.P], critical_point=cp,
                                   checks=True)
+    assert {w.category for w in record} == {InconsistentFamilyWarning, ResidualBoundWarning}
     assert _first_law(curve.warnings)
     assert any("max_equal_area_residual" in m for m in curve.warnings)
 
@@ -114,3 +115,49 @@ def test_cli_shows_the_failed_verdict(command, capsys):
         assert main(base + ["--json"]) == 0
         doc = json.loads(capsys.readouterr().out)
     assert _first_law(doc["warnings"])
+
+
+# -- item 5: the API validates its arguments, with one-line messages ------------------
+from bhchem.analysis.critical import resolve_pressure  # noqa: E402
+from bhchem.errors import BhchemError, InvalidArgumentError  # noqa: E402
+
+
+@pytest.fixture(scope="module")
+def rn():
+    return bind("rn-ads", Q=1.0)
+
+
+@pytest.mark.parametrize("call, words", [
+    (lambda th: phase_diagram(th, pressure_range=(1e-3, 1e-4)), "P1 < P2"),
+    (lambda th: phase_diagram(th, pressure_range=(1e-3,)), "two pressures"),
+    (lambda th: analyze_isobar(th, None), "must be a number"),
+    (lambda th: analyze_isobar(th, [1e-3, 2e-3]), "one pressure"),
+    (lambda th: analyze_isobar(th, __import__("numpy").array([1e-3, 2e-3])), "one pressure"),
+    (lambda th: analyze_isobar(th, "half"), "must look like"),
+    (lambda th: analyze_isobar(th, "0.5Pc3"), "only 1 critical point"),
+])
+def test_bad_arguments_get_one_line_messages(rn, call, words):
+    with pytest.raises(InvalidArgumentError) as info:
+        call(rn)
+    assert isinstance(info.value, BhchemError)
+    assert isinstance(info.value, ValueError) and isinstance(info.value, TypeError)
+    assert words in str(info.value) and "\n" not in str(info.value)
+    assert "ufunc" not in str(info.value) and "ambiguous" not in str(info.value)
+
+
+def test_relative_pressures_work_in_the_api_as_in_the_cli(rn):
+    Pc = find_critical_points(rn).physical[0].P
+    assert resolve_pressure(rn, "0.5Pc") == 0.5 * Pc
+    assert resolve_pressure(rn, "Pc") == Pc
+    assert analyze_isobar(rn, "0.5Pc").pressure == 0.5 * Pc
+    pd = phase_diagram(rn, pressure_range=("0.1Pc", "2Pc"), n_anchor=8, n_dense=8)
+    assert pd.pressure_range == (0.1 * Pc, 2 * Pc)
+
+
+def test_the_cli_uses_the_api_pressure_parser(rn, capsys):
+    assert main(["isobar", "rn-ads", "-p", "Q=1", "--pressure", "0.5Pc", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["pressure"] == resolve_pressure(rn, "0.5Pc")
+    assert main(["isobar", "rn-ads", "--pressure", "0.5Pc3"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "only 1 critical point" in err

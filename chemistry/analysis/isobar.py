@@ -32,7 +32,7 @@ from scipy.optimize import brentq
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import StateDomainError
-from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical import find_critical_points, resolve_pressure
 from bhchem.analysis.coexistence import coexistence_newton
 from bhchem.analysis.consistency import emit, first_law_warnings
 
@@ -307,8 +307,9 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     Parameters
     ----------
     th : Thermodynamics
-    P : float
-        The pressure (> 0).
+    P : float or str
+        The pressure (> 0), or relative to a critical point (``'0.5Pc'``, see
+        :func:`~bhchem.analysis.critical.resolve_pressure`).
     x_range : (float, float), optional
         State range to search (default: :func:`state_range`).
     n_T : int
@@ -324,9 +325,15 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     IsobarResult
         ``warnings`` names a first-law failure of the family (its transitions then have no
         thermodynamic meaning) and anything the walk could not resolve.
+
+    Raises
+    ------
+    InvalidArgumentError
+        P is not one number or pressure text (None, an array, ...).
+    StateDomainError
+        P is not positive and finite, or there is no physical state at P.
     """
-    if not (np.isfinite(P) and P > 0):
-        raise StateDomainError(f"pressure P = {P} is not positive: there is no AdS black hole")
+    P = resolve_pressure(th, P)
     xr = x_range if x_range else state_range(th, P)
     if critical_points is None:
         critical_points = find_critical_points(th).physical

@@ -69,7 +69,7 @@ from bhchem.analysis.critical import find_critical_points
 from bhchem.errors import StateDomainError
 from bhchem.analysis.isobar import (Transition, analyze_isobar, branch_state_at, isobar_skeleton,
                      skeleton_margins)
-from bhchem.analysis.critical import loop_side
+from bhchem.analysis.critical import loop_side, resolve_pressure_range
 from bhchem.analysis.consistency import emit, first_law_warnings, line_check_warnings
 
 #: relative offset of the skeletons evaluated on both sides of an event
@@ -937,6 +937,10 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
 
     Parameters
     ----------
+    th : Thermodynamics
+    pressure_range : (P1, P2), optional
+        P1 < P2, each a number or relative to a critical point (``('0.1Pc', '2Pc')``);
+        default: :func:`default_pressure_range`.
     n_anchor : int
         Log-spaced anchor isobars (besides those at the range ends and beside each event).
     n_dense : int
@@ -946,7 +950,8 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
     """
     search = find_critical_points(th)
     cps = search.physical
-    lo, hi = pressure_range if pressure_range else default_pressure_range(th, cps)
+    lo, hi = resolve_pressure_range(th, pressure_range) if pressure_range is not None \
+        else default_pressure_range(th, cps)
     sks = _Skeletons(th, cps)
     events: list = []
     warnings: list = []

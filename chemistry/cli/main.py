@@ -21,8 +21,7 @@ from bhchem.declare.registry import available_families
 from bhchem.conventions import convention_record
 from bhchem.present.summary import show_json, show_text
 from bhchem.present.critical_report import critical_json, critical_text
-import math
-from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical import find_critical_points, resolve_pressure
 from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
@@ -130,31 +129,9 @@ def cmd_critical(args) -> int:
 
 def parse_pressure(text: str, th) -> float:
     """'0.01', '1e-3' or relative to a critical point: '0.5Pc' (lowest physical critical
-    pressure), '0.5Pc2' (the second, by pressure)."""
-    t = str(text).strip()
-    factor, sep, which = t.partition("Pc")
-    if sep:
-        try:
-            f = float(factor) if factor.strip() else 1.0
-            idx = int(which) if which.strip() else 1
-        except ValueError:
-            raise BhchemError(f"pressure {text!r} must look like 0.01 or 0.5Pc (or 0.5Pc2)") from None
-        cps = find_critical_points(th).physical
-        if not cps:
-            raise BhchemError(f"pressure {text!r} is relative to a critical point, but "
-                              f"{th.family.name} has none at these parameters; give P directly")
-        if not 1 <= idx <= len(cps):
-            raise BhchemError(f"pressure {text!r}: there are only {len(cps)} critical point(s)")
-        value = f * cps[idx - 1].P
-    else:
-        try:
-            value = float(t)
-        except ValueError:
-            raise BhchemError(f"pressure {text!r} must look like 0.01 or 0.5Pc") from None
-    if not (math.isfinite(value) and value > 0):
-        raise BhchemError(f"pressure {text!r} must be a positive finite number "
-                          f"(P = -Lambda/8pi > 0 for AdS)")
-    return value
+    pressure), '0.5Pc2' (the second, by pressure); see
+    :func:`bhchem.analysis.critical.resolve_pressure`, which the API uses too."""
+    return resolve_pressure(th, text)
 
 
 def cmd_isobar(args) -> int:
