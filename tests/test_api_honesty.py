@@ -161,3 +161,50 @@ def test_the_cli_uses_the_api_pressure_parser(rn, capsys):
     assert main(["isobar", "rn-ads", "--pressure", "0.5Pc3"]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "only 1 critical point" in err
+
+
+# -- item 7: every result type has a short repr and a JSON-ready to_dict() ----------------
+import bhchem  # noqa: E402
+from bhchem.analysis import curvature, engines, expansion, figure_data, response  # noqa: E402
+from bhchem.present.serialize import to_json  # noqa: E402
+
+
+def _strict(text: str):
+    def refuse(token):
+        raise ValueError(f"non-standard JSON token {token}")
+    return json.loads(text, parse_constant=refuse)
+
+
+def _results(th):
+    """One instance of every result type, on the 4D charged AdS black hole."""
+    cp = find_critical_points(th).physical[0]
+    P = 0.5 * cp.P
+    curve = coexistence_curve(th, [0.3 * cp.P, P], critical_point=cp, checks=True)
+    pd = phase_diagram(th, n_anchor=8, n_dense=8)
+    v = lambda T: float(th.V(cp.x, cp.P))  # noqa: E731
+    corners = [(P, 0.6 * v(0)), (P, 3 * v(0)), (0.3 * cp.P, 3 * v(0)), (0.3 * cp.P, 0.6 * v(0))]
+    return [
+        bhchem.check_first_law(th), bhchem.check_smarr(th), find_critical_points(th), cp,
+        critical_exponents(th, cp), analyze_isobar(th, P), curve, curve.points[0], pd,
+        pd.lines[0], bhchem.critical_scan("rn-ads", "Q", [0.5, 1.0]),
+        figure_data.pv_curves(th), figure_data.gt_curves(th), figure_data.pt_diagram(th, pd),
+        figure_data.tr_curves(th), figure_data.cp_curves(th),
+        bhchem.make_figure(th, "gt"), response.along_isobar(th, P, n=100),
+        curvature.critical_amplitude(th), curvature.curvature_map(th, nx=20, nT=20,
+                                                                  with_amplitude=False),
+        engines.analyze_cycle(th, corners), expansion.inversion_curve(th, n_P=20),
+        expansion.joule_thomson_expansion(th, masses=[2.0]),
+    ]
+
+
+def test_every_result_has_a_short_repr_and_a_strict_json_dict(rn):
+    kinds = set()
+    for res in _results(rn):
+        text = repr(res)
+        assert len(text) < 200 and "\n" not in text, text
+        assert text.startswith(type(res).__name__ + "(")
+        doc = res.to_dict()
+        assert isinstance(doc, dict)
+        _strict(to_json(doc))
+        kinds.add(type(res).__name__)
+    assert len(kinds) == 23

@@ -28,6 +28,8 @@ L = T Delta S; Delta v.
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 from dataclasses import asdict, dataclass, replace
 
@@ -38,8 +40,8 @@ from bhchem.core.compiled import Thermodynamics
 from bhchem.numerics import isotherm_pressure
 
 
-@dataclass(frozen=True)
-class CoexistencePoint:
+@dataclass(frozen=True, repr=False)
+class CoexistencePoint(Result):
     """Two coexisting states at one pressure, with their checks."""
 
     P: float

@@ -7,6 +7,8 @@ the solvers to polish its transitions (so neither imports the other in a cycle).
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 from dataclasses import dataclass
 
@@ -27,8 +29,8 @@ def _close(pair, guess, tol: float = 0.5) -> bool:
     return _distance(pair, guess) < tol
 
 
-@dataclass(frozen=True)
-class CoexistenceCurve:
+@dataclass(frozen=True, repr=False)
+class CoexistenceCurve(Result):
     """Coexistence points at the requested pressures, and the pressures that failed.
 
     ``warnings`` names a first-law failure of the family (the points then have no

@@ -50,6 +50,8 @@ forms: not a critical point in the thermodynamic sense, and reported as such).
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 import threading
 import weakref
@@ -79,8 +81,8 @@ NEAR_CONDITION_LIMIT = 1e-6
 _DPS = 60
 
 
-@dataclass(frozen=True)
-class CriticalPoint:
+@dataclass(frozen=True, repr=False)
+class CriticalPoint(Result):
     """One solution of the critical conditions.
 
     Attributes
@@ -138,8 +140,8 @@ class CriticalPoint:
         return asdict(self)
 
 
-@dataclass(frozen=True)
-class CriticalSearch:
+@dataclass(frozen=True, repr=False)
+class CriticalSearch(Result):
     """Result of :func:`find_critical_points`.
 
     Attributes

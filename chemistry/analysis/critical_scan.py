@@ -18,6 +18,8 @@ returned unchecked.
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -26,8 +28,8 @@ from bhchem.core.compiled import bind
 from bhchem.analysis.critical import RESIDUAL_TOLERANCE, find_critical_points
 
 
-@dataclass
-class CriticalScan:
+@dataclass(repr=False)
+class CriticalScan(Result):
     """Critical points (physical, non-degenerate) for each parameter value."""
 
     parameter: str

@@ -61,6 +61,8 @@ approach is slow, R_N t^2 = A + B |t|^(1/2) + C |t| + ..., so the amplitude A is
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import threading
 from dataclasses import dataclass, field
 
@@ -202,8 +204,8 @@ class AmplitudeFit:
     max_residual: float
 
 
-@dataclass(frozen=True)
-class CriticalAmplitude:
+@dataclass(frozen=True, repr=False)
+class CriticalAmplitude(Result):
     """Critical amplitudes of R_N along the coexisting branches below T_c.
 
     Attributes
@@ -295,8 +297,8 @@ def isochore_amplitude(th: Thermodynamics, cp, t_range=(1e-5, 1e-2), n: int = 40
 
 
 # -- sign map -------------------------------------------------------------------------------------
-@dataclass
-class CurvatureMap:
+@dataclass(repr=False)
+class CurvatureMap(Result):
     """R_N on a grid of the T-v plane, with the coexistence and spinodal curves.
 
     Attributes

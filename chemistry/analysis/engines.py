@@ -49,6 +49,8 @@ on the bottom one, none flows on the isochores, so
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 from dataclasses import dataclass, field
 
@@ -337,8 +339,8 @@ def _exact(th, kind, also, a: Corner, b: Corner):
 
 
 # -- the cycle ------------------------------------------------------------------------------------
-@dataclass(frozen=True)
-class EngineResult:
+@dataclass(frozen=True, repr=False)
+class EngineResult(Result):
     """A heat engine cycle, analysed.
 
     Attributes

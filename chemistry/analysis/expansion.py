@@ -39,6 +39,8 @@ goes through :func:`bracketed_root`: a bracket that does not bracket is "no root
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 from dataclasses import dataclass, field, replace
 
@@ -156,8 +158,8 @@ class InversionBranch:
         return [[float(t), float(p)] for t, p in zip(self.T, self.P)]
 
 
-@dataclass(frozen=True)
-class InversionCurve:
+@dataclass(frozen=True, repr=False)
+class InversionCurve(Result):
     """The inversion curve mu = 0 in the T-P plane, branch by branch.
 
     The minimum inversion temperature is a property of the branch that reaches P -> 0
@@ -777,8 +779,8 @@ def _approach_end(th, M, P_in, P_out, xs, near=None, n: int = 24) -> list:
     return out
 
 
-@dataclass(frozen=True)
-class ExpansionResult:
+@dataclass(frozen=True, repr=False)
+class ExpansionResult(Result):
     """Result of :func:`joule_thomson_expansion`."""
 
     family: str

@@ -27,6 +27,8 @@ Numerical (log-log fits, each with a first correction-to-scaling term)
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 from dataclasses import asdict, dataclass, field
 
@@ -52,8 +54,8 @@ class FittedExponent:
     note: str = ""
 
 
-@dataclass(frozen=True)
-class ExponentResult:
+@dataclass(frozen=True, repr=False)
+class ExponentResult(Result):
     """Exponents at one critical point.
 
     Attributes

@@ -27,6 +27,8 @@ hold NaN there (a gap when drawn).
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 from dataclasses import dataclass
 
 import numpy as np
@@ -45,8 +47,8 @@ FIGURE_KINDS = ("pv", "gt", "pt", "tr", "cp")
 
 
 # -- results --------------------------------------------------------------------------------
-@dataclass(frozen=True, eq=False)
-class PvCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class PvCurves(Result):
     """P-v isotherms around T_c with the equal-area (Maxwell) construction.
 
     Attributes
@@ -124,8 +126,8 @@ class GtPanel:
     G_window: tuple | None
 
 
-@dataclass(frozen=True, eq=False)
-class GtCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class GtCurves(Result):
     """G-T isobars, one panel per pressure.
 
     Attributes
@@ -164,8 +166,8 @@ class PtLine:
     terminal_points: np.ndarray
 
 
-@dataclass(frozen=True, eq=False)
-class PtDiagram:
+@dataclass(frozen=True, eq=False, repr=False)
+class PtDiagram(Result):
     """The P-T phase diagram as drawn.
 
     Attributes
@@ -226,8 +228,8 @@ class StateBranch:
     spinodals: tuple = ()
 
 
-@dataclass(frozen=True, eq=False)
-class TrCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class TrCurves(Result):
     """T along isobars against the horizon radius (or the state variable).
 
     Attributes
@@ -253,8 +255,8 @@ class TrCurves:
     notes: tuple = ()
 
 
-@dataclass(frozen=True, eq=False)
-class CpCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class CpCurves(Result):
     """C_P along one isobar, with the spinodals.
 
     Attributes
@@ -280,8 +282,8 @@ class CpCurves:
     notes: tuple = ()
 
 
-@dataclass(frozen=True, eq=False)
-class CycleCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class CycleCurves(Result):
     """A heat-engine cycle and the isotherms of its Carnot bound.
 
     Attributes

@@ -24,6 +24,8 @@ obtained by inverting the monotone branch; residuals |Delta G|/|G| are reported.
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 from dataclasses import asdict, dataclass, field
 
@@ -106,8 +108,8 @@ class Crossing:
     on_envelope: bool
 
 
-@dataclass(frozen=True)
-class IsobarResult:
+@dataclass(frozen=True, repr=False)
+class IsobarResult(Result):
     """Everything about one isobar."""
 
     pressure: float

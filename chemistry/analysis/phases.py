@@ -55,6 +55,8 @@ Weisfeiler-Lehman hash of the graph, so two diagrams can be compared.
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 from dataclasses import dataclass, field
 
@@ -88,8 +90,8 @@ _MARGIN_KINDS = {"ends": "branch ends meet", "gibbs": "crossing meets branch end
                  "triple": "triple point"}
 
 
-@dataclass
-class PhaseLine:
+@dataclass(repr=False)
+class PhaseLine(Result):
     """A transition line in the P-T plane.
 
     ``points`` run from the low end to the high end (both included); ``states`` hold the
@@ -168,8 +170,8 @@ class PressureEvent:
                 "note": self.note, "residual": num(self.residual), "bracket": num(self.bracket)}
 
 
-@dataclass
-class PhaseDiagram:
+@dataclass(repr=False)
+class PhaseDiagram(Result):
     family: str
     parameters: dict
     pressure_range: tuple

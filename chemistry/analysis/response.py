@@ -45,6 +45,8 @@ point it matches.
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 from dataclasses import asdict, dataclass, field
 
@@ -192,8 +194,8 @@ class Divergence:
         return asdict(self)
 
 
-@dataclass(frozen=True)
-class ResponseCurve:
+@dataclass(frozen=True, repr=False)
+class ResponseCurve(Result):
     """Response functions along one isobar or isotherm.
 
     Attributes

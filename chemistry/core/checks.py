@@ -32,6 +32,8 @@ practice).
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import threading
 import weakref
 from dataclasses import dataclass, field
@@ -52,8 +54,8 @@ TOLERANCE = 1e-9
 FD_TOLERANCE = 1e-6
 
 
-@dataclass(frozen=True)
-class FirstLawResult:
+@dataclass(frozen=True, repr=False)
+class FirstLawResult(Result):
     """Verdict on dM = T dS + V dP + sum Phi dq.
 
     Attributes
@@ -81,8 +83,8 @@ class FirstLawResult:
     worst_point: dict = field(default_factory=dict)
 
 
-@dataclass(frozen=True)
-class SmarrResult:
+@dataclass(frozen=True, repr=False)
+class SmarrResult(Result):
     """Verdict on the Smarr relation derived from the declared length dimensions.
 
     Attributes

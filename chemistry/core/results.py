@@ -35,6 +35,8 @@ def plain(obj):
         return obj
     if isinstance(obj, Result):
         return obj.to_dict()
+    if callable(getattr(obj, "to_dict", None)) and not isinstance(obj, type):
+        return plain(obj.to_dict())
     if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
         return {f.name: plain(getattr(obj, f.name)) for f in dataclasses.fields(obj)}
     if isinstance(obj, dict):
@@ -80,6 +82,9 @@ class Result:
                 break
         message = getattr(self, "message", None)
         if isinstance(message, str) and message:
+            pressure = getattr(self, "pressure", None)
+            if isinstance(pressure, float):
+                parts.append(f"P={pressure:.6g}")
             parts.append(message.splitlines()[0])
         else:
             for f in dataclasses.fields(self):

@@ -16,6 +16,8 @@ blank.  The look (palette, line conventions, rc style) is :mod:`bhchem.present.s
 """
 from __future__ import annotations
 
+from bhchem.core.results import Result
+
 import math
 import os
 from contextlib import contextmanager
@@ -45,8 +47,8 @@ class EmptyFigureError(BhchemError):
     """A figure would have come out empty."""
 
 
-@dataclass
-class PlotResult:
+@dataclass(repr=False)
+class PlotResult(Result):
     """A figure and the data it drew.
 
     ``figure`` is a :class:`matplotlib.figure.Figure` made without pyplot: it is not
