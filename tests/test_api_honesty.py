@@ -208,3 +208,42 @@ def test_every_result_has_a_short_repr_and_a_strict_json_dict(rn):
         _strict(to_json(doc))
         kinds.add(type(res).__name__)
     assert len(kinds) == 23
+
+
+# -- item 8: the default G-T axes contain every cusp of the swallowtails they show --------
+def _cusps(th, P):
+    """Spinodal temperatures (the swallowtail's cusps: a locally stable branch meets an
+    unstable one there, C_P changes sign) of the isobar at P."""
+    res = analyze_isobar(th, P, warn=False)
+    by_index = {b.index: b for b in res.branches}
+    out = []
+    for b in res.branches:
+        for side, (end, T) in enumerate(zip(b.ends, (b.T_at_x_min, b.T_at_x_max))):
+            if end != "spinodal" or not T > 0:
+                continue
+            other = by_index.get(b.index + (1 if side else -1))
+            assert other is not None and other.stable != b.stable  # a stable-unstable pair
+            out.append(T)
+    return sorted(set(out))  # each cusp ends two branches
+
+
+def _assert_cusps_inside(th, panels):
+    n = 0
+    for panel in panels:
+        lo, hi = panel.T_window
+        for T in _cusps(th, panel.pressure):
+            assert lo <= T <= hi, (panel.pressure, T, panel.T_window)
+            n += 1
+    return n
+
+
+def test_gt_window_contains_the_cusps_rn_ads(rn):
+    P = resolve_pressure(rn, "0.5Pc")
+    assert _assert_cusps_inside(rn, figure_data.gt_curves(rn, [P]).panels) == 2
+
+
+def test_gt_window_contains_the_cusps_bardeen(bardeen):
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", BhchemWarning)  # the family is inconsistent on purpose
+        panels = figure_data.gt_curves(bardeen).panels
+    assert _assert_cusps_inside(bardeen, panels) >= 2

@@ -489,18 +489,23 @@ def _gt_panel(th, P, cp) -> GtPanel:
 
 
 def _gt_window(res, cp):
-    """A temperature window that frames the transitions (else the swallowtails)."""
+    """A temperature window that frames the transitions and every cusp (spinodal) of the
+    swallowtails: the cusps lie inside it, with a margin."""
     trans = [t.T for t in res.transitions if t.kind != "second-order"]
-    if trans:
-        lo, hi = min(trans), max(trans)
-        pad = max(0.6 * (hi - lo), 0.06 * hi)
-        return max(lo - pad, 0.0), hi + pad
     temps = []
     for b in res.branches:
         for e, T in zip(b.ends, (b.T_at_x_min, b.T_at_x_max)):
             if e == "spinodal":
                 temps.append(T)
     temps = [t for t in temps if np.isfinite(t) and t > 0]
+    if trans:
+        lo, hi = min(trans), max(trans)
+        pad = max(0.6 * (hi - lo), 0.06 * hi)
+        lo, hi = lo - pad, hi + pad
+        if temps:  # a cusp outside the transitions' frame: widen to it, with 5 % margin
+            margin = 0.05 * (max(hi, max(temps)) - min(lo, min(temps)))
+            lo, hi = min(lo, min(temps) - margin), max(hi, max(temps) + margin)
+        return max(lo, 0.0), hi
     if len(temps) >= 2:
         lo, hi = min(temps), max(temps)
         span = hi - lo
