@@ -28,14 +28,13 @@ L = T Delta S; Delta v.
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 from dataclasses import asdict, dataclass, replace
 
 import numpy as np
 from scipy.optimize import brentq
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.numerics import isotherm_pressure
 

@@ -7,13 +7,12 @@ the solvers to polish its transitions (so neither imports the other in a cycle).
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 from dataclasses import dataclass
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.analysis.coexistence import (coexistence_near_critical,
                                          coexistence_newton, make_point)
 from bhchem.analysis.isobar import analyze_isobar

@@ -50,8 +50,6 @@ forms: not a critical point in the thermodynamic sense, and reported as such).
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 import threading
 import weakref
@@ -61,6 +59,7 @@ import mpmath as mp
 import numpy as np
 import sympy as sp
 
+from bhchem.core.results import Result
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics, bind
 from bhchem.conventions import convention_record

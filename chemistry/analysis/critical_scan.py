@@ -18,12 +18,11 @@ returned unchecked.
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 from dataclasses import dataclass, field
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import bind
 from bhchem.analysis.critical import RESIDUAL_TOLERANCE, find_critical_points
 

@@ -61,14 +61,13 @@ approach is slow, R_N t^2 = A + B |t|^(1/2) + C |t| + ..., so the amplitude A is
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import threading
 from dataclasses import dataclass, field
 
 import numpy as np
 import sympy as sp
 
+from bhchem.core.results import Result
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics, compile_expression
 from bhchem.analysis.critical import loop_side

@@ -49,14 +49,13 @@ on the bottom one, none flows on the isochores, so
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError, StateDomainError
 from bhchem.numerics import bracketed_root, isotherm_pressure

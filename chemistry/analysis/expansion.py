@@ -39,14 +39,13 @@ goes through :func:`bracketed_root`: a bracket that does not bracket is "no root
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 from dataclasses import dataclass, field, replace
 
 import numpy as np
 from scipy.optimize import minimize_scalar
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError
 from bhchem.numerics import bracketed_root

@@ -27,14 +27,13 @@ Numerical (log-log fits, each with a first correction-to-scaling term)
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 from dataclasses import asdict, dataclass, field
 
 import numpy as np
 import sympy as sp
 
+from bhchem.core.results import Result
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics
 from bhchem.analysis.coexistence import coexistence_near_critical

@@ -27,13 +27,12 @@ hold NaN there (a gap when drawn).
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import brentq
 
+from bhchem.core.results import Result
 from bhchem.errors import BhchemError
 from bhchem.analysis.critical import loop_side
 from bhchem.analysis.critical_branch import find_critical_points_on_branches

@@ -24,14 +24,13 @@ obtained by inverting the monotone branch; residuals |Delta G|/|G| are reported.
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 from dataclasses import asdict, dataclass, field
 
 import numpy as np
 from scipy.optimize import brentq
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import StateDomainError
 from bhchem.analysis.critical import find_critical_points, resolve_pressure

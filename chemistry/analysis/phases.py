@@ -55,8 +55,6 @@ Weisfeiler-Lehman hash of the graph, so two diagrams can be compared.
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 from dataclasses import dataclass, field
 
@@ -64,6 +62,7 @@ import networkx as nx
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
+from bhchem.core.results import Result
 from bhchem.analysis.coexistence import (CoexistencePoint, coexistence_near_critical, coexistence_newton,
                           make_point)
 from bhchem.core.compiled import Thermodynamics

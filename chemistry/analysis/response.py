@@ -45,14 +45,13 @@ point it matches.
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 from dataclasses import asdict, dataclass, field
 
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.numerics import isotherm_pressure
 from bhchem.errors import BhchemError, StateDomainError

@@ -32,8 +32,6 @@ practice).
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import threading
 import weakref
 from dataclasses import dataclass, field
@@ -41,6 +39,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import sympy as sp
 
+from bhchem.core.results import Result
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics
 from bhchem.core.derive import tidy

@@ -16,8 +16,6 @@ blank.  The look (palette, line conventions, rc style) is :mod:`bhchem.present.s
 """
 from __future__ import annotations
 
-from bhchem.core.results import Result
-
 import math
 import os
 from contextlib import contextmanager
@@ -25,6 +23,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.errors import BhchemError
 from bhchem.fileio import atomic_file
 from bhchem.analysis.figure_data import (FIGURE_KINDS, CpCurves, GtCurves, PtDiagram,
