@@ -41,3 +41,21 @@ class StateDomainError(BhchemError, ValueError):
 class FamilyFileReloaded(UserWarning):
     """A plug-in file was loaded again after its content changed; its families were
     replaced by the new ones (results computed before refer to the old ones)."""
+
+
+class InvalidArgumentError(BhchemError, ValueError, TypeError):
+    """An argument of the Python API that has the wrong type or value (a reversed range,
+    ``None`` or an array where one pressure is expected, ...)."""
+
+
+class BhchemWarning(UserWarning):
+    """Base class of the warnings the analyses issue (the text is also in the result)."""
+
+
+class InconsistentFamilyWarning(BhchemWarning):
+    """The family fails the first law: results that rest on it (coexistence, equal area,
+    Clapeyron, latent heat, exponents from G, phase lines) have no thermodynamic meaning."""
+
+
+class ResidualBoundWarning(BhchemWarning):
+    """A residual of a result is above the bound the tool promises for it."""

@@ -33,12 +33,13 @@ from dataclasses import asdict, dataclass, replace
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.numerics import brentq, isotherm_pressure
 
 
-@dataclass(frozen=True)
-class CoexistencePoint:
+@dataclass(frozen=True, repr=False)
+class CoexistencePoint(Result):
     """Two coexisting states at one pressure, with their checks."""
 
     P: float

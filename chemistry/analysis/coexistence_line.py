@@ -12,9 +12,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.analysis.coexistence import (coexistence_near_critical,
                                          coexistence_newton, make_point)
 from bhchem.analysis.isobar import analyze_isobar
+from bhchem.analysis.consistency import emit, first_law_warnings, line_check_warnings
 from bhchem.core.compiled import Thermodynamics
 
 
@@ -26,13 +28,18 @@ def _close(pair, guess, tol: float = 0.5) -> bool:
     return _distance(pair, guess) < tol
 
 
-@dataclass(frozen=True)
-class CoexistenceCurve:
-    """Coexistence points at the requested pressures, and the pressures that failed."""
+@dataclass(frozen=True, repr=False)
+class CoexistenceCurve(Result):
+    """Coexistence points at the requested pressures, and the pressures that failed.
+
+    ``warnings`` names a first-law failure of the family (the points then have no
+    thermodynamic meaning) and any residual above its promised bound.
+    """
 
     points: tuple
     failed_pressures: tuple
     message: str
+    warnings: tuple = ()
 
     @property
     def complete(self) -> bool:
@@ -62,7 +69,7 @@ def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anch
             if res is not None and (guess is None or _close((res[1], res[2]), guess)):
                 return res[1], res[2]
         tr = [tuple(sorted((t.states[0].x, t.states[1].x)))
-              for t in analyze_isobar(th, P).transitions if t.kind == "first-order"]
+              for t in analyze_isobar(th, P, warn=False).transitions if t.kind == "first-order"]
         near = [pair for pair in tr if guess is not None and _close(pair, guess)]
         if near:
             # this line's pair: the one closest to the states interpolated along the line
@@ -111,4 +118,13 @@ def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anch
     msg = f"{len(pts)} of {len(Ps)} pressures solved"
     if failed:
         msg += f"; no coexistence found at {len(failed)} pressure(s)"
-    return CoexistenceCurve(points=pts, failed_pressures=tuple(failed), message=msg)
+    def worst(name):
+        vals = [getattr(p, name) for p in pts if getattr(p, name) is not None]
+        return max(vals) if vals else None
+    flagged = list(first_law_warnings(th)) + line_check_warnings("coexistence curve", {
+        "max_residual_T": worst("residual_T"), "max_residual_G": worst("residual_G"),
+        "max_equal_area_residual": worst("equal_area_residual"),
+        "max_clapeyron_residual": worst("clapeyron_residual")})
+    emit(flagged)
+    return CoexistenceCurve(points=pts, failed_pressures=tuple(failed), message=msg,
+                            warnings=tuple(flagged))

@@ -59,10 +59,11 @@ import mpmath as mp
 import numpy as np
 import sympy as sp
 
+from bhchem.core.results import Result
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics, bind
 from bhchem.conventions import convention_record
-from bhchem.errors import BhchemError
+from bhchem.errors import BhchemError, InvalidArgumentError, StateDomainError
 
 #: relative residual of the critical conditions accepted for a point
 RESIDUAL_TOLERANCE = 1e-9
@@ -79,8 +80,8 @@ NEAR_CONDITION_LIMIT = 1e-6
 _DPS = 60
 
 
-@dataclass(frozen=True)
-class CriticalPoint:
+@dataclass(frozen=True, repr=False)
+class CriticalPoint(Result):
     """One solution of the critical conditions.
 
     Attributes
@@ -138,8 +139,8 @@ class CriticalPoint:
         return asdict(self)
 
 
-@dataclass(frozen=True)
-class CriticalSearch:
+@dataclass(frozen=True, repr=False)
+class CriticalSearch(Result):
     """Result of :func:`find_critical_points`.
 
     Attributes
@@ -155,6 +156,11 @@ class CriticalSearch:
     converged : bool
         Every reported point meets RESIDUAL_TOLERANCE.
     message : str
+    convention : dict
+    warnings : tuple of str
+        Filled by :func:`~bhchem.analysis.critical_branch.find_critical_points_on_branches`
+        (``on_preferred_branch`` rests on G, hence on the first law); the plain search,
+        from the equation of state alone, leaves it empty.
     """
 
     family: str
@@ -166,6 +172,7 @@ class CriticalSearch:
     converged: bool
     message: str
     convention: dict = field(default_factory=dict)
+    warnings: tuple = ()
 
     @property
     def physical(self) -> tuple:
@@ -233,6 +240,105 @@ def find_critical_points(family, method: str = "auto", *, pressure_range=None,
         with _DEFAULT_LOCK:
             _DEFAULT_SEARCHES[th] = result
     return result
+
+
+def resolve_pressure(th: Thermodynamics, value) -> float:
+    """One pressure, absolute or relative to a critical point, as a float.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    value : float or str
+        A number (``0.002``), its text (``'1e-3'``) or a multiple of a physical critical
+        pressure: ``'0.5Pc'`` (the lowest), ``'0.5Pc2'`` (the second, by pressure), ``'Pc'``.
+
+    Returns
+    -------
+    float
+        P > 0 (P = -Lambda/8pi for AdS).
+
+    Raises
+    ------
+    InvalidArgumentError
+        ``None``, a bool, an array or other non-number, malformed text, or a relative
+        pressure when there is no such critical point (also a ValueError and TypeError).
+    StateDomainError
+        A pressure that is not a positive finite number.
+
+    Examples
+    --------
+    >>> from bhchem import bind
+    >>> th = bind("rn-ads", Q=1.0)
+    >>> resolve_pressure(th, "Pc") == find_critical_points(th).physical[0].P
+    True
+    >>> resolve_pressure(th, 0.002)
+    0.002
+    """
+    if isinstance(value, (bool, np.bool_)) or value is None:
+        raise InvalidArgumentError(f"pressure {value!r} must be a number or text like 0.5Pc")
+    if isinstance(value, str):
+        t = value.strip()
+        factor, sep, which = t.partition("Pc")
+        if sep:
+            try:
+                f = float(factor) if factor.strip() else 1.0
+                idx = int(which) if which.strip() else 1
+            except ValueError:
+                raise InvalidArgumentError(f"pressure {value!r} must look like 0.01 or 0.5Pc "
+                                           "(or 0.5Pc2)") from None
+            cps = find_critical_points(th).physical
+            if not cps:
+                raise InvalidArgumentError(
+                    f"pressure {value!r} is relative to a critical point, but "
+                    f"{th.family.name} has none at these parameters; give P directly")
+            if not 1 <= idx <= len(cps):
+                raise InvalidArgumentError(f"pressure {value!r}: there are only {len(cps)} "
+                                           "critical point(s)")
+            P = f * cps[idx - 1].P
+        else:
+            try:
+                P = float(t)
+            except ValueError:
+                raise InvalidArgumentError(f"pressure {value!r} must look like 0.01 or "
+                                           "0.5Pc") from None
+    elif isinstance(value, (int, float, np.integer, np.floating)) or (
+            isinstance(value, np.ndarray) and value.ndim == 0 and value.dtype.kind in "if"):
+        P = float(value)
+    elif isinstance(value, (np.ndarray, list, tuple)):
+        raise InvalidArgumentError(f"one pressure is expected, not a sequence of "
+                                   f"{np.size(value)} (loop over them)")
+    else:
+        raise InvalidArgumentError(f"pressure must be a number or text like 0.5Pc, not "
+                                   f"{type(value).__name__}")
+    if not (math.isfinite(P) and P > 0):
+        raise StateDomainError(f"pressure {value!r} is not positive and finite: there is no "
+                               "AdS black hole (P = -Lambda/8pi > 0)")
+    return P
+
+
+def resolve_pressure_range(th: Thermodynamics, value) -> tuple:
+    """A pressure range ``(P1, P2)`` with P1 < P2, each end as :func:`resolve_pressure`.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    value : sequence of two floats or str
+
+    Returns
+    -------
+    (float, float)
+
+    Raises
+    ------
+    InvalidArgumentError
+        Not two values, or P1 >= P2 (a reversed range).
+    """
+    if isinstance(value, (str, bytes)) or not hasattr(value, "__len__") or len(value) != 2:
+        raise InvalidArgumentError(f"pressure_range must be two pressures (P1, P2), not {value!r}")
+    lo, hi = (resolve_pressure(th, v) for v in value)
+    if not lo < hi:
+        raise InvalidArgumentError(f"pressure_range needs P1 < P2, got ({lo:g}, {hi:g})")
+    return lo, hi
 
 
 def _search(th, method, pressure_range, state_range) -> CriticalSearch:

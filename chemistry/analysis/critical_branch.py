@@ -14,6 +14,7 @@ from dataclasses import replace
 
 from bhchem.analysis.critical import CriticalSearch, find_critical_points
 from bhchem.analysis.phases import takes_part_in_transition
+from bhchem.analysis.consistency import emit, first_law_warnings
 from bhchem.core.compiled import Thermodynamics, bind
 
 _CACHE: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
@@ -43,13 +44,15 @@ def find_critical_points_on_branches(family, method: str = "auto", *, pressure_r
         with _LOCK:
             hit = _CACHE.get(th)
         if hit is not None:
+            emit(hit.warnings)
             return hit
     base = find_critical_points(th, method, pressure_range=pressure_range,
                                 state_range=state_range)
     points = tuple(replace(cp, on_preferred_branch=takes_part_in_transition(th, cp))
                    for cp in base.points)
-    result = replace(base, points=points)
+    result = replace(base, points=points, warnings=first_law_warnings(th))
     if default:
         with _LOCK:
             _CACHE[th] = result
+    emit(result.warnings)
     return result

@@ -22,12 +22,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import bind
 from bhchem.analysis.critical import RESIDUAL_TOLERANCE, find_critical_points
 
 
-@dataclass
-class CriticalScan:
+@dataclass(repr=False)
+class CriticalScan(Result):
     """Critical points (physical, non-degenerate) for each parameter value."""
 
     parameter: str

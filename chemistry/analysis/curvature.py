@@ -67,6 +67,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import sympy as sp
 
+from bhchem.core.results import Result
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics, compile_expression
 from bhchem.analysis.critical import loop_side
@@ -202,8 +203,8 @@ class AmplitudeFit:
     max_residual: float
 
 
-@dataclass(frozen=True)
-class CriticalAmplitude:
+@dataclass(frozen=True, repr=False)
+class CriticalAmplitude(Result):
     """Critical amplitudes of R_N along the coexisting branches below T_c.
 
     Attributes
@@ -295,8 +296,8 @@ def isochore_amplitude(th: Thermodynamics, cp, t_range=(1e-5, 1e-2), n: int = 40
 
 
 # -- sign map -------------------------------------------------------------------------------------
-@dataclass
-class CurvatureMap:
+@dataclass(repr=False)
+class CurvatureMap(Result):
     """R_N on a grid of the T-v plane, with the coexistence and spinodal curves.
 
     Attributes

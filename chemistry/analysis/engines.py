@@ -54,6 +54,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError, StateDomainError
 from bhchem.numerics import bracketed_root, brentq, isotherm_pressure, minimize_scalar
@@ -336,8 +337,8 @@ def _exact(th, kind, also, a: Corner, b: Corner):
 
 
 # -- the cycle ------------------------------------------------------------------------------------
-@dataclass(frozen=True)
-class EngineResult:
+@dataclass(frozen=True, repr=False)
+class EngineResult(Result):
     """A heat engine cycle, analysed.
 
     Attributes

@@ -44,6 +44,7 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError
 from bhchem.numerics import bracketed_root, minimize_scalar
@@ -155,8 +156,8 @@ class InversionBranch:
         return [[float(t), float(p)] for t, p in zip(self.T, self.P)]
 
 
-@dataclass(frozen=True)
-class InversionCurve:
+@dataclass(frozen=True, repr=False)
+class InversionCurve(Result):
     """The inversion curve mu = 0 in the T-P plane, branch by branch.
 
     The minimum inversion temperature is a property of the branch that reaches P -> 0
@@ -776,8 +777,8 @@ def _approach_end(th, M, P_in, P_out, xs, near=None, n: int = 24) -> list:
     return out
 
 
-@dataclass(frozen=True)
-class ExpansionResult:
+@dataclass(frozen=True, repr=False)
+class ExpansionResult(Result):
     """Result of :func:`joule_thomson_expansion`."""
 
     family: str

@@ -33,12 +33,14 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 import sympy as sp
 
+from bhchem.core.results import Result
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics
 from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.analysis.critical import CriticalPoint, loop_side
 from bhchem.analysis.critical import isotherm_form
 from bhchem.numerics import isotherm_pressure
+from bhchem.analysis.consistency import emit, first_law_warnings
 
 ZERO_TOLERANCE = 1e-8
 
@@ -51,8 +53,8 @@ class FittedExponent:
     note: str = ""
 
 
-@dataclass(frozen=True)
-class ExponentResult:
+@dataclass(frozen=True, repr=False)
+class ExponentResult(Result):
     """Exponents at one critical point.
 
     Attributes
@@ -66,6 +68,10 @@ class ExponentResult:
         n and m (see module docstring).
     agree : bool
         Every fitted exponent agrees with the exact one.
+    message : str
+    disagreements : list of str
+    warnings : tuple of str
+        A first-law failure of the family (the fitted beta rests on coexistence from G).
     """
 
     exact: dict
@@ -75,6 +81,7 @@ class ExponentResult:
     agree: bool
     message: str
     disagreements: list = field(default_factory=list)
+    warnings: tuple = ()
 
     def to_dict(self) -> dict:
         d = asdict(self)
@@ -246,8 +253,10 @@ def critical_exponents(th: Thermodynamics, cp: CriticalPoint) -> ExponentResult:
         if abs(f.value - ex) > max(5 * (f.uncertainty or 0.0), 1e-2):
             disagreements.append(f"{k}: exact {exact[k]}, fitted {f.value:.4f} +- {f.uncertainty:.1e}")
     agree = not disagreements
+    flagged = first_law_warnings(th)
+    emit(flagged)
     msg = "fitted exponents agree with the exact ones" if agree else \
         "DISAGREEMENT: " + "; ".join(disagreements)
     return ExponentResult(exact=exact, fitted={k: asdict(v) for k, v in fitted.items()},
                           coefficients=coeffs, orders=orders, agree=agree, message=msg,
-                          disagreements=disagreements)
+                          disagreements=disagreements, warnings=flagged)

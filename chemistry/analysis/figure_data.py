@@ -31,6 +31,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.errors import BhchemError
 from bhchem.analysis.critical import loop_side
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
@@ -44,8 +45,8 @@ FIGURE_KINDS = ("pv", "gt", "pt", "tr", "cp")
 
 
 # -- results --------------------------------------------------------------------------------
-@dataclass(frozen=True, eq=False)
-class PvCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class PvCurves(Result):
     """P-v isotherms around T_c with the equal-area (Maxwell) construction.
 
     Attributes
@@ -123,8 +124,8 @@ class GtPanel:
     G_window: tuple | None
 
 
-@dataclass(frozen=True, eq=False)
-class GtCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class GtCurves(Result):
     """G-T isobars, one panel per pressure.
 
     Attributes
@@ -163,8 +164,8 @@ class PtLine:
     terminal_points: np.ndarray
 
 
-@dataclass(frozen=True, eq=False)
-class PtDiagram:
+@dataclass(frozen=True, eq=False, repr=False)
+class PtDiagram(Result):
     """The P-T phase diagram as drawn.
 
     Attributes
@@ -225,8 +226,8 @@ class StateBranch:
     spinodals: tuple = ()
 
 
-@dataclass(frozen=True, eq=False)
-class TrCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class TrCurves(Result):
     """T along isobars against the horizon radius (or the state variable).
 
     Attributes
@@ -252,8 +253,8 @@ class TrCurves:
     notes: tuple = ()
 
 
-@dataclass(frozen=True, eq=False)
-class CpCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class CpCurves(Result):
     """C_P along one isobar, with the spinodals.
 
     Attributes
@@ -279,8 +280,8 @@ class CpCurves:
     notes: tuple = ()
 
 
-@dataclass(frozen=True, eq=False)
-class CycleCurves:
+@dataclass(frozen=True, eq=False, repr=False)
+class CycleCurves(Result):
     """A heat-engine cycle and the isotherms of its Carnot bound.
 
     Attributes
@@ -486,18 +487,23 @@ def _gt_panel(th, P, cp) -> GtPanel:
 
 
 def _gt_window(res, cp):
-    """A temperature window that frames the transitions (else the swallowtails)."""
+    """A temperature window that frames the transitions and every cusp (spinodal) of the
+    swallowtails: the cusps lie inside it, with a margin."""
     trans = [t.T for t in res.transitions if t.kind != "second-order"]
-    if trans:
-        lo, hi = min(trans), max(trans)
-        pad = max(0.6 * (hi - lo), 0.06 * hi)
-        return max(lo - pad, 0.0), hi + pad
     temps = []
     for b in res.branches:
         for e, T in zip(b.ends, (b.T_at_x_min, b.T_at_x_max)):
             if e == "spinodal":
                 temps.append(T)
     temps = [t for t in temps if np.isfinite(t) and t > 0]
+    if trans:
+        lo, hi = min(trans), max(trans)
+        pad = max(0.6 * (hi - lo), 0.06 * hi)
+        lo, hi = lo - pad, hi + pad
+        if temps:  # a cusp outside the transitions' frame: widen to it, with 5 % margin
+            margin = 0.05 * (max(hi, max(temps)) - min(lo, min(temps)))
+            lo, hi = min(lo, min(temps) - margin), max(hi, max(temps) + margin)
+        return max(lo, 0.0), hi
     if len(temps) >= 2:
         lo, hi = min(temps), max(temps)
         span = hi - lo

@@ -29,11 +29,13 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import StateDomainError
-from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical import find_critical_points, resolve_pressure
 from bhchem.analysis.coexistence import coexistence_newton
 from bhchem.numerics import brentq
+from bhchem.analysis.consistency import emit, first_law_warnings
 
 _XTOL = 1e-15
 
@@ -105,8 +107,8 @@ class Crossing:
     on_envelope: bool
 
 
-@dataclass(frozen=True)
-class IsobarResult:
+@dataclass(frozen=True, repr=False)
+class IsobarResult(Result):
     """Everything about one isobar."""
 
     pressure: float
@@ -300,10 +302,39 @@ def isobar_branches(th: Thermodynamics, P: float, critical_points=(), x_range=No
 
 
 def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 3000,
-                   critical_points=None) -> IsobarResult:
-    """Branches, swallowtails, preferred phase and transitions at pressure P."""
-    if not (np.isfinite(P) and P > 0):
-        raise StateDomainError(f"pressure P = {P} is not positive: there is no AdS black hole")
+                   critical_points=None, warn: bool = True) -> IsobarResult:
+    """Branches, swallowtails, preferred phase and transitions at pressure P.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    P : float or str
+        The pressure (> 0), or relative to a critical point (``'0.5Pc'``, see
+        :func:`~bhchem.analysis.critical.resolve_pressure`).
+    x_range : (float, float), optional
+        State range to search (default: :func:`state_range`).
+    n_T : int
+        Temperatures of the grid on which the branches are compared.
+    critical_points : sequence of CriticalPoint, optional
+        Default: the physical points of :func:`~bhchem.analysis.critical.find_critical_points`.
+    warn : bool
+        Issue the result's warnings with :func:`warnings.warn` (the phase diagram passes
+        False and issues its own, once). The result carries them either way.
+
+    Returns
+    -------
+    IsobarResult
+        ``warnings`` names a first-law failure of the family (its transitions then have no
+        thermodynamic meaning) and anything the walk could not resolve.
+
+    Raises
+    ------
+    InvalidArgumentError
+        P is not one number or pressure text (None, an array, ...).
+    StateDomainError
+        P is not positive and finite, or there is no physical state at P.
+    """
+    P = resolve_pressure(th, P)
     xr = x_range if x_range else state_range(th, P)
     if critical_points is None:
         critical_points = find_critical_points(th).physical
@@ -368,7 +399,8 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     with np.errstate(invalid="ignore"):
         Gmin_idx = np.where(np.all(np.isnan(Genv), axis=0), -1,
                             np.nanargmin(np.where(np.isnan(Genv), np.inf, Genv), axis=0))
-    transitions, segments, warnings = [], [], []
+    transitions, segments = [], []
+    warnings = list(first_law_warnings(th))
     valid = np.nonzero(Gmin_idx >= 0)[0]
     start = Ts[valid[0]]
     for k in range(valid[0], valid[-1]):
@@ -402,6 +434,8 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
                            round(T, 12) in env_T) for T, i, j in sorted(crossings))
     msg = (f"{len(branches)} branch(es), {len(cross)} G-T crossing(s), "
            f"{len(transitions)} transition(s) of the preferred phase")
+    if warn:
+        emit(first_law_warnings(th))
     return IsobarResult(pressure=P, parameters=dict(th.values), branches=tuple(branches),
                         crossings=cross, transitions=tuple(transitions),
                         preferred=tuple(segments), background=bg_name,

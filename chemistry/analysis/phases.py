@@ -62,6 +62,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.analysis.coexistence import (CoexistencePoint, coexistence_near_critical, coexistence_newton,
                           make_point)
 from bhchem.core.compiled import Thermodynamics
@@ -80,6 +81,8 @@ def _networkx():
     """The networkx module, imported when a phase graph is first built or queried."""
     import networkx  # lazy: ~0.1 s of start-up that commands without a phase graph skip
     return networkx
+from bhchem.analysis.critical import loop_side, resolve_pressure_range
+from bhchem.analysis.consistency import emit, first_law_warnings, line_check_warnings
 
 #: relative offset of the skeletons evaluated on both sides of an event
 _ETA = 1e-9
@@ -97,8 +100,8 @@ _MARGIN_KINDS = {"ends": "branch ends meet", "gibbs": "crossing meets branch end
                  "triple": "triple point"}
 
 
-@dataclass
-class PhaseLine:
+@dataclass(repr=False)
+class PhaseLine(Result):
     """A transition line in the P-T plane.
 
     ``points`` run from the low end to the high end (both included); ``states`` hold the
@@ -177,8 +180,8 @@ class PressureEvent:
                 "note": self.note, "residual": num(self.residual), "bracket": num(self.bracket)}
 
 
-@dataclass
-class PhaseDiagram:
+@dataclass(repr=False)
+class PhaseDiagram(Result):
     family: str
     parameters: dict
     pressure_range: tuple
@@ -946,6 +949,10 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
 
     Parameters
     ----------
+    th : Thermodynamics
+    pressure_range : (P1, P2), optional
+        P1 < P2, each a number or relative to a critical point (``('0.1Pc', '2Pc')``);
+        default: :func:`default_pressure_range`.
     n_anchor : int
         Log-spaced anchor isobars (besides those at the range ends and beside each event).
     n_dense : int
@@ -955,7 +962,8 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
     """
     search = find_critical_points(th)
     cps = search.physical
-    lo, hi = pressure_range if pressure_range else default_pressure_range(th, cps)
+    lo, hi = resolve_pressure_range(th, pressure_range) if pressure_range is not None \
+        else default_pressure_range(th, cps)
     sks = _Skeletons(th, cps)
     events: list = []
     warnings: list = []
@@ -966,7 +974,7 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
         P = float(P)
         if P not in isos:
             try:
-                isos[P] = analyze_isobar(th, P, critical_points=cps)
+                isos[P] = analyze_isobar(th, P, critical_points=cps, warn=False)
             except StateDomainError:
                 isos[P] = None
         return isos[P]
@@ -1076,6 +1084,13 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
             for k in ("_cp", "_event", "_tp"):
                 e.pop(k, None)
 
+    # results resting on the first law, and residuals above their bound, are flagged first
+    flagged = list(first_law_warnings(th))
+    for line in lines:
+        flagged.extend(line_check_warnings(
+            f"{line.kind} line {line.between[0]}/{line.between[1]}", line.checks))
+    warnings = list(dict.fromkeys(flagged + warnings))
+    emit(flagged)
     iso_list = [isos[P] for P in anchors if isos[P] is not None]
     regions = _regions([iso.pressure for iso in iso_list], iso_list)
     graph = build_graph(lines, cps, triple_points, regions, th.family.background_name
@@ -1394,7 +1409,7 @@ def takes_part_in_transition(th: Thermodynamics, cp, eps: float = 1e-4) -> bool 
     if res is None:
         return False
     T, x1, x2 = res
-    iso = analyze_isobar(th, P)
+    iso = analyze_isobar(th, P, warn=False)
     for t in iso.transitions:
         if t.kind == "first-order" and abs(t.T - T) <= 1e-8 * T:
             return True

@@ -50,6 +50,7 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.numerics import brentq, isotherm_pressure, minimize_scalar
 from bhchem.errors import BhchemError, StateDomainError
@@ -191,8 +192,8 @@ class Divergence:
         return asdict(self)
 
 
-@dataclass(frozen=True)
-class ResponseCurve:
+@dataclass(frozen=True, repr=False)
+class ResponseCurve(Result):
     """Response functions along one isobar or isotherm.
 
     Attributes

@@ -7,10 +7,12 @@ Bad input ends with one line on stderr and exit code 2, never a traceback.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import sys
+import warnings
 
-from bhchem.errors import BhchemError
+from bhchem.errors import BhchemError, BhchemWarning
 from bhchem.fileio import check_writable_folder, clean_stale, output_lock
 from bhchem.present.serialize import to_json
 from bhchem.declare.registry import load_family_file
@@ -20,8 +22,7 @@ from bhchem.declare.registry import available_families
 from bhchem.conventions import convention_record
 from bhchem.present.summary import show_json, show_text
 from bhchem.present.critical_report import critical_json, critical_text
-import math
-from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical import find_critical_points, resolve_pressure
 from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
@@ -107,9 +108,19 @@ def cmd_show(args) -> int:
     return 0
 
 
+@contextlib.contextmanager
+def _warnings_in_output():
+    """The result's warnings are printed with it (WARNING lines, a ``warnings`` key): do not
+    repeat them on stderr as Python warnings."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", BhchemWarning)
+        yield
+
+
 def cmd_critical(args) -> int:
     th = _bound(args)
-    doc = critical_json(th, with_exponents=args.command == "exponents")
+    with _warnings_in_output():
+        doc = critical_json(th, with_exponents=args.command == "exponents")
     if args.json:
         print(to_json(doc, family=th.family))
     else:
@@ -119,37 +130,16 @@ def cmd_critical(args) -> int:
 
 def parse_pressure(text: str, th) -> float:
     """'0.01', '1e-3' or relative to a critical point: '0.5Pc' (lowest physical critical
-    pressure), '0.5Pc2' (the second, by pressure)."""
-    t = str(text).strip()
-    factor, sep, which = t.partition("Pc")
-    if sep:
-        try:
-            f = float(factor) if factor.strip() else 1.0
-            idx = int(which) if which.strip() else 1
-        except ValueError:
-            raise BhchemError(f"pressure {text!r} must look like 0.01 or 0.5Pc (or 0.5Pc2)") from None
-        cps = find_critical_points(th).physical
-        if not cps:
-            raise BhchemError(f"pressure {text!r} is relative to a critical point, but "
-                              f"{th.family.name} has none at these parameters; give P directly")
-        if not 1 <= idx <= len(cps):
-            raise BhchemError(f"pressure {text!r}: there are only {len(cps)} critical point(s)")
-        value = f * cps[idx - 1].P
-    else:
-        try:
-            value = float(t)
-        except ValueError:
-            raise BhchemError(f"pressure {text!r} must look like 0.01 or 0.5Pc") from None
-    if not (math.isfinite(value) and value > 0):
-        raise BhchemError(f"pressure {text!r} must be a positive finite number "
-                          f"(P = -Lambda/8pi > 0 for AdS)")
-    return value
+    pressure), '0.5Pc2' (the second, by pressure); see
+    :func:`bhchem.analysis.critical.resolve_pressure`, which the API uses too."""
+    return resolve_pressure(th, text)
 
 
 def cmd_isobar(args) -> int:
     th = _bound(args)
     P = parse_pressure(args.pressure, th)
-    res = analyze_isobar(th, P, critical_points=find_critical_points(th).physical)
+    with _warnings_in_output():
+        res = analyze_isobar(th, P, critical_points=find_critical_points(th).physical)
     print(to_json(isobar_json(res), family=th.family) if args.json else isobar_text(res))
     return 0
 
@@ -162,7 +152,8 @@ def cmd_phases(args) -> int:
         if rng[0] >= rng[1]:
             raise BhchemError("--pressure-range needs P1 < P2")
     progress = _progress(args, "isobars")
-    pd = phase_diagram(th, pressure_range=rng, progress=progress)
+    with _warnings_in_output():
+        pd = phase_diagram(th, pressure_range=rng, progress=progress)
     if progress:
         progress(None, None)
     print(to_json(diagram_json(pd), family=th.family) if args.json else diagram_text(pd))

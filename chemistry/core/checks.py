@@ -32,11 +32,14 @@ practice).
 """
 from __future__ import annotations
 
+import threading
+import weakref
 from dataclasses import dataclass, field
 
 import numpy as np
 import sympy as sp
 
+from bhchem.core.results import Result
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics
 from bhchem.core.derive import tidy
@@ -50,8 +53,8 @@ TOLERANCE = 1e-9
 FD_TOLERANCE = 1e-6
 
 
-@dataclass(frozen=True)
-class FirstLawResult:
+@dataclass(frozen=True, repr=False)
+class FirstLawResult(Result):
     """Verdict on dM = T dS + V dP + sum Phi dq.
 
     Attributes
@@ -79,8 +82,8 @@ class FirstLawResult:
     worst_point: dict = field(default_factory=dict)
 
 
-@dataclass(frozen=True)
-class SmarrResult:
+@dataclass(frozen=True, repr=False)
+class SmarrResult(Result):
     """Verdict on the Smarr relation derived from the declared length dimensions.
 
     Attributes
@@ -184,6 +187,34 @@ def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202
                f"(finite differences {fd_worst:.1e}) at x={worst_pt.get('x', float('nan')):.6g}, "
                f"P={worst_pt.get('P', float('nan')):.6g}")
     return FirstLawResult(holds, worst, fd_worst, sample.n_points, proved, msg, worst_pt)
+
+
+#: the first-law verdict of each bound family, kept while the bound object lives (every
+#: analysis whose meaning rests on the first law asks for it); nothing is stored on the object
+_FIRST_LAW_VERDICTS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+_FIRST_LAW_LOCK = threading.Lock()
+
+
+def first_law_verdict(th: Thermodynamics) -> FirstLawResult:
+    """:func:`check_first_law` with its defaults, computed once per bound family.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+
+    Returns
+    -------
+    FirstLawResult
+        The same object for every call with the same bound family.
+    """
+    with _FIRST_LAW_LOCK:
+        hit = _FIRST_LAW_VERDICTS.get(th)
+    if hit is not None:
+        return hit
+    verdict = check_first_law(th)
+    with _FIRST_LAW_LOCK:
+        _FIRST_LAW_VERDICTS[th] = verdict
+    return verdict
 
 
 def _finite_difference_residual(bound: Thermodynamics, xs, Ps) -> float:

@@ -49,7 +49,7 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
             "convention": search.convention, "completeness": search.completeness,
             "method": search.method, "scanned_range": search.scanned_range,
             "converged": search.converged, "message": search.message,
-            "critical_points": points}
+            "critical_points": points, "warnings": list(search.warnings)}
 
 
 def _finite(v) -> bool:
@@ -105,4 +105,6 @@ def critical_text(doc: dict) -> str:
                 head = f"exponent {k} ({EXPONENT_DEFINITIONS[k]})"
                 lines.append(f"        {head:<50} exact {ex[k] or '-':<5} fitted {fitted}")
             lines.append(f"      {cp['exponents_note']}")
+    for w in doc.get("warnings", ()):
+        lines.append(f"  WARNING: {w}")
     return "\n".join(lines)

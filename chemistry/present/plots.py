@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from bhchem.core.results import Result
 from bhchem.errors import BhchemError
 from bhchem.fileio import atomic_file
 from bhchem.analysis.figure_data import (FIGURE_KINDS, CpCurves, GtCurves, PtDiagram,
@@ -45,8 +46,8 @@ class EmptyFigureError(BhchemError):
     """A figure would have come out empty."""
 
 
-@dataclass
-class PlotResult:
+@dataclass(repr=False)
+class PlotResult(Result):
     """A figure and the data it drew.
 
     ``figure`` is a :class:`matplotlib.figure.Figure` made without pyplot: it is not
