@@ -70,7 +70,8 @@ from bhchem.analysis.critical import find_critical_points
 from bhchem.errors import StateDomainError
 from bhchem.analysis.isobar import (Transition, analyze_isobar, branch_state_at, isobar_skeleton,
                      skeleton_margins)
-from bhchem.analysis.critical import loop_side
+from bhchem.analysis.critical import loop_side, resolve_pressure_range
+from bhchem.analysis.consistency import emit, first_law_warnings, line_check_warnings
 from bhchem.numerics import brentq, minimize_scalar
 
 if TYPE_CHECKING:  # annotations only; networkx itself is loaded when a graph is built
@@ -81,8 +82,7 @@ def _networkx():
     """The networkx module, imported when a phase graph is first built or queried."""
     import networkx  # lazy: ~0.1 s of start-up that commands without a phase graph skip
     return networkx
-from bhchem.analysis.critical import loop_side, resolve_pressure_range
-from bhchem.analysis.consistency import emit, first_law_warnings, line_check_warnings
+
 
 #: relative offset of the skeletons evaluated on both sides of an event
 _ETA = 1e-9
