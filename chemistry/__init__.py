@@ -29,7 +29,8 @@ P_c = 1/(96 pi Q^2) (Kubiznak & Mann, JHEP 07 (2012) 033):
 >>> abs(cp.T * 18 * math.pi / math.sqrt(6) - 1) < 1e-12, abs(cp.P * 96 * math.pi - 1) < 1e-12
 (True, True)
 """
-from bhchem.errors import (BhchemError, DuplicateFamilyError, FamilyFileReloaded,
+from bhchem.errors import (BhchemError, BhchemWarning, DuplicateFamilyError, FamilyFileReloaded,
+                           InconsistentFamilyWarning, InvalidArgumentError, ResidualBoundWarning,
                            MalformedFamilyError, ParameterDomainError, StateDomainError,
                            UnknownFamilyError, UnknownParameterError)
 from bhchem.declare.domain import Domain
@@ -39,7 +40,8 @@ from bhchem.declare.registry import (available_families, get_family, load_family
 from bhchem.core.derive import Derivation, derive
 from bhchem.core.compiled import State, Thermodynamics, bind
 from bhchem.core.checks import FirstLawResult, SmarrResult, check_first_law, check_smarr
-from bhchem.analysis.critical import CriticalPoint, CriticalSearch, find_critical_points
+from bhchem.analysis.critical import (CriticalPoint, CriticalSearch, find_critical_points,
+                                      resolve_pressure)
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.critical_scan import CriticalScan, critical_scan
 from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_exponents
@@ -63,6 +65,7 @@ __all__ = [
     "FirstLawResult", "SmarrResult", "check_first_law", "check_smarr",
     # analyses and their results
     "CriticalPoint", "CriticalSearch", "find_critical_points", "find_critical_points_on_branches",
+    "resolve_pressure",
     "CriticalScan", "critical_scan",
     "ExponentResult", "critical_exponents", "exact_exponents",
     "IsobarResult", "Transition", "analyze_isobar",
@@ -74,7 +77,8 @@ __all__ = [
     "EmptyFigureError", "PlotResult", "plot_cp", "plot_gt", "plot_pt", "plot_pv",
     "plot_tr", "save", "make_figure",
     # errors
-    "BhchemError", "DuplicateFamilyError", "FamilyFileReloaded", "MalformedFamilyError",
+    "BhchemError", "BhchemWarning", "DuplicateFamilyError", "FamilyFileReloaded",
+    "InconsistentFamilyWarning", "InvalidArgumentError", "ResidualBoundWarning", "MalformedFamilyError",
     "ParameterDomainError", "StateDomainError", "UnknownFamilyError",
     "UnknownParameterError",
     "__version__",
