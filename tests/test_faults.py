@@ -306,3 +306,49 @@ def test_kill_after_a_chunk_before_its_checksum_then_rerun_recomputes_it(tmp_pat
     assert main(SCAN + ["-o", str(tmp_path / "B")]) == 0
     assert (tmp_path / "A" / "atlas.csv").read_text() == \
         (tmp_path / "B" / "atlas.csv").read_text()
+
+
+# -- issue 22 items 7, 12, 14 -----------------------------------------------------------------
+@pytest.mark.parametrize("name", ["v", "S", "r", "M", "V", "G"])
+def test_parameter_names_that_print_like_the_engine_symbols_are_refused(name):
+    """A coupling named v or S printed like the specific volume or the entropy in the
+    equation of state (T/v + 2*v**2/(pi*v**4) ...): such names are refused in one line."""
+    from bhchem.declare import Family, Parameter
+    from bhchem.declare.symbols import P, pi, r
+    from bhchem.errors import MalformedFamilyError
+    with pytest.raises(MalformedFamilyError, match=f"parameter name {name} is reserved"):
+        Family(name="clash", summary="s", reference="test", dimension=4,
+               parameters=(Parameter(name, 1.0, length_dimension=1),),
+               enthalpy=r / 2 * (1 + 8 * pi * P * r**2 / 3), entropy=pi * r**2)
+
+
+def test_a_huge_grid_is_refused_before_any_work(tmp_path):
+    """10^6 x 10^6 points used to be accepted and die with MemoryError after 3.6 GB."""
+    proc = bhchem("scan", "rn-ads", "--grid", "Q=0.1:1:90000", "--grid", "d=4:5:2",
+                   "-o", str(tmp_path / "a"), cwd=tmp_path)
+    assert proc.returncode == 2 and len(proc.stderr.strip().splitlines()) == 1, proc.stderr
+    assert "at most" in proc.stderr and "Traceback" not in proc.stderr
+    assert not (tmp_path / "a").exists()
+
+
+def test_plugin_prints_stay_out_of_json_and_any_exception_is_one_line(tmp_path):
+    """A plug-in that prints must not corrupt --json; a BaseException subclass it raises is
+    one line, exit 2 (a .py plug-in runs code: the README and --help say so)."""
+    good = tmp_path / "noisy.py"
+    good.write_text(
+        "print('hello from the plug-in')\n"
+        "from bhchem.declare import Family, Parameter\n"
+        "from bhchem.declare.symbols import P, parameter_symbol, pi, r\n"
+        "Q = parameter_symbol('Q')\n"
+        "FAMILY = Family(name='noisy', summary='s', reference='test', dimension=4,\n"
+        "    parameters=(Parameter('Q', 1.0, length_dimension=1),),\n"
+        "    enthalpy=r/2*(1 + 8*pi*P*r**2/3 + Q**2/r**2), entropy=pi*r**2)\n")
+    proc = bhchem("show", "noisy", "--family-file", str(good), "--json", cwd=tmp_path)
+    assert proc.returncode == 0
+    json.loads(proc.stdout)                          # stdout is pure JSON
+    assert "hello from the plug-in" in proc.stderr
+    bad = tmp_path / "bad.py"
+    bad.write_text("class Boom(BaseException):\n    pass\nraise Boom('no')\n")
+    proc = bhchem("show", "x", "--family-file", str(bad), cwd=tmp_path)
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr
+    assert len(proc.stderr.strip().splitlines()) == 1 and "Boom" in proc.stderr

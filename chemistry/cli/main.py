@@ -303,7 +303,10 @@ def _add_family_args(p, json_help="machine-readable output", with_json=True):
 def build_parser() -> argparse.ArgumentParser:
     common = _Parser(add_help=False)
     common.add_argument("--family-file", action="append", metavar="PATH",
-                        help="load families from a plug-in file first (repeatable)")
+                        help="load families from a plug-in file first (repeatable); a .py "
+                             "file is Python and runs with your rights: load only files "
+                             "you trust (a .toml file is read by a safe parser and runs "
+                             "no code)")
     parser = _Parser(prog="bhchem", description="Black hole chemistry in the extended "
                      "phase space: derive, verify and analyse AdS black hole thermodynamics.",
                      parents=[common])

@@ -278,7 +278,8 @@ def validate_family(fam: Family) -> None:
             raise MalformedFamilyError(f"family {who}: parameter {p.name} declared twice")
         if p.name in sy.RESERVED or p.name == fam.state.name:
             raise MalformedFamilyError(
-                f"family {who}: parameter name {p.name} is reserved (P, T and the state variable)")
+                f"family {who}: parameter name {p.name} is reserved (P, T, the state variables "
+                f"r, S, v and the quantities M, V, G print the same); rename it, e.g. {p.name}0")
         if p.name == "d" and p is not fam.dimension:
             raise MalformedFamilyError(
                 f"family {who}: declare the dimension with dimension=Parameter('d', ...)")

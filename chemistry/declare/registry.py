@@ -209,7 +209,9 @@ def _load_python(p: Path, digest: str) -> list[Family]:
     module = importlib.util.module_from_spec(spec)
     try:
         sys.modules[modname] = module
-        spec.loader.exec_module(module)
+        # a plug-in's own prints go to stderr: stdout carries results (e.g. --json)
+        with contextlib.redirect_stdout(sys.stderr):
+            spec.loader.exec_module(module)
     except BhchemError as exc:
         sys.modules.pop(modname, None)
         raise MalformedFamilyError(f"family file {p}: {exc}") from None
@@ -221,7 +223,10 @@ def _load_python(p: Path, digest: str) -> list[Family]:
         sys.modules.pop(modname, None)
         raise MalformedFamilyError(
             f"family file {p}: called sys.exit({exc.code}) while loading") from None
-    except Exception as exc:
+    except KeyboardInterrupt:
+        sys.modules.pop(modname, None)
+        raise
+    except BaseException as exc:  # anything a plug-in can raise, BaseException subclasses too
         sys.modules.pop(modname, None)
         raise MalformedFamilyError(
             f"family file {p}: failed while loading: {type(exc).__name__}: {exc}") from None
@@ -251,6 +256,9 @@ def registry_scope(*forget: str):
         for name in forget:
             _families.pop(name, None)
             _origins.pop(name, None)
+        for path, (_, fams) in list(_loaded_files.items()):  # so that they load again
+            if any(f.name in forget for f in fams):
+                del _loaded_files[path]
     try:
         yield
     finally:

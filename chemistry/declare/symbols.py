@@ -28,8 +28,9 @@ v = sp.Symbol("v", positive=True)
 
 pi = sp.pi
 
-#: names the engine reserves; a parameter may not use them
-RESERVED = frozenset({"P", "T"})
+#: names the engine reserves; a parameter may not use them: P and T, the state variables
+#: (r, S, v) and the derived quantities (M, V, G), which print like them in every formula
+RESERVED = frozenset({"P", "T", "r", "S", "v", "M", "V", "G"})
 
 
 def parameter_symbol(name: str) -> sp.Symbol:

@@ -61,6 +61,10 @@ from bhchem.present.plots import PlotResult, save
 from bhchem.present.style import PALETTE, styled
 
 CHUNK_SIZE = 8
+#: most points in one scan (all axes together): the scan keeps a row per point in memory
+#: (about 1 kB each) and a full phase diagram per distinct scale-free point; split a larger
+#: atlas into several scans (each resumable) or coarsen the grid
+MAX_GRID_POINTS = 100_000
 #: finished chunks between two rewrites of the manifest's checksums (at most this many
 #: chunks are recomputed after a kill)
 MANIFEST_EVERY = 16
@@ -98,8 +102,9 @@ def parse_grid(spec: str) -> GridAxis:
         raise BhchemError(f"grid {spec!r}: {exc}") from None
     except ValueError:
         raise BhchemError(f"grid {spec!r}: START and STOP must be numbers and N an integer") from None
-    if not (math.isfinite(lo) and math.isfinite(hi)) or n < 1 or n > 10**6:
-        raise BhchemError(f"grid {spec!r}: finite START/STOP and 1 <= N <= 10^6 required")
+    if not (math.isfinite(lo) and math.isfinite(hi)) or n < 1 or n > MAX_GRID_POINTS:
+        raise BhchemError(f"grid {spec!r}: finite START/STOP and 1 <= N <= {MAX_GRID_POINTS} "
+                          f"required")
     if spacing == "log":
         if lo <= 0 or hi <= 0:
             raise BhchemError(f"grid {spec!r}: log spacing needs positive START and STOP")
@@ -309,6 +314,11 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     for nm in fixed:
         if nm in names:
             raise BhchemError(f"parameter {nm} is both fixed (-p) and on the grid")
+    total = math.prod(len(a.values) for a in axes)
+    if total > MAX_GRID_POINTS:
+        raise BhchemError(f"the grid has {total:,} points; one scan takes at most "
+                          f"{MAX_GRID_POINTS:,} (a row per point stays in memory): coarsen it or "
+                          f"split it into several scans")
     points = [dict(zip(names, combo)) for combo in itertools.product(*(a.values for a in axes))]
     # scale invariance: one computation per distinct set of scale-free combinations
     keys = [scale_free_key(bind(fam, **{**fixed, **p})) for p in points]
