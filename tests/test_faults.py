@@ -352,3 +352,26 @@ def test_plugin_prints_stay_out_of_json_and_any_exception_is_one_line(tmp_path):
     proc = bhchem("show", "x", "--family-file", str(bad), cwd=tmp_path)
     assert proc.returncode == 2 and "Traceback" not in proc.stderr
     assert len(proc.stderr.strip().splitlines()) == 1 and "Boom" in proc.stderr
+
+
+def _worker_state(parent_pid):
+    """Run inside a pool worker: the SIGINT disposition and the parent-death signal."""
+    import ctypes
+    import signal as sig
+    libc = ctypes.CDLL(None, use_errno=True)
+    out = ctypes.c_int(-1)
+    libc.prctl(2, ctypes.byref(out), 0, 0, 0)   # PR_GET_PDEATHSIG
+    return sig.getsignal(sig.SIGINT) == sig.SIG_IGN, out.value
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="prctl is Linux-only")
+def test_scan_workers_ignore_ctrl_c_and_die_with_their_parent():
+    """Issue 22 item 9: Ctrl-C printed a worker traceback per worker, and workers outlived a
+    killed parent.  The scan's pool initializer makes workers ignore SIGINT (the parent says
+    "interrupted" once) and asks the kernel for SIGTERM when the parent dies."""
+    from concurrent.futures import ProcessPoolExecutor
+    with ProcessPoolExecutor(max_workers=1, initializer=atlas.worker_setup,
+                             initargs=(os.getpid(),)) as pool:
+        ignores_sigint, death_signal = pool.submit(_worker_state, os.getpid()).result()
+    assert ignores_sigint
+    assert death_signal == signal.SIGTERM

@@ -397,8 +397,19 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _one_line_warning(message, category, filename, lineno, file=None, line=None):
+    """Warnings reach a command-line user as one line each, without source excerpts."""
+    print(f"bhchem: warning: {message}", file=sys.stderr)
+
+
 def main(argv=None) -> int:
     """Entry point of the ``bhchem`` console script; returns the exit code."""
+    with warnings.catch_warnings():
+        warnings.showwarning = _one_line_warning
+        return _main(argv)
+
+
+def _main(argv) -> int:
     parser = build_parser()
     try:
         args = parser.parse_args(argv)

@@ -34,13 +34,16 @@ first; if it cannot be written (matplotlib missing, disk full) the table says so
 from __future__ import annotations
 
 import csv
+import ctypes
 import hashlib
 import io
 import itertools
 import json
 import math
 import os
+import signal
 import sys
+import warnings
 import time
 from dataclasses import dataclass
 
@@ -53,7 +56,7 @@ from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.phases import phase_diagram
 from bhchem.core.compiled import bind, parse_number, validate_values
 from bhchem.declare.registry import get_family, load_family_file
-from bhchem.errors import BhchemError
+from bhchem.errors import BhchemError, BhchemWarning
 from bhchem.fileio import atomic_write, fault_point
 from bhchem.version import __version__
 from bhchem.workflows.report import dumps
@@ -279,6 +282,34 @@ class _Progress:
             sys.stderr.write("\n")
 
 
+#: Linux prctl option: the signal a process gets when its parent dies
+_PR_SET_PDEATHSIG = 1
+
+
+def worker_setup(parent_pid: int) -> None:
+    """Initializer of the scan's worker processes.
+
+    * Ctrl-C (SIGINT, sent to the whole process group) is left to the parent, which stops
+      the scan and says "interrupted" once; a worker ignores it (no worker tracebacks).
+    * A worker must not outlive its parent: on Linux the kernel sends it SIGTERM when the
+      parent dies, whatever kills the parent (``prctl(PR_SET_PDEATHSIG)``); if the parent
+      is already gone when the worker starts, the worker exits at once.  Elsewhere the pool's
+      own shutdown is the only mechanism (stated in the README's fault table).
+    """
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    # a grid point's warnings would print once per worker with source excerpts; the table
+    # records each point's structure and numbers, the main process its own warnings
+    warnings.simplefilter("ignore", BhchemWarning)
+    if sys.platform.startswith("linux"):
+        try:
+            libc = ctypes.CDLL(None, use_errno=True)
+            libc.prctl(_PR_SET_PDEATHSIG, int(signal.SIGTERM), 0, 0, 0)
+        except (OSError, AttributeError):  # no prctl: fall back to the pool's shutdown
+            pass
+    if os.getppid() != parent_pid:       # the parent died before the line above ran
+        os._exit(1)
+
+
 def _as_completed(executor, futures):
     if hasattr(executor, "gather"):  # a Dask distributed Client
         from distributed import as_completed  # lazy: optional extra, only for a Dask client
@@ -379,7 +410,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     # used as given and never shut down here
     own = None
     if executor is None and workers > 1:
-        own = executor = ProcessPoolExecutor(max_workers=workers)
+        own = executor = ProcessPoolExecutor(max_workers=workers, initializer=worker_setup,
+                                             initargs=(os.getpid(),))
     written = 0
     try:
         if executor is None:
