@@ -78,3 +78,33 @@ def test_the_cli_fills_and_uses_the_cache(tmp_path):
     assert len(_files(tmp_path)) == 1
     second = subprocess.run(cmd, env=env, capture_output=True, text=True, check=True).stdout
     assert first == second
+
+
+def test_declared_domains_become_assumptions_of_the_derivation(monkeypatch):
+    """Issue 21 item 6: a parameter declared >= 0 is nonnegative in the derivation, so
+    sqrt(g**2) is g, not Abs(g) (such terms appear when a metric is solved for the mass).
+    A toy family (invented for this test) with M = r/2 (1 + 8 pi P r^2/3 + sqrt(g^2)^3/r^3):
+    Phi_g and C_P carry no Abs, are shorter, and equal the real-domain derivation
+    numerically; the stored expressions keep the canonical (real) symbols."""
+    import numpy as np
+
+    from bhchem import Domain, Family, Parameter, bind
+    from bhchem.declare.symbols import P, parameter_symbol, pi, r
+    monkeypatch.setenv("BHCHEM_CACHE_DIR", "off")
+    g = parameter_symbol("g")
+
+    def toy(domain, name):
+        return Family(name=name, summary="toy", reference="invented for this test", dimension=4,
+                      parameters=(Parameter("g", 0.5, length_dimension=1, domain=domain),),
+                      enthalpy=r / 2 * (1 + 8 * pi * P * r**2 / 3 + sp.sqrt(g**2)**3 / r**3),
+                      entropy=pi * r**2)
+
+    th, th_real = bind(toy(Domain.nonnegative(), "toy-nonneg")), bind(toy(Domain.real(), "toy-real"))
+    for name in ("Phi_g", "C_P"):
+        e, e_real = th.derivation.quantities[name], th_real.derivation.quantities[name]
+        assert not e.has(sp.Abs) and e_real.has(sp.Abs), name
+        assert sp.count_ops(e) < sp.count_ops(e_real), name
+        x = np.array([1.5, 3.0, 7.0])
+        a, b = th.quantity(name, x, 0.001), th_real.quantity(name, x, 0.001)
+        assert np.allclose(a, b, rtol=1e-12, atol=0), name
+    assert th.derivation.parameters == (g,)      # the canonical (real) symbol, as before

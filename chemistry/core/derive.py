@@ -570,7 +570,13 @@ def _derive(family: Family, dim: int, vals: dict) -> Derivation:
         subs[p.symbol] = vals[p.name]
     x = family.state
     P = sy.P
-    params = tuple(p.symbol for p in family.continuous_parameters)
+    # derive with the assumptions the declared domains imply (a parameter declared >= 0 is
+    # nonnegative: sqrt(g**2) is g, not Abs(g)); the results are stated in the canonical
+    # symbols again at the end, so every caller sees the same symbols as before
+    assumed = {p.symbol: sp.Symbol(p.name, **domain_assumptions(p.domain))
+               for p in family.continuous_parameters if domain_assumptions(p.domain)}
+    restore = {v: k for k, v in assumed.items()}
+    params = tuple(assumed.get(p.symbol, p.symbol) for p in family.continuous_parameters)
     variables = (x, P) + params
 
     def prep(value, where):
@@ -578,6 +584,8 @@ def _derive(family: Family, dim: int, vals: dict) -> Derivation:
         if e is None:
             return None
         e = sp.sympify(e).subs(subs)
+        if assumed and isinstance(e, sp.Basic):
+            e = e.xreplace(assumed)
         check_nodes(e, f"the declared {where}")
         return e
 
@@ -665,12 +673,40 @@ def _derive(family: Family, dim: int, vals: dict) -> Derivation:
 
     eos = _equation_of_state(T, v, x, variables)
     length_dims = {p.name: p.dimension_at(dim) for p in family.continuous_parameters}
+
+    def back(e):
+        return e.xreplace(restore) if restore and isinstance(e, sp.Basic) else e
+
+    eos = EquationOfState(eos.form, back(eos.pressure), back(eos.temperature),
+                          back(eos.specific_volume))
     return Derivation(family=family, discrete=dict(vals), dimension=dim, state=x,
-                      parameters=params, length_dimensions=length_dims,
-                      quantities=quantities, temperature_derived=T_derived,
-                      volume_declared=prep(family.volume, "volume"),
-                      conditions=tuple(conditions), eos=eos, notes=tuple(notes),
-                      enthalpy_declared=M, entropy_declared=S)
+                      parameters=tuple(p.symbol for p in family.continuous_parameters),
+                      length_dimensions=length_dims,
+                      quantities={k: back(e) for k, e in quantities.items()},
+                      temperature_derived=back(T_derived),
+                      volume_declared=back(prep(family.volume, "volume")),
+                      conditions=tuple(StateCondition(back(c.relation), c.description)
+                                       for c in conditions),
+                      eos=eos, notes=tuple(notes),
+                      enthalpy_declared=back(M), entropy_declared=back(S))
+
+
+def domain_assumptions(domain) -> dict:
+    """The sympy assumptions a parameter domain implies: ``positive`` (lower end > 0, or 0
+    excluded), ``nonnegative`` (0 included), ``negative``/``nonpositive`` likewise, else none
+    beyond the canonical symbol's ``real``; a finite set of choices implies nothing."""
+    if getattr(domain, "choices", None):
+        return {}
+    lo, hi = domain.lower, domain.upper
+    if lo > 0 or (lo == 0 and not domain.lower_closed):
+        return {"positive": True}
+    if lo == 0:
+        return {"nonnegative": True}
+    if hi < 0 or (hi == 0 and not domain.upper_closed):
+        return {"negative": True}
+    if hi == 0:
+        return {"nonpositive": True}
+    return {}
 
 
 def _equation_of_state(T, v, x, variables) -> EquationOfState:
