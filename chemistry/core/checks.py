@@ -140,11 +140,8 @@ def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202
     T = q["T"]
     V = der.volume_declared if der.volume_declared is not None else q["V"]
 
-    proved = True
-    if der.family.temperature is not None:
-        proved = tidy(T - der.temperature_derived, args) == 0 or None
-    if proved and der.volume_declared is not None:
-        proved = tidy(der.volume_declared - q["V"], args) == 0 or None
+    # the symbolic proof depends on the derivation only: done once per derivation
+    proved = first_law_proved(der) or None
 
     rows = [(sp.diff(M, x), T * sp.diff(S, x), sp.Integer(0))]
     rows.append((sp.diff(M, P), T * sp.diff(S, P), V))
@@ -193,6 +190,38 @@ def check_first_law(th: Thermodynamics, n_points: int = 64, seed: int = 20261202
 #: analysis whose meaning rests on the first law asks for it); nothing is stored on the object
 _FIRST_LAW_VERDICTS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
 _FIRST_LAW_LOCK = threading.Lock()
+
+
+#: symbolic first-law proofs kept, keyed by the derivation (each entry holds it, so its id
+#: is not reused while cached); the oldest is dropped beyond this many
+_PROOF_ENTRIES = 256
+_PROOFS: dict = {}
+
+
+def first_law_proved(derivation) -> bool:
+    """Whether the first law holds identically for a derivation, whatever the parameters.
+
+    True when the family declares neither T nor V (then T = M_x/S_x, V = M_P - T S_P and
+    Phi_q = M_q - T S_q by construction), or when the declared ones equal those
+    derivatives symbolically.  Cached per derivation: it does not depend on parameter
+    values, so analyses of many bindings of one family pay for it once.
+    """
+    key = id(derivation)
+    with _FIRST_LAW_LOCK:
+        hit = _PROOFS.get(key)
+    if hit is not None and hit[0] is derivation:
+        return hit[1]
+    q, args = derivation.quantities, derivation.arguments
+    proved = True
+    if derivation.family.temperature is not None:
+        proved = tidy(q["T"] - derivation.temperature_derived, args) == 0
+    if proved and derivation.volume_declared is not None:
+        proved = tidy(derivation.volume_declared - q["V"], args) == 0
+    with _FIRST_LAW_LOCK:
+        while len(_PROOFS) >= _PROOF_ENTRIES:
+            _PROOFS.pop(next(iter(_PROOFS)))
+        _PROOFS[key] = (derivation, bool(proved))
+    return bool(proved)
 
 
 def first_law_verdict(th: Thermodynamics) -> FirstLawResult:
