@@ -75,7 +75,7 @@ from bhchem.errors import BhchemError
 from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.analysis.critical import find_critical_points
 from bhchem.numerics import isotherm_pressure
-from bhchem.analysis.response import isotherm_guess
+from bhchem.analysis.response import cv_vanishes, isotherm_guess
 from bhchem.analysis.coexistence_line import coexistence_curve
 
 CONVENTION = {
@@ -97,10 +97,6 @@ _cache: dict = {}
 _lock = threading.Lock()
 
 
-def _cv_vanishes(th) -> bool:
-    return th.derivation.quantities.get("C_V") == 0
-
-
 def _expressions(th: Thermodynamics) -> dict:
     """Symbolic R_N (C_V = 0) or R (C_V != 0) of the derivation, compiled (cached)."""
     der = th.derivation
@@ -113,7 +109,7 @@ def _expressions(th: Thermodynamics) -> dict:
     q = der.quantities
     T, S, V = q["T"], q["S"], q["V"]
     out = {}
-    if _cv_vanishes(th):
+    if cv_vanishes(th):
         Tx, TP, Vx, VP = (sp.diff(T, x), sp.diff(T, P), sp.diff(V, x), sp.diff(V, P))
         J = Tx * VP - TP * Vx
 
@@ -160,7 +156,7 @@ def ruppeiner_scalar(th: Thermodynamics, x, P) -> np.ndarray:
         For families with C_V = 0 identically (the metric is degenerate and R infinite);
         use :func:`normalised_curvature`.
     """
-    if _cv_vanishes(th):
+    if cv_vanishes(th):
         raise BhchemError(f"{th.family.name}: C_V = 0 identically, so the Ruppeiner metric is "
                           f"degenerate and R diverges; use the normalised curvature R_N")
     f = _expressions(th)["metric"]
@@ -392,4 +388,3 @@ def _coexistence_rows(th, cp, n: int = 60) -> np.ndarray:
 
 # The text and JSON of ``bhchem curvature`` live in bhchem.present.analysis_text, the sign
 # map figure in bhchem.present.analysis_plots.
-cv_vanishes = _cv_vanishes  # public name: the presentation says which R_N it reports

@@ -59,6 +59,7 @@ from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError, StateDomainError
 from bhchem.numerics import bracketed_root, brentq, isotherm_pressure, minimize_scalar
 from bhchem.analysis.isobar import state_range
+from bhchem.analysis.response import cv_vanishes
 
 #: relative tolerance for detecting a side's kind from its corners
 KIND_TOLERANCE = 1e-9
@@ -69,10 +70,6 @@ _GL_X, _GL_W = np.polynomial.legendre.leggauss(24)
 
 class CycleError(BhchemError):
     """A cycle that cannot be analysed (a side of no known kind, a corner with no state)."""
-
-
-def _cv_vanishes(th) -> bool:
-    return th.derivation.quantities.get("C_V") == 0
 
 
 # -- states --------------------------------------------------------------------------------------
@@ -330,7 +327,7 @@ def _exact(th, kind, also, a: Corner, b: Corner):
     if kind == "isobar":
         return a.P * (b.V - a.V), b.M - a.M
     if kind == "isochore":
-        return 0.0, (0.0 if ("adiabat" in also or _cv_vanishes(th)) else None)
+        return 0.0, (0.0 if ("adiabat" in also or cv_vanishes(th)) else None)
     if kind == "isotherm":
         return None, a.T * (b.S - a.S)
     return None, 0.0  # adiabat
@@ -427,7 +424,7 @@ def analyze_cycle(th: Thermodynamics, corners) -> EngineResult:
     resid = abs(W - (Qin - Qout)) / (abs(Qin) + 1e-300)
     exact = _rectangle_formula(th, cs, sides, eta) if W > 0 else None
     if exact is None and len(cs) == 4 and all(s.kind in ("isobar", "isochore") for s in sides) \
-            and not _cv_vanishes(th):
+            and not cv_vanishes(th):
         notes.append("C_V != 0 for this family: heat flows on the isochores too, so Johnson's "
                      "corner-mass formula does not apply; the efficiency is from the integrals")
     return EngineResult(family=th.family.name, parameters=dict(th.values), corners=tuple(cs),
@@ -439,7 +436,7 @@ def analyze_cycle(th: Thermodynamics, corners) -> EngineResult:
 
 def _rectangle_formula(th, cs, sides, eta_numeric):
     """Johnson's exact efficiency for a clockwise rectangle of a C_V = 0 family."""
-    if len(cs) != 4 or not _cv_vanishes(th):
+    if len(cs) != 4 or not cv_vanishes(th):
         return None
     if [s.kind for s in sides] not in (["isobar", "isochore"] * 2, ["isochore", "isobar"] * 2):
         return None

@@ -14,7 +14,8 @@ Formatting only: every number comes from the analysis results given.
 from __future__ import annotations
 
 from bhchem.core.compiled import Thermodynamics
-from bhchem.analysis.curvature import CONVENTION, CriticalAmplitude, cv_vanishes
+from bhchem.analysis.curvature import CONVENTION, CriticalAmplitude
+from bhchem.analysis.response import cv_vanishes
 from bhchem.analysis.engines import EngineResult
 from bhchem.analysis.expansion import ExpansionResult, InversionBranch
 
