@@ -56,6 +56,7 @@ m/r^(d-1) - q^2/r^(2d-4) stays below Upsilon(g*).
 import sympy as sp
 
 from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.conditions import Condition, ConditionSet
 from bhchem.declare.symbols import P, d, k, omega, parameter_symbol, pi, r
 
 alpha2 = parameter_symbol("alpha2")
@@ -76,6 +77,9 @@ def _upsilon(g):
 def _upsilon_prime(g):
     return 1 + 2 * _a2 * g + 3 * _a3 * g**2
 
+
+_BRANCHES = ("Camanho & Edelstein, CQG 30 (2013) 035009, arXiv:1103.3669 (journal from "
+             "memory); derived in the docstring of this module")
 
 _gh = k / r**2                                       # g at the horizon
 _disc = _a2**2 - 3 * _a3
@@ -120,8 +124,25 @@ FAMILY = Family(
                  + (d - 7) * k**3 * _a3 - (d - 3) * _q**2 * r ** (10 - 2 * d))
     / (4 * pi * r * (r**4 + 2 * k * _a2 * r**2 + 3 * k**2 * _a3)),
     conditions=(
-        _upsilon_prime(_gh) > 0,
-        _branch,
+        Condition("horizon-on-einstein-branch", _upsilon_prime(_gh) > 0,
+                  "the horizon value g = k/r+^2 lies where Upsilon increases (Upsilon' > 0: a "
+                  "positive effective Newton constant, the branch continuous with Einstein "
+                  "gravity); Upsilon' = 0 at the horizon is a branch singularity there",
+                  _BRANCHES),
+        Condition("regular-exterior", _branch,
+                  "no zero of Upsilon' between the horizon and infinity: where Upsilon'(g) = 0 "
+                  "the metric's derivative diverges (a curvature singularity, naked outside the "
+                  "horizon), and the exterior ends in the AdS vacuum of the horizon's branch",
+                  _BRANCHES),
+    ),
+    condition_sets=(
+        ConditionSet("thermodynamic", ("positive-entropy", "nonnegative-temperature",
+                                       "horizon-on-einstein-branch"),
+                     "the thermodynamic conditions alone (S > 0, T >= 0, horizon on the "
+                     "Einstein branch), without regularity of the exterior: states with a "
+                     "naked curvature singularity outside the horizon count",
+                     "conditions under which the hyperbolic structures of DKKM14 and FKMS14 "
+                     "are reproduced (see tests/test_lovelock3_ads.py)"),
     ),
     conventions={
         "coupling": "alpha2, alpha3 are the bare Lovelock couplings of the action (alpha2 = the "

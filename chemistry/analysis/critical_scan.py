@@ -123,8 +123,8 @@ def _continuation(family, parameter, values, order, sv, n_anchor, fixed) -> Crit
             Tx, Txx = fTx(x, P, *params), fTxx(x, P, *params)
             res = np.maximum(np.abs(x * Tx), np.abs(x * x * Txx)) / np.abs(T)
             ok = res <= RESIDUAL_TOLERANCE
-            for ci in range(len(th.derivation.conditions)):  # the declared physical domain
-                ok &= np.asarray(th.compiled.function(f"condition_{ci}")(x, P, *params), bool)
+            for c in th.active_conditions:  # the binding's physical domain
+                ok &= th.condition_holds(c.name, x, P)
         return T, P, x, ok
 
     N = len(sv)

@@ -221,7 +221,6 @@ def _failing_conditions(th: Thermodynamics, x, P) -> list:
     broadcast; 'finite T, S, G' first)."""
     x = np.asarray(x, dtype=float)
     P = np.asarray(P, dtype=float)
-    params = [float(th.values[s.name]) for s in th.derivation.parameters]
     out = []
     with np.errstate(all="ignore"):
         finite = np.ones(np.broadcast_shapes(x.shape, P.shape), dtype=bool)
@@ -229,19 +228,10 @@ def _failing_conditions(th: Thermodynamics, x, P) -> list:
             finite &= np.isfinite(th.quantity(q, x, P))
         if not np.any(finite):
             out.append("finite T, S, G")
-        for i, c in enumerate(th.derivation.conditions):
-            holds = np.asarray(th.compiled.function(f"condition_{i}")(x, P, *params), dtype=bool)
-            if not np.any(holds):
-                out.append(_condition_label(th, i, c.description))
+        for c in th.active_conditions:
+            if not np.any(th.condition_holds(c.name, x, P)):
+                out.append(c.label())
     return out
-
-
-def _condition_label(th: Thermodynamics, i: int, description: str, limit: int = 72) -> str:
-    """The condition's own text, or (when longer than ``limit``, as for generated conditions)
-    its number among the family's state conditions, so that a message stays one short line."""
-    if len(description) <= limit:
-        return description
-    return f"state condition {i + 1} of {th.family.name} (see its declaration)"
 
 
 def physical_pressure_limit(th: Thermodynamics, P_max: float, xs,

@@ -153,6 +153,59 @@ def _refine_root(f, a, b):
     return brentq(f, a, b, xtol=_XTOL * max(abs(a), abs(b)), rtol=1e-15, maxiter=200)
 
 
+def _pole_between(th, P, a: float, b: float) -> float | None:
+    """The pole of T between two grid states where dT/dx changes sign, or None when the
+    sign change is a spinodal (a smooth extremum of T).
+
+    Bisection on the sign of dT/dx (non-finite values count as the side they lie on) to
+    1e-15 relative; a pole is where |T| there exceeds 1e3 times its value at the bracket
+    ends (at a spinodal it stays within the bracket's own variation, a fraction of a
+    percent on the isobar grid), or is not finite."""
+    def sign(z):
+        v = float(th.d("T", "x", z, P))
+        return 0.0 if not math.isfinite(v) else math.copysign(1.0, v)
+    sa = sign(a)
+    lo, hi = a, b
+    for _ in range(80):
+        if hi - lo <= 1e-15 * lo:
+            break
+        mid = 0.5 * (lo + hi)
+        sm = sign(mid)
+        if sm == 0.0:
+            lo = hi = mid
+            break
+        if sm == sa:
+            lo = mid
+        else:
+            hi = mid
+    x = 0.5 * (lo + hi)
+    with np.errstate(all="ignore"):
+        T_mid = float(th.T(x, P))
+        T_ends = max(abs(float(th.T(a, P))), abs(float(th.T(b, P))))
+    if not math.isfinite(T_mid) or abs(T_mid) > 1e3 * T_ends:
+        return x
+    return None
+
+
+def _pole_side(th, P, pole: float, outer: float, side: int) -> float:
+    """Where a branch running into a pole of T is cut: the state closest to the pole (relative
+    offsets 1e-12, 1e-11, ...) at which T is still computed reliably, i.e. has the sign of T
+    at ``outer`` (the grid state on that side) and changes by less than 1 % when the offset
+    grows by 1 %.  Closer in, the cancellation in the vanishing denominator leaves only
+    round-off (T of either sign)."""
+    with np.errstate(all="ignore"):
+        sign = math.copysign(1.0, float(th.T(outer, P)))
+        for e in range(12, 2, -1):
+            delta = 10.0 ** -e
+            x = pole * (1 + side * delta)
+            if (x - outer) * side >= 0:
+                break
+            T1, T2 = float(th.T(x, P)), float(th.T(pole * (1 + side * delta * 1.01), P))
+            if math.isfinite(T1) and T1 * sign > 0 and abs(T2 / T1 - 1) < 0.03:
+                return x
+    return outer
+
+
 def _refine_boundary(th, P, a, b, inside_a: bool):
     """The edge of the physical mask between a (on the ``inside_a`` side) and b, to 1e-14
     relative: each step evaluates the mask at 33 points across the bracket (one vectorised
@@ -202,11 +255,18 @@ def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000,
         s = np.where(Tx[i:j + 1] >= 0, 1.0, -1.0)  # an exact zero counts as a sign
         for k in np.nonzero(s[1:] * s[:-1] < 0)[0]:
             k0 = i + k
-            cuts.append((_refine_root(fx, xs[k0], xs[k0 + 1]), "spinodal"))
+            pole = _pole_between(th, P, xs[k0], xs[k0 + 1])
+            if pole is None:
+                cuts.append((_refine_root(fx, xs[k0], xs[k0 + 1]), "spinodal"))
+            else:  # T diverges here: two branches, each running to T -> +-infinity
+                cuts.append((_pole_side(th, P, pole, xs[k0], -1), "pole"))
+                cuts.append((_pole_side(th, P, pole, xs[k0 + 1], +1), "pole (beyond)"))
         cuts.append((b, b_end))
         for (xa, ea), (xb, eb) in zip(cuts[:-1], cuts[1:]):
+            if eb == "pole (beyond)":  # the gap around a pole holds no state
+                continue
             if xb > xa * (1 + 1e-13):
-                pieces.append((xa, xb, ea, eb))
+                pieces.append((xa, xb, "pole" if ea == "pole (beyond)" else ea, eb))
         i = j + 1
     branches = []
     # a domain edge where T reaches 0 (extremality, the condition T >= 0) is located to
@@ -275,7 +335,11 @@ def branch_state_at(th, P, br: Branch, T: float) -> float | None:
 def _G_on_grid(th, P, br: Branch, Ts: np.ndarray, m: int = 4000) -> np.ndarray:
     """G on the branch at temperatures Ts (NaN outside its range), vectorised:
     interpolate x(T) from samples, then three Newton polishes."""
-    xs = np.geomspace(br.x_min, br.x_max, m)
+    width = br.x_max - br.x_min
+    near = width * np.geomspace(1e-13, 0.5, 200)  # dense at both ends (a pole of T there)
+    xs = np.unique(np.clip(np.concatenate([np.geomspace(br.x_min, br.x_max, m),
+                                           br.x_min + near, br.x_max - near]),
+                           br.x_min, br.x_max))
     T = th.T(xs, P)
     order = np.argsort(T)
     out = np.full(Ts.shape, np.nan)
@@ -288,7 +352,16 @@ def _G_on_grid(th, P, br: Branch, Ts: np.ndarray, m: int = 4000) -> np.ndarray:
             Tx = th.d("T", "x", x, P)
             step = np.where(Tx != 0, (th.T(x, P) - Ts[inside]) / Tx, 0.0)
             x = np.clip(x - np.nan_to_num(step), br.x_min, br.x_max)
-    out[inside] = th.G(x, P)
+        G = th.G(x, P)
+        bad = ~(np.abs(th.T(x, P) - Ts[inside]) <= 1e-9 * np.abs(Ts[inside])) | ~np.isfinite(G)
+    # states the interpolation could not reach (a branch whose T varies over many decades):
+    # Brent's method on the monotone branch, for at most 400 of them; the rest stay NaN
+    for k in np.nonzero(bad)[0][:400]:
+        xk = branch_state_at(th, P, br, float(Ts[inside][k]))
+        G[k] = float(th.G(xk, P)) if xk is not None else np.nan
+    if np.count_nonzero(bad) > 400:
+        G[np.nonzero(bad)[0][400:]] = np.nan
+    out[inside] = G
     return out
 
 
@@ -353,16 +426,29 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
         # states there are not physical, and the walk starts at T = 0
         T_lo = max(T_lo, 0.0)
     T_hi = max(b.T_max for b in branches)
-    # a branch cut by the search range (not by physics) continues beyond it: above the
-    # lowest such temperature the branch list is incomplete, so stop the walk there
-    cut = [b.T_at_x_min for b in branches if b.ends[0] == "range"] + \
-          [b.T_at_x_max for b in branches if b.ends[1] == "range"]
-    cut = [c for c in cut if c > T_lo]
-    if cut:
-        T_hi = min(T_hi, min(cut))
+    # a branch cut by the search range (not by physics) continues beyond it: on the far
+    # side of such an end's temperature the branch list is incomplete, so the walk stops
+    # there -- above it when the branch rises towards the cut (the usual large-x end),
+    # below it when the branch falls towards it (T -> 0 as x -> 0, as on some hyperbolic
+    # small branches)
+    for b in branches:
+        for end, T_end, T_other in ((b.ends[0], b.T_at_x_min, b.T_at_x_max),
+                                    (b.ends[1], b.T_at_x_max, b.T_at_x_min)):
+            if end != "range":
+                continue
+            if T_end >= T_other and T_end > T_lo:
+                T_hi = min(T_hi, T_end)
+            elif T_end < T_other:
+                T_lo = max(T_lo, T_end)
     ends = sorted(t for t in {b.T_min for b in branches} | {b.T_max for b in branches}
                   if T_lo <= t <= T_hi)
-    Ts = np.unique(np.concatenate([np.linspace(T_lo, T_hi, n_T), ends]))
+    grid = [np.linspace(T_lo, T_hi, n_T), ends]
+    T_small = min((t for t in ends if t > 0), default=T_hi)
+    if T_hi > 1e3 * T_small:
+        # branches running to very high T (a pole of T, a domain edge next to one): a
+        # linear grid would step over the structure at low T; add a geometric one
+        grid.append(np.geomspace(T_small, T_hi, n_T))
+    Ts = np.unique(np.concatenate(grid))
     Gs = np.vstack([_G_on_grid(th, P, b, Ts) for b in branches])
     names = [b.label for b in branches]
     if has_bg:

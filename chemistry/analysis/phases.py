@@ -678,9 +678,9 @@ def _domain_condition(th, x, P, outward: float) -> str:
     for name in ("T", "S", "G"):
         if not np.isfinite(th.quantity(name, y, P)):
             failed.append(f"{name} finite")
-    for i, c in enumerate(th.derivation.conditions):
-        if not bool(th.quantity(f"condition_{i}", y, P)):
-            failed.append(c.description)
+    for c in th.active_conditions:
+        if not bool(th.condition_holds(c.name, y, P)):
+            failed.append(c.label())
     return " and ".join(failed) if failed else "the physical-state mask"
 
 

@@ -33,10 +33,12 @@ from bhchem.present.analysis_text import curvature_json, curvature_text, engine_
 from bhchem.present.analysis_plots import plot_curvature, plot_cycle
 
 
-def _family_args(p, figure_help: str):
+def _family_args(p, figure_help: str, condition_args=None):
     p.add_argument("family", help="family name (see 'bhchem families')")
     p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
                    help="parameter value (repeatable, or comma-separated)")
+    if condition_args is not None:
+        condition_args(p)
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.add_argument("-o", "--output", metavar="FIG", help=figure_help + " (.png, .pdf or .svg)")
 
@@ -152,7 +154,7 @@ def register(sub, common, helpers: dict) -> None:
 
     p = sub.add_parser("expansion", parents=[common],
                        help="Joule-Thomson expansion: isenthalps, inversion curve, T_i,min/T_c")
-    _family_args(p, "figure of the isenthalps and the inversion curve")
+    _family_args(p, "figure of the isenthalps and the inversion curve", helpers["condition_args"])
     p.add_argument("--masses", nargs="+", metavar="M",
                    help="enthalpies of the isenthalps (default: those meeting the inversion "
                         "curve at evenly spread pressures)")
@@ -163,7 +165,7 @@ def register(sub, common, helpers: dict) -> None:
 
     p = sub.add_parser("engine", parents=[common],
                        help="heat engine cycle in the P-V plane: work, heat, efficiency, Carnot")
-    _family_args(p, "figure of the cycle in the P-V plane")
+    _family_args(p, "figure of the cycle in the P-V plane", helpers["condition_args"])
     p.add_argument("--cycle", required=True, metavar='"P1,V1 P2,V2 ..."',
                    help="corners in order of traversal (P absolute or like 0.5Pc; V the "
                         "thermodynamic volume); sides must be isobars, isochores, isotherms "
@@ -172,5 +174,5 @@ def register(sub, common, helpers: dict) -> None:
 
     p = sub.add_parser("curvature", parents=[common],
                        help="Ruppeiner curvature: R_N sign map and critical amplitude")
-    _family_args(p, "sign map of R_N on the T-v plane")
+    _family_args(p, "sign map of R_N on the T-v plane", helpers["condition_args"])
     p.set_defaults(func=cmd_curvature)

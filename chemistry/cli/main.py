@@ -74,7 +74,25 @@ def _load_files(args) -> None:
 
 def _bound(args):
     family = get_family(args.family)
-    return bind(family, **parse_assignments(args.param))
+    return bind(family, conditions=getattr(args, "conditions", None),
+                without=_without(args), **parse_assignments(args.param))
+
+
+def _without(args) -> tuple:
+    """Condition names from every ``--without`` (repeatable, or comma-separated)."""
+    out = []
+    for item in getattr(args, "without", None) or []:
+        out.extend(n.strip() for n in str(item).split(",") if n.strip())
+    return tuple(out)
+
+
+def add_condition_args(p) -> None:
+    """``--conditions SET`` and ``--without NAME``: which states count (see ``bhchem show``)."""
+    p.add_argument("--conditions", metavar="SET",
+                   help="which named condition set decides which states count (default: "
+                        "'default', every condition; 'bhchem show FAMILY' lists the sets)")
+    p.add_argument("--without", action="append", metavar="NAME",
+                   help="drop a named condition (repeatable, or comma-separated)")
 
 
 # -- commands ---------------------------------------------------------------
@@ -261,7 +279,8 @@ def cmd_scan(args) -> int:
         family_file = (args.family_file or [None])[-1]
         doc = scan(args.family, axes, fixed, args.output, family_file=family_file,
                    workers=args.workers, executor=executor, quiet=args.quiet,
-                   refine=args.refine, notify=_note)
+                   refine=args.refine, notify=_note, conditions=args.conditions,
+                   without=_without(args))
     except OSError as exc:  # e.g. disk full or a read-only folder: say what is missing
         print(f"bhchem: error: the atlas table in {args.output} was not written ({exc}); "
               f"a rerun reuses any finished chunks in {args.output}/chunks",
@@ -296,6 +315,7 @@ def _add_family_args(p, json_help="machine-readable output", with_json=True):
     p.add_argument("family", help="family name (see 'bhchem families')")
     p.add_argument("-p", "--param", action="append", metavar="NAME=VALUE",
                    help="parameter value (repeatable, or comma-separated)")
+    add_condition_args(p)
     if with_json:
         p.add_argument("--json", action="store_true", help=json_help)
 
@@ -381,6 +401,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="output folder (rerun the same command to resume)")
     p.add_argument("--workers", type=int, default=1, help="local worker processes (1)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster (tcp://...)")
+    add_condition_args(p)
     p.add_argument("--refine", type=int, default=8,
                    help="bisection steps per boundary (8; 0: bracket by the grid only)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
@@ -393,7 +414,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(func=cmd_demo)
 
     register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
-                           "BhchemError": BhchemError})
+                           "BhchemError": BhchemError, "condition_args": add_condition_args})
     return parser
 
 

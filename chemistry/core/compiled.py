@@ -26,6 +26,7 @@ from bhchem.core.special import hyp2f1_real
 from bhchem.declare.family import canonical_symbols, canonicalise
 from bhchem.declare import symbols as sy
 from bhchem.declare.registry import get_family
+from bhchem.declare.conditions import Admissibility, select
 
 
 def _special_functions() -> dict:
@@ -292,12 +293,54 @@ class Thermodynamics:
     over numpy arrays; ``th.quantity(name, x, P)`` reaches any derived quantity.
     """
 
-    def __init__(self, family: Family, values: dict, derivation: Derivation):
+    def __init__(self, family: Family, values: dict, derivation: Derivation,
+                 admissibility: Admissibility | None = None):
         self.family = family
         self.values = dict(values)
         self.derivation = derivation
         self.compiled = compile_derivation(derivation)
         self._param_values = tuple(float(values[s.name]) for s in derivation.parameters)
+        names = tuple(c.name for c in derivation.conditions)
+        self.admissibility = admissibility if admissibility is not None else \
+            Admissibility("default", names)
+        self._active = tuple(i for i, n in enumerate(names) if n in self.admissibility.active)
+
+    # -- admissibility ----------------------------------------------------------
+    @property
+    def active_conditions(self) -> tuple:
+        """The StateConditions this binding applies (see ``admissibility``)."""
+        return tuple(self.derivation.conditions[i] for i in self._active)
+
+    def condition_holds(self, name: str, x, P) -> np.ndarray:
+        """Boolean array: whether the named condition (active or not) holds at (x, P)."""
+        for i, c in enumerate(self.derivation.conditions):
+            if c.name == name:
+                x = np.asarray(x, dtype=float)
+                P = np.asarray(P, dtype=float)
+                with np.errstate(all="ignore"):
+                    out = self.compiled.function(f"condition_{i}")(x, P, *self._param_values)
+                return np.broadcast_to(np.asarray(out, dtype=bool),
+                                       np.broadcast_shapes(x.shape, P.shape)).copy()
+        raise KeyError(f"{self.family.name} has no condition {name!r}")
+
+    def with_conditions(self, conditions: str | None = None, without=()) -> "Thermodynamics":
+        """The same family and values, with another selection of admissibility conditions.
+
+        Parameters
+        ----------
+        conditions : str, optional
+            A condition set of the family (default ``"default"``: every condition).
+        without : iterable of str or comma-separated str
+            Conditions to drop in addition.
+
+        Raises
+        ------
+        InvalidArgumentError
+            An unknown set or condition name.
+        """
+        adm = select(self.family.name, tuple(c.name for c in self.derivation.conditions),
+                     self.family.condition_set_table(), conditions, without)
+        return Thermodynamics(self.family, self.values, self.derivation, adm)
 
     @property
     def parameter_values(self) -> tuple:
@@ -374,13 +417,14 @@ class Thermodynamics:
         return self.quantity(f"Phi_{param}", x, P)
 
     def physical(self, x, P) -> np.ndarray:
-        """Boolean mask: finite T, S, G and every declared state condition holds."""
+        """Boolean mask: finite T, S, G and every active state condition holds (the
+        binding's ``admissibility``; by default every condition)."""
         x = np.asarray(x, dtype=float)
         P = np.asarray(P, dtype=float)
         ok = np.ones(np.broadcast_shapes(x.shape, P.shape), dtype=bool)
         for name in ("T", "S", "G"):
             ok &= np.isfinite(self.quantity(name, x, P))
-        for i, _ in enumerate(self.derivation.conditions):
+        for i in self._active:
             with np.errstate(all="ignore"):
                 c = self.compiled.function(f"condition_{i}")(x, P, *self._param_values)
             ok &= np.asarray(c, dtype=bool)
@@ -439,32 +483,42 @@ class Thermodynamics:
 
     def __repr__(self) -> str:
         vals = ", ".join(f"{k}={v}" for k, v in self.values.items())
-        return f"Thermodynamics({self.family.name}: {vals})"
+        extra = "" if self.admissibility.is_default else f"; {self.admissibility.label()}"
+        return f"Thermodynamics({self.family.name}: {vals}{extra})"
 
 
-def bind(family, **values) -> Thermodynamics:
+def bind(family, *, conditions: str | None = None, without=(), **values) -> Thermodynamics:
     """Bind a family (object or name) to parameter values.
 
     Parameters
     ----------
     family : Family or str
         A family object, or the name of a registered family.
+    conditions : str, optional
+        Which named condition set decides which states count (default ``"default"``:
+        every condition the family and the engine declare; see ``bhchem show``).
+    without : iterable of str or comma-separated str
+        Conditions to drop in addition (e.g. ``without="regular-exterior"``).
     **values
         Parameter values; missing ones take their defaults.
 
     Returns
     -------
     Thermodynamics
+        With ``admissibility`` recording the selection.
 
     Raises
     ------
-    UnknownFamilyError, UnknownParameterError, ParameterDomainError
+    UnknownFamilyError, UnknownParameterError, ParameterDomainError, InvalidArgumentError
     """
     if isinstance(family, str):
         family = get_family(family)
     vals = validate_values(family, values)
     discrete = {p.name: vals[p.name] for p in family.discrete_parameters}
-    th = Thermodynamics(family, vals, derive(family, **discrete))
+    derivation = derive(family, **discrete)
+    adm = select(family.name, tuple(c.name for c in derivation.conditions),
+                 family.condition_set_table(), conditions, without)
+    th = Thermodynamics(family, vals, derivation, adm)
     _check_representable(th)
     return th
 

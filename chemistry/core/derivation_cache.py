@@ -34,7 +34,8 @@ from bhchem.version import __version__
 #: most derivations kept on disk (each file is a few kB to a few hundred kB)
 MAX_ENTRIES = 256
 _FORMAT = 1
-_DERIVING_MODULES = ("core/derive.py", "declare/family.py", "declare/symbols.py")
+_DERIVING_MODULES = ("core/derive.py", "declare/family.py", "declare/symbols.py",
+                     "declare/conditions.py")
 _PACKAGE_DIR = Path(__file__).resolve().parents[1]
 
 

@@ -35,6 +35,7 @@ above :data:`MAX_DERIVED_NODES` nodes, is refused in one line
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 import threading
 from dataclasses import dataclass, field
@@ -44,6 +45,7 @@ import sympy as sp
 
 from bhchem.core import derivation_cache
 from bhchem.declare import symbols as sy
+from bhchem.declare.conditions import ENGINE_CONDITIONS
 from bhchem.errors import MalformedFamilyError
 from bhchem.declare.family import Family, canonical_symbols, canonicalise
 
@@ -97,10 +99,32 @@ class EquationOfState:
 
 @dataclass(frozen=True)
 class StateCondition:
-    """A condition a physical state satisfies, with its origin in words."""
+    """A named condition a physical state satisfies (see :mod:`bhchem.declare.conditions`).
+
+    Attributes
+    ----------
+    relation : sympy relational
+        In (x, P, parameters), T already substituted.
+    description : str
+        The relation as declared, in words (``S > 0``).
+    name : str
+        The condition's kebab-case name.
+    reason, reference : str
+        Why a physical state satisfies it, and where that comes from.
+    """
 
     relation: sp.Basic
     description: str
+    name: str = ""
+    reason: str = ""
+    reference: str = ""
+
+    def label(self, limit: int = 40) -> str:
+        """The name with the relation when that is short (``nonnegative-temperature
+        (T >= 0)``), else the name alone: one short phrase for messages."""
+        if len(self.description) <= limit:
+            return f"{self.name} ({self.description})"
+        return self.name
 
 
 @dataclass(frozen=True)
@@ -663,13 +687,14 @@ def _derive(family: Family, dim: int, vals: dict) -> Derivation:
         quantities["G_background"] = prep(family.background_gibbs, "background_gibbs")
 
     conditions = []
-    if family.route == "enthalpy" and family.gravitational:
-        conditions.append(StateCondition(sp.StrictGreaterThan(quantities["S"], 0), "S > 0"))
-    if family.require_nonnegative_temperature:
-        conditions.append(StateCondition(sp.GreaterThan(T, 0), "T >= 0"))
+    engine_relations = {"positive-entropy": sp.StrictGreaterThan(quantities["S"], 0),
+                        "nonnegative-temperature": sp.GreaterThan(T, 0)}
+    for name in family.engine_condition_names:
+        text, reason, ref = ENGINE_CONDITIONS[name]
+        conditions.append(StateCondition(engine_relations[name], text, name, reason, ref))
     for c in family.conditions:
-        rel = prep(c, "condition").subs(sy.T, T)
-        conditions.append(StateCondition(rel, str(c)))
+        rel = prep(c.relation, f"condition {c.name}").subs(sy.T, T)
+        conditions.append(StateCondition(rel, str(c.relation), c.name, c.reason, c.reference))
 
     eos = _equation_of_state(T, v, x, variables)
     length_dims = {p.name: p.dimension_at(dim) for p in family.continuous_parameters}
@@ -685,7 +710,7 @@ def _derive(family: Family, dim: int, vals: dict) -> Derivation:
                       quantities={k: back(e) for k, e in quantities.items()},
                       temperature_derived=back(T_derived),
                       volume_declared=back(prep(family.volume, "volume")),
-                      conditions=tuple(StateCondition(back(c.relation), c.description)
+                      conditions=tuple(dataclasses.replace(c, relation=back(c.relation))
                                        for c in conditions),
                       eos=eos, notes=tuple(notes),
                       enthalpy_declared=back(M), entropy_declared=back(S))

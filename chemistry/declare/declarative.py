@@ -43,7 +43,15 @@ Format
     r_plus = "..."                       # horizon radius, needed when state is not r
     typical_state = "..."                # optional sampling scales, in d and parameters
     typical_pressure = "..."
-    conditions = ["r > b"]               # optional: inequalities a physical state obeys
+    conditions = ["r > b"]               # optional: inequalities a physical state obeys;
+                                         #   or named, with a reason and a reference:
+    # conditions = [{name = "outside-core", relation = "r > b",
+    #                reason = "the horizon lies outside the core", reference = "..."}]
+
+    [condition_sets.core-only]           # optional named selections of the conditions
+    members = ["outside-core", "nonnegative-temperature"]   # ('default' = all is implied)
+    description = "the conditions of a given paper"
+    reference = "A. Author, J. Phys. 1 (2030) 1"
 
     [conventions]                        # optional: text entries for the conventions record
     charge = "Q normalised as in ..."
@@ -96,6 +104,7 @@ from pathlib import Path
 import sympy as sp
 
 from bhchem.declare import symbols as sy
+from bhchem.declare.conditions import NAME_PATTERN, Condition, ConditionSet
 from bhchem.declare.domain import Domain
 from bhchem.errors import MalformedFamilyError
 from bhchem.declare.expression_parser import (CONSTANTS, FUNCTIONS, ExpressionError, ParsedExpression, parse,
@@ -124,7 +133,7 @@ MAX_DIMENSION = 1000
 FAMILY_MAX_OPERATIONS = 2_000_000
 
 _TOP_KEYS = ("name", "summary", "reference", "dimension", "state", "state_description",
-             "parameters", "definitions", "expressions", "conventions")
+             "parameters", "definitions", "expressions", "conventions", "condition_sets")
 _DIMENSION_KEYS = ("default", "minimum", "maximum", "description")
 _PARAMETER_KEYS = ("default", "length_dimension", "domain", "description", "minimum", "maximum",
                    "exclusive_minimum", "exclusive_maximum", "integer", "choices")
@@ -327,10 +336,12 @@ class _Loader:
         definitions = self.definitions(doc, table)
         exprs, conditions = self.expressions(doc, table, definitions, parameters)
         conventions = self.conventions(doc)
+        condition_sets = self.condition_sets(doc)
 
         kwargs = dict(name=name, summary=summary, reference=reference, dimension=dimension,
                       parameters=tuple(p for p in parameters if p is not dimension),
-                      state=state, conditions=tuple(conditions), conventions=conventions)
+                      state=state, conditions=tuple(conditions), conventions=conventions,
+                      condition_sets=condition_sets)
         if state_description is not None:
             kwargs["state_description"] = state_description
         for k, attr in _EXPRESSION_KEYS.items():
@@ -575,9 +586,22 @@ class _Loader:
         if len(raw) > MAX_CONDITIONS:
             self.fail(key, f"too many conditions (at most {MAX_CONDITIONS})")
         cond_symbols = {**symbols, "T": sy.T}
-        for i, text in enumerate(raw):
+        for i, entry in enumerate(raw):
+            named = None
+            if isinstance(entry, dict):
+                self.unknown_keys(entry, ("name", "relation", "reason", "reference"), key + (i,))
+                named = {k: self.string(entry, key + (i, k), required=k != "reference",
+                                        one_line=True)
+                         for k in ("name", "relation", "reason", "reference")}
+                if not NAME_PATTERN.match(named["name"]):
+                    self.fail(key + (i, "name"), f"{_shorten(repr(named['name']))} must be "
+                                                 f"kebab-case, e.g. outside-core")
+                text = named["relation"]
+            else:
+                text = entry
             if not isinstance(text, str):
-                self.fail(key + (i,), f"must be a string such as \"r > b\", not {_type(text)}")
+                self.fail(key + (i,), f"must be a string such as \"r > b\" or a table "
+                                      f"{{name, relation, reason, reference}}, not {_type(text)}")
             try:
                 rel = parse(text, cond_symbols, condition=True).expr
                 with operation_limit(FAMILY_MAX_OPERATIONS, "the condition",
@@ -591,8 +615,32 @@ class _Loader:
                 self.fail(key + (i,), f"{text!r} is always {'true' if evaluated else 'false'} "
                                       f"(the state variable and P are positive, parameters "
                                       f"real); remove it or correct it")
-            conditions.append(rel)
+            if named is None:
+                conditions.append(rel)
+            else:
+                conditions.append(Condition(named["name"], rel, named["reason"],
+                                            named["reference"] or "common practice"))
         return out, conditions
+
+    def condition_sets(self, doc) -> tuple:
+        sets = self.table(doc, "condition_sets", ("condition_sets",))
+        out = []
+        for name, body in sets.items():
+            key = ("condition_sets", name)
+            if not NAME_PATTERN.match(name):
+                self.fail(key, f"set name {_shorten(repr(name))} must be kebab-case")
+            if not isinstance(body, dict):
+                self.fail(key, f"must be a table with members, description, reference, "
+                               f"not {_type(body)}")
+            self.unknown_keys(body, ("members", "description", "reference"), key)
+            members = body.get("members")
+            if not isinstance(members, list) or not all(isinstance(m, str) for m in members):
+                self.fail(key + ("members",), "must be an array of condition names")
+            out.append(ConditionSet(
+                name, tuple(members),
+                self.string(body, key + ("description",), one_line=True) or "",
+                self.string(body, key + ("reference",), one_line=True) or ""))
+        return tuple(out)
 
     def conventions(self, doc) -> dict:
         conv = self.table(doc, "conventions", ("conventions",))

@@ -34,6 +34,8 @@ from typing import Mapping, Sequence
 import sympy as sp
 
 from bhchem.declare import symbols as sy
+from bhchem.declare.conditions import (DEFAULT_SET, ENGINE_CONDITIONS, Condition, ConditionSet,
+                                       condition_name_error)
 from bhchem.declare.domain import Domain
 from bhchem.errors import MalformedFamilyError
 
@@ -131,8 +133,14 @@ class Family:
         r+ as a function of x (default x when the state variable is ``r``).
     specific_volume : sympy expression, optional
         v(x); default 4 r+/(d-2).
-    conditions : sequence of sympy relationals
-        Extra conditions a physical state satisfies (may use ``symbols.T``).
+    conditions : sequence of Condition (or bare sympy relationals)
+        Named conditions a physical state satisfies (may use ``symbols.T``), each with a
+        one-line reason and a reference (see :mod:`bhchem.declare.conditions`).  A bare
+        relation is named ``condition-1``, ``condition-2``, ... with the family's
+        reference.  The engine adds ``positive-entropy`` and ``nonnegative-temperature``.
+    condition_sets : sequence of ConditionSet
+        Named selections of the conditions (e.g. the set a given paper uses); the set
+        ``default`` (every condition) is implied.
     gravitational : bool
         Whether lengths scale as in gravity (P ~ L^-2, M ~ L^(d-3), S ~ L^(d-2));
         the Smarr relation is derived from this scaling.  False for fluids.
@@ -168,11 +176,53 @@ class Family:
     typical_pressure: object = None
     conventions: Mapping[str, str] = field(default_factory=dict)
     source: str = ""
+    condition_sets: Sequence[ConditionSet] = ()
 
     def __post_init__(self):
         object.__setattr__(self, "parameters", tuple(self.parameters))
-        object.__setattr__(self, "conditions", tuple(self.conditions))
+        object.__setattr__(self, "conditions", tuple(
+            c if isinstance(c, Condition) else Condition(
+                f"condition-{i + 1}", c, "declared by the family without a stated reason",
+                self.reference if isinstance(self.reference, str) else "")
+            for i, c in enumerate(self.conditions)))
+        object.__setattr__(self, "condition_sets", tuple(self.condition_sets))
         validate_family(self)
+
+    # -- admissibility ----------------------------------------------------------
+    @property
+    def engine_condition_names(self) -> tuple[str, ...]:
+        """The engine's own conditions that apply to this family, in order."""
+        names = []
+        if self.route == "enthalpy" and self.gravitational:
+            names.append("positive-entropy")
+        if self.require_nonnegative_temperature:
+            names.append("nonnegative-temperature")
+        return tuple(names)
+
+    @property
+    def condition_names(self) -> tuple[str, ...]:
+        """Every condition name: the engine's first, then the declared ones."""
+        return self.engine_condition_names + tuple(c.name for c in self.conditions)
+
+    def condition_records(self) -> list[dict]:
+        """Every condition as ``{name, relation, reason, reference, origin}`` (for listings)."""
+        out = []
+        for name in self.engine_condition_names:
+            text, reason, ref = ENGINE_CONDITIONS[name]
+            out.append({"name": name, "relation": text, "reason": reason, "reference": ref,
+                        "origin": "engine"})
+        for c in self.conditions:
+            out.append({"name": c.name, "relation": str(c.relation), "reason": c.reason,
+                        "reference": c.reference, "origin": "family"})
+        return out
+
+    def condition_set_table(self) -> dict:
+        """Set name -> ConditionSet, the implied ``default`` set first."""
+        table = {DEFAULT_SET: ConditionSet(DEFAULT_SET, self.condition_names,
+                                           "every condition (the strictest set)",
+                                           "common practice")}
+        table.update({s.name: s for s in self.condition_sets})
+        return table
 
     # -- parameters -----------------------------------------------------------
     @property
@@ -323,11 +373,40 @@ def validate_family(fam: Family) -> None:
         if fam.state in sp.sympify(bg).free_symbols:
             raise MalformedFamilyError(
                 f"family {who}: background_gibbs may not depend on the state variable")
+    names = list(fam.engine_condition_names)
     for i, c in enumerate(fam.conditions):
-        e = canonicalise(c, table, f"condition {i + 1}", who)
+        problem = condition_name_error(who, c.name)
+        if problem:
+            raise MalformedFamilyError(problem)
+        if c.name in names:
+            raise MalformedFamilyError(f"family {who}: condition {c.name} declared twice "
+                                       f"(or it repeats an engine condition)")
+        names.append(c.name)
+        for attr in ("reason", "reference"):
+            if not isinstance(getattr(c, attr), str):
+                raise MalformedFamilyError(f"family {who}: condition {c.name}: {attr} must be text")
+        if not c.reason.strip():
+            raise MalformedFamilyError(f"family {who}: condition {c.name} needs a one-line reason")
+        e = canonicalise(c.relation, table, f"condition {c.name}", who)
         if not isinstance(e, (sp.logic.boolalg.Boolean, sp.core.relational.Relational)):
             raise MalformedFamilyError(
-                f"family {who}: condition {i + 1} must be a relation such as r > b")
+                f"family {who}: condition {c.name} must be a relation such as r > b")
+    seen_sets = set()
+    for cs in fam.condition_sets:
+        if not isinstance(cs, ConditionSet):
+            raise MalformedFamilyError(f"family {who}: condition_sets must be ConditionSet objects")
+        problem = condition_name_error(who, cs.name)
+        if problem:
+            raise MalformedFamilyError(problem.replace("condition name", "condition set name"))
+        if cs.name == DEFAULT_SET or cs.name in seen_sets:
+            raise MalformedFamilyError(f"family {who}: condition set {cs.name} declared twice "
+                                       f"('{DEFAULT_SET}' is implied: every condition)")
+        seen_sets.add(cs.name)
+        unknown = [m for m in cs.members if m not in names]
+        if unknown:
+            raise MalformedFamilyError(
+                f"family {who}: condition set {cs.name} names unknown condition {unknown[0]!r} "
+                f"(known: {', '.join(names)})")
     if fam.state.name != "r" and fam.horizon_radius is None and fam.specific_volume is None \
             and fam.gravitational:
         raise MalformedFamilyError(

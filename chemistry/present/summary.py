@@ -68,6 +68,12 @@ def show_json(th: Thermodynamics) -> dict:
         "smarr": {"holds": sm.holds, "relation": sm.relation, "missing": sm.missing,
                   "max_residual": sm.max_residual, "n_points": sm.n_points,
                   "message": sm.message},
+        "conditions": [{**rec, "active": rec["name"] in th.admissibility.active}
+                       for rec in fam.condition_records()],
+        "condition_sets": {name: {"members": list(cs.members), "description": cs.description,
+                                  "reference": cs.reference}
+                           for name, cs in fam.condition_set_table().items()},
+        "admissibility": th.admissibility.to_dict(),
     }
 
 
@@ -111,4 +117,22 @@ def show_text(th: Thermodynamics) -> str:
     lines.append("")
     lines.append(f"First law    {doc['first_law']['message']}")
     lines.append(f"Smarr        {doc['smarr']['message']}")
+    lines.append("")
+    lines.append(f"Which states count ({th.admissibility.label()}; a state must satisfy every "
+                 f"condition marked *)")
+    for rec in doc["conditions"]:
+        mark = "*" if rec["active"] else "-"
+        lines.append(f"  {mark} {rec['name']}: {_short(rec['relation'])}")
+        lines.append(f"      why: {rec['reason']}")
+        lines.append(f"      source: {rec['reference']}")
+    lines.append("  condition sets (choose with --conditions SET, drop one with --without NAME):")
+    for name, cs in doc["condition_sets"].items():
+        lines.append(f"    {name}: {', '.join(cs['members']) or 'none'}")
+        if name != "default":
+            lines.append(f"      {cs['description']} ({cs['reference']})")
     return "\n".join(lines)
+
+
+def _short(text: str, limit: int = 100) -> str:
+    """A relation in one line; a generated one (hundreds of characters) is cut with a note."""
+    return text if len(text) <= limit else text[:limit] + " ... (see --json)"

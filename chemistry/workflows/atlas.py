@@ -142,11 +142,13 @@ def scale_free_key(th) -> tuple:
     return tuple(key)
 
 
-def analyse_point(family_name, family_file, params: dict) -> dict:
-    """Critical points, structure and key numbers at one parameter point (never raises)."""
+def analyse_point(family_name, family_file, params: dict, admissible=(None, ())) -> dict:
+    """Critical points, structure and key numbers at one parameter point (never raises).
+    ``admissible`` is ``(condition set, conditions dropped)`` (see :func:`bhchem.bind`)."""
     row = {"error": ""}
     try:
-        th = bind(_family(family_name, family_file), **params)
+        th = bind(_family(family_name, family_file), conditions=admissible[0],
+                  without=admissible[1], **params)
         search = find_critical_points(th)
         cps = search.physical
         row["n_critical"] = len(cps)
@@ -171,11 +173,11 @@ def analyse_point(family_name, family_file, params: dict) -> dict:
     return row
 
 
-def run_chunk(family_name, family_file, fixed, points) -> list:
+def run_chunk(family_name, family_file, fixed, points, admissible=(None, ())) -> list:
     """Worker: analyse a chunk of (index, params) points."""
     out = []
     for index, params in points:
-        row = analyse_point(family_name, family_file, {**fixed, **params})
+        row = analyse_point(family_name, family_file, {**fixed, **params}, admissible)
         row.update({"index": index, **params})
         out.append(row)
     return out
@@ -196,7 +198,7 @@ def family_source_sha256(fam):
 
 
 #: manifest keys that identify a scan (``chunks`` holds the checksums and may grow)
-_IDENTITY = ("family", "family_file", "grid", "fixed", "chunk_size", "anchors")
+_IDENTITY = ("family", "family_file", "grid", "fixed", "chunk_size", "anchors", "conditions")
 
 
 def _resume_manifest(man_path, manifest, out_dir, say) -> dict:
@@ -319,7 +321,7 @@ def _as_completed(executor, futures):
 
 def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, workers=1,
          executor=None, chunk_size=CHUNK_SIZE, refine=8, quiet=True,
-         stop_after_chunks=None, notify=None) -> dict:
+         stop_after_chunks=None, notify=None, conditions=None, without=()) -> dict:
     """Run (or resume) an atlas scan; write atlas.csv, atlas.json, atlas.png into out_dir.
 
     Returns the atlas document (as written to atlas.json).  ``stop_after_chunks`` stops
@@ -331,9 +333,15 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     damaged (unreadable, not the rows it should hold) or edited (checksum mismatch) is
     recomputed, and a damaged manifest makes every chunk be recomputed; each recovery is
     reported through ``notify`` (one line naming the file).
+
+    ``conditions`` and ``without`` choose which states count at every point (as in
+    :func:`bhchem.bind`); the selection is part of the scan's identity and of atlas.json.
     """
     fixed = dict(fixed or {})
     fam = _family(family_name, family_file)
+    without = tuple(without or ())
+    adm = bind(fam, conditions=conditions, without=without, **fixed).admissibility
+    admissible = (conditions, without)
     names = [a.name for a in axes]
     if len(set(names)) != len(names):
         raise BhchemError("each grid parameter may appear once")
@@ -361,6 +369,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     manifest = {"family": family_name, "family_file": os.path.abspath(family_file) if family_file else None,
                 "grid": [a.spec for a in axes], "fixed": fixed, "chunk_size": chunk_size,
                 "anchors": ATLAS_ANCHORS, "version": __version__,
+                "conditions": adm.to_dict(),
                 "family_source_sha256": family_source_sha256(fam)}
     out_dir = os.path.abspath(out_dir)
     chunk_dir = os.path.join(out_dir, "chunks")
@@ -416,7 +425,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     try:
         if executor is None:
             for i in missing:
-                rows = run_chunk(family_name, family_file, fixed, chunks[i])
+                rows = run_chunk(family_name, family_file, fixed, chunks[i], admissible)
                 record(i, rows)
                 loaded[i] = json.loads(_dumps(rows))
                 progress.add(len(rows))
@@ -427,7 +436,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         else:
             futs = {}
             for i in missing:
-                f = executor.submit(run_chunk, family_name, family_file, fixed, chunks[i])
+                f = executor.submit(run_chunk, family_name, family_file, fixed, chunks[i],
+                                    admissible)
                 futs[f] = i
             for f in _as_completed(executor, list(futs)):
                 i = futs[f]
@@ -453,13 +463,15 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             r = dict(computed[rep_of[keys[i]]])
             r.update({"index": i, **p})
             rows.append(r)
-        boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine, executor)
+        boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine, executor,
+                                 admissible)
     finally:
         if own is not None:
             own.shutdown(wait=True, cancel_futures=True)
         if progress is not None:
             progress.close()
     doc = _assemble(family_name, fam, axes, fixed, rows, boundaries)
+    doc["conditions"] = adm.to_dict()
     doc["distinct_scale_free_points"] = len(reps)
     _write_outputs(out_dir, doc, axes)
     return doc
@@ -501,7 +513,7 @@ def _boundary(name, base, lo, hi, lower, upper, steps, log, converged=True, note
 
 
 def refine_edge(family_name, family_file, fixed, base, name, lo, hi, log, c_lo, c_hi, refine,
-                max_boundaries=MAX_BOUNDARIES_PER_EDGE):
+                max_boundaries=MAX_BOUNDARIES_PER_EDGE, admissible=(None, ())):
     """Locate every change of the classification along one grid edge (a worker task).
 
     Bisection on the classification c(x) (:func:`classification`): the bracket [l, h] keeps
@@ -537,7 +549,8 @@ def refine_edge(family_name, family_file, fixed, base, name, lo, hi, log, c_lo, 
         b, c_b = hi, c_hi
         for step in range(refine):
             mid = math.sqrt(a * b) if log else 0.5 * (a + b)
-            row = analyse_point(family_name, family_file, {**fixed, **base, name: mid})
+            row = analyse_point(family_name, family_file, {**fixed, **base, name: mid},
+                                admissible)
             if row["error"]:
                 note = (f"not located: the point {name}={mid!r} failed ({row['error']}); "
                         f"the change lies in the bracket")
@@ -559,7 +572,8 @@ def refine_edge(family_name, family_file, fixed, base, name, lo, hi, log, c_lo, 
         a, c_a = b, c_b
 
 
-def _boundaries(family_name, family_file, fixed, axes, rows, refine, executor=None):
+def _boundaries(family_name, family_file, fixed, axes, rows, refine, executor=None,
+                admissible=(None, ())):
     """Every grid edge whose two ends differ in any classified column, refined by bisection.
 
     An edge with a failed end is listed as not located (its class on that side is unknown).
@@ -590,7 +604,8 @@ def _boundaries(family_name, family_file, fixed, axes, rows, refine, executor=No
                 continue
             slots.append(None)
             tasks.append((family_name, family_file, fixed, base, a.name, lo, hi,
-                          a.spacing == "log", c0, c1, max(int(refine), 0)))
+                          a.spacing == "log", c0, c1, max(int(refine), 0),
+                          MAX_BOUNDARIES_PER_EDGE, admissible))
     if executor is None or refine <= 0:
         results = [refine_edge(*t) for t in tasks]
     else:
