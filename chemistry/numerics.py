@@ -181,3 +181,20 @@ def bracketed_roots(f: Callable[[float], float], grid, *, log: bool = False,
         if root is not None:  # None: the ends did not bracket after all (NaN, no change)
             roots.append(root)
     return sorted(roots)
+
+
+def state_range(th, P: float) -> tuple[float, float]:
+    """Range of the state variable to search at pressure P (from the family's scales);
+    ``th`` is a :class:`~bhchem.core.compiled.Thermodynamics`.
+
+    Covers six decades either side of the family's own length scale and of the AdS
+    length at this pressure (x ~ L for r, L^(d-2) for an entropy state variable).
+    """
+    x0 = th.typical_state()
+    P0 = th.typical_pressure()
+    power = (th.derivation.dimension - 2) if th.derivation.state.name == "S" else 1.0
+    if not th.family.gravitational:
+        power = 0.0
+    xP = x0 * (P0 / P) ** (power / 2) if power else x0
+    lo, hi = min(x0, xP), max(x0, xP)
+    return lo * 1e-4, hi * 1e5

@@ -50,6 +50,7 @@ they keep the square root positive for all r >= r+.  S > 0 and T >= 0 are added 
 import sympy as sp
 
 from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare.conditions import Condition
 from bhchem.declare.symbols import P, d, k, omega, parameter_symbol, pi, r
 
 alpha = parameter_symbol("alpha")
@@ -82,8 +83,14 @@ FAMILY = Family(
     temperature=(16 * pi * P * r**4 / (d - 2) + (d - 3) * k * r**2 + (d - 5) * k**2 * _at
                  - (d - 3) * _q**2 * r ** (8 - 2 * d)) / (4 * pi * r * (r**2 + 2 * k * _at)),
     conditions=(
-        1 + 2 * k * _at / r**2 > 0,                   # horizon on the GB branch (real root)
-        64 * pi * _at * P < (d - 1) * (d - 2),        # its AdS vacuum exists (4 alpha~ < L^2)
+        Condition("horizon-on-gb-branch", 1 + 2 * k * _at / r**2 > 0,
+                  "the square root in f is real and positive at the horizon: the horizon lies "
+                  "on the Gauss-Bonnet branch continuous with Einstein gravity",
+                  "Cai, Cao, Li & Yang, JHEP 09 (2013) 005, arXiv:1306.6233"),
+        Condition("ads-vacuum-exists", 64 * pi * _at * P < (d - 1) * (d - 2),
+                  "the AdS vacuum of that branch exists (4 alpha~ < L^2); with the horizon "
+                  "condition it keeps the square root real for every r >= r+",
+                  "Cai, Cao, Li & Yang, JHEP 09 (2013) 005, arXiv:1306.6233"),
     ),
     conventions={
         "coupling": "alpha is the bare Gauss-Bonnet coupling of the action; CCLY13 and "

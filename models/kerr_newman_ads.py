@@ -40,6 +40,7 @@ they never bind; they are declared to state the domain the relation describes.
 """
 import sympy as sp
 
+from bhchem.declare.conditions import Condition
 from bhchem.declare import Domain, Family, Parameter
 from bhchem.declare.symbols import P, S, parameter_symbol, pi
 
@@ -66,8 +67,13 @@ def _declaration(charged: bool) -> dict:
         state_description="entropy S = pi (r+^2 + a^2)/Xi",
         horizon_radius=r_plus,
         specific_volume=2 * (3 * V / (4 * pi)) ** sp.Rational(1, 3),
-        conditions=(8 * pi * P * J**2 < 3 * M**2,      # a < L (Xi > 0)
-                    S * xi / pi - a**2 > 0),           # real horizon radius r+ > 0
+        conditions=(
+            Condition("rotation-below-ads-radius", 8 * pi * P * J**2 < 3 * M**2,
+                      "a < L (Xi > 0): the boundary does not rotate faster than light",
+                      "Hawking, Hunter & Taylor-Robinson, PRD 59 (1999) 064005 (from memory)"),
+            Condition("real-horizon-radius", S * xi / pi - a**2 > 0,
+                      "r+^2 = S Xi/pi - a^2 > 0: a real horizon radius",
+                      "Gunasekaran, Kubiznak & Mann, JHEP 11 (2012) 110, arXiv:1208.6251")),
         typical_state=s_typ,
         typical_pressure=3 / (80 * s_typ),
         conventions={

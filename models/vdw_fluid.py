@@ -16,6 +16,7 @@ Critical point: v_c = 3b, T_c = 8a/(27b), P_c = a/(27 b^2).
 """
 import sympy as sp
 
+from bhchem.declare.conditions import Condition
 from bhchem.declare import Domain, Family, Parameter
 from bhchem.declare.symbols import P, parameter_symbol, v
 
@@ -38,7 +39,9 @@ FAMILY = Family(
     state=v,
     state_description="specific volume v (per particle)",
     specific_volume=v,
-    conditions=(v > b,),
+    conditions=(Condition("volume-above-excluded", v > b,
+                          "the volume per particle exceeds the excluded volume b",
+                          "van der Waals equation of state (textbook)"),),
     gravitational=False,
     typical_state=3 * b,
     typical_pressure=a / (27 * b**2),

@@ -69,7 +69,7 @@ def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anch
             if res is not None and (guess is None or _close((res[1], res[2]), guess)):
                 return res[1], res[2]
         tr = [tuple(sorted((t.states[0].x, t.states[1].x)))
-              for t in analyze_isobar(th, P, warn=False).transitions if t.kind == "first-order"]
+              for t in analyze_isobar(th, P, warn=False, report_excluded=False).transitions if t.kind == "first-order"]
         near = [pair for pair in tr if guess is not None and _close(pair, guess)]
         if near:
             # this line's pair: the one closest to the states interpolated along the line

@@ -173,6 +173,8 @@ class CriticalSearch(Result):
     message: str
     convention: dict = field(default_factory=dict)
     warnings: tuple = ()
+    #: the binding's admissibility selection, which decides the ``physical`` flags
+    admissibility: dict = field(default_factory=dict)
 
     @property
     def physical(self) -> tuple:
@@ -397,7 +399,8 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
     return CriticalSearch(family=th.family.name, parameters=dict(th.values),
                           points=tuple(points), completeness=completeness,
                           method=method_text, scanned_range=scanned, converged=converged,
-                          message=msg, convention=convention_record(th.family))
+                          message=msg, convention=convention_record(th.family),
+                          admissibility=th.admissibility.to_dict())
 
 
 def _same(a: CriticalPoint, b: CriticalPoint) -> bool:

@@ -393,7 +393,7 @@ def coexistence_at_temperature(th, cp, T, solver=coexistence_near_critical):
     def transition(P):
         if abs(1 - P / cp.P) < 1e-3:
             return solver(th, cp.x, cp.P, P)
-        tr = [t for t in analyze_isobar(th, P).transitions if t.kind == "first-order"]
+        tr = [t for t in analyze_isobar(th, P, report_excluded=False).transitions if t.kind == "first-order"]
         if not tr:
             return None
         t = min(tr, key=lambda t: abs(t.T - cp.T))

@@ -19,6 +19,12 @@ minimum in T gives the transitions at this pressure:
   physical domain) and G jumps to another branch (the reentrant case): Delta G;
 * second order: at the pressure of a critical point.
 
+Where T has a pole at finite x (T -> +-infinity from both sides, e.g. where the Wald-entropy
+factor of a hyperbolic Lovelock hole vanishes), dT/dx changes sign without a spinodal: the
+isobar is split there into two branches, each followed up to |T| = POLE_T_FACTOR times the
+isobar's median |T| (beyond, T is dominated by round-off in the vanishing denominator);
+their ends are of kind ``pole``.  A domain edge that falls on such a pole is treated alike.
+
 Every crossing is refined by Brent's method on G_i(T) - G_j(T), with x_i(T)
 obtained by inverting the monotone branch; residuals |Delta G|/|G| are reported.
 """
@@ -34,7 +40,8 @@ from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import StateDomainError
 from bhchem.analysis.critical import find_critical_points, resolve_pressure
 from bhchem.analysis.coexistence import coexistence_newton
-from bhchem.numerics import brentq
+from bhchem.numerics import brentq, state_range
+from bhchem.analysis.admissibility import excluded_states
 from bhchem.analysis.consistency import emit, first_law_warnings
 
 _XTOL = 1e-15
@@ -51,7 +58,9 @@ class Branch:
     T_at_x_max: float
     stable: bool
     label: str
-    ends: tuple  # ('spinodal' | 'domain' | 'range', same) at x_min, x_max
+    #: ('spinodal' | 'domain' | 'range' | 'pole', same) at x_min, x_max; a 'pole' end runs to
+    #: T -> +-infinity and is followed up to |T| = POLE_T_FACTOR x the isobar's median |T|
+    ends: tuple
 
     @property
     def T_min(self) -> float:
@@ -121,6 +130,11 @@ class IsobarResult(Result):
     state_range: tuple
     message: str
     warnings: tuple = field(default_factory=tuple)
+    #: the binding's admissibility selection (``Admissibility.to_dict()``)
+    admissibility: dict = field(default_factory=dict)
+    #: the states this isobar leaves out, by condition (an ``Exclusions``), or None when not
+    #: asked for (``report_excluded=False``)
+    excluded: object = None
 
     def phase_at(self, T: float) -> str | None:
         for lo, hi, ph in self.preferred:
@@ -130,22 +144,6 @@ class IsobarResult(Result):
 
 
 # -- construction --------------------------------------------------------------------
-def state_range(th: Thermodynamics, P: float) -> tuple[float, float]:
-    """Range of the state variable to search at pressure P (from the family's scales).
-
-    Covers six decades either side of the family's own length scale and of the AdS
-    length at this pressure (x ~ L for r, L^(d-2) for an entropy state variable).
-    """
-    x0 = th.typical_state()
-    P0 = th.typical_pressure()
-    power = (th.derivation.dimension - 2) if th.derivation.state.name == "S" else 1.0
-    if not th.family.gravitational:
-        power = 0.0
-    xP = x0 * (P0 / P) ** (power / 2) if power else x0
-    lo, hi = min(x0, xP), max(x0, xP)
-    return lo * 1e-4, hi * 1e5
-
-
 def _refine_root(f, a, b):
     fa, fb = f(a), f(b)
     if not (np.isfinite(fa) and np.isfinite(fb)) or fa * fb > 0:
@@ -187,23 +185,34 @@ def _pole_between(th, P, a: float, b: float) -> float | None:
     return None
 
 
-def _pole_side(th, P, pole: float, outer: float, side: int) -> float:
-    """Where a branch running into a pole of T is cut: the state closest to the pole (relative
-    offsets 1e-12, 1e-11, ...) at which T is still computed reliably, i.e. has the sign of T
-    at ``outer`` (the grid state on that side) and changes by less than 1 % when the offset
-    grows by 1 %.  Closer in, the cancellation in the vanishing denominator leaves only
-    round-off (T of either sign)."""
+def _pole_side(th, P, pole: float, inner: float, side: int, T_cap: float) -> float:
+    """Where a branch running into a pole of T is cut: the state between ``inner`` (a grid
+    state on the branch) and the pole where |T| = ``T_cap``, by bisection on |T| to 1e-15
+    relative.  Closer to the pole T is dominated by the cancellation in its vanishing
+    denominator (round-off of either sign); at |T| = T_cap, many orders of magnitude above
+    the branch's own temperatures, it is still computed to full precision.  ``side`` is
+    +1 when the branch lies above the pole in x, -1 below.  Returns ``inner`` when |T|
+    there already exceeds the cap."""
     with np.errstate(all="ignore"):
-        sign = math.copysign(1.0, float(th.T(outer, P)))
-        for e in range(12, 2, -1):
-            delta = 10.0 ** -e
-            x = pole * (1 + side * delta)
-            if (x - outer) * side >= 0:
+        if not abs(float(th.T(inner, P))) < T_cap:
+            return inner
+        lo, hi = inner, pole  # |T| < cap at lo; the pole at hi
+        for _ in range(200):
+            if abs(hi - lo) <= 1e-15 * abs(lo):
                 break
-            T1, T2 = float(th.T(x, P)), float(th.T(pole * (1 + side * delta * 1.01), P))
-            if math.isfinite(T1) and T1 * sign > 0 and abs(T2 / T1 - 1) < 0.03:
-                return x
-    return outer
+            mid = 0.5 * (lo + hi)
+            T = float(th.T(mid, P))
+            if math.isfinite(T) and abs(T) < T_cap and math.copysign(1.0, T) == \
+                    math.copysign(1.0, float(th.T(inner, P))):
+                lo = mid
+            else:
+                hi = mid
+    return lo
+
+
+#: a branch running into a pole of T is followed up to |T| = this factor times the median
+#: |T| of its isobar's states (see _pole_side)
+POLE_T_FACTOR = 1e6
 
 
 def _refine_boundary(th, P, a, b, inside_a: bool):
@@ -237,6 +246,9 @@ def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000,
     phys = th.physical(xs, P)
     Tx = th.d("T", "x", xs, P)
     phys &= np.isfinite(Tx)
+    with np.errstate(all="ignore"):
+        T_grid = np.abs(th.T(xs[phys], P))
+    T_cap = POLE_T_FACTOR * float(np.median(T_grid)) if T_grid.size else math.inf
     fx = lambda z: float(th.d("T", "x", z, P))  # noqa: E731
     pieces = []
     i = 0
@@ -251,6 +263,13 @@ def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000,
         b_end = "range" if j == n - 1 else "domain"
         a = xs[i] if i == 0 else _refine_boundary(th, P, xs[i], xs[i - 1], True)
         b = xs[j] if j == n - 1 else _refine_boundary(th, P, xs[j], xs[j + 1], True)
+        # a domain edge on a pole of T (a condition switching exactly there): T at the edge
+        # is round-off; the branch ends where |T| reaches T_cap, as at a pole
+        with np.errstate(all="ignore"):
+            if i > 0 and not abs(float(th.T(a, P))) < T_cap:
+                a, a_end = _pole_side(th, P, a, xs[min(i + 1, j)], +1, T_cap), "pole"
+            if j < n - 1 and not abs(float(th.T(b, P))) < T_cap:
+                b, b_end = _pole_side(th, P, b, xs[max(j - 1, i)], -1, T_cap), "pole"
         cuts = [(a, a_end)]
         s = np.where(Tx[i:j + 1] >= 0, 1.0, -1.0)  # an exact zero counts as a sign
         for k in np.nonzero(s[1:] * s[:-1] < 0)[0]:
@@ -259,8 +278,8 @@ def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000,
             if pole is None:
                 cuts.append((_refine_root(fx, xs[k0], xs[k0 + 1]), "spinodal"))
             else:  # T diverges here: two branches, each running to T -> +-infinity
-                cuts.append((_pole_side(th, P, pole, xs[k0], -1), "pole"))
-                cuts.append((_pole_side(th, P, pole, xs[k0 + 1], +1), "pole (beyond)"))
+                cuts.append((_pole_side(th, P, pole, xs[k0], -1, T_cap), "pole"))
+                cuts.append((_pole_side(th, P, pole, xs[k0 + 1], +1, T_cap), "pole (beyond)"))
         cuts.append((b, b_end))
         for (xa, ea), (xb, eb) in zip(cuts[:-1], cuts[1:]):
             if eb == "pole (beyond)":  # the gap around a pole holds no state
@@ -375,7 +394,8 @@ def isobar_branches(th: Thermodynamics, P: float, critical_points=(), x_range=No
 
 
 def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 3000,
-                   critical_points=None, warn: bool = True) -> IsobarResult:
+                   critical_points=None, warn: bool = True,
+                   report_excluded: bool = True) -> IsobarResult:
     """Branches, swallowtails, preferred phase and transitions at pressure P.
 
     Parameters
@@ -393,6 +413,10 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     warn : bool
         Issue the result's warnings with :func:`warnings.warn` (the phase diagram passes
         False and issues its own, once). The result carries them either way.
+    report_excluded : bool
+        Report which states the binding's conditions leave out, by condition and range
+        (``excluded``, see :func:`bhchem.analysis.admissibility.excluded_states`); analyses
+        that only need the transitions pass False.
 
     Returns
     -------
@@ -472,7 +496,7 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
             idx = np.nonzero(ok[:-1] & ok[1:] & (sd[:-1] * sd[1:] < 0))[0]
             for k in idx:
                 T = _refine_crossing(G_of, i, j, Ts[k], Ts[k + 1])
-                if T is not None:
+                if T is not None and not _is_cusp(branches, i, j, T):
                     crossings.append((T, i, j))
 
     # the global minimum of G over the locally stable branches (C_P > 0) and the
@@ -525,7 +549,25 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     return IsobarResult(pressure=P, parameters=dict(th.values), branches=tuple(branches),
                         crossings=cross, transitions=tuple(transitions),
                         preferred=tuple(segments), background=bg_name,
-                        state_range=tuple(xr), message=msg, warnings=tuple(warnings))
+                        state_range=tuple(xr), message=msg, warnings=tuple(warnings),
+                        admissibility=th.admissibility.to_dict(),
+                        excluded=excluded_states(th, P, xr) if report_excluded else None)
+
+
+def _is_cusp(branches, i, j, T) -> bool:
+    """Whether T is the spinodal where branches i and j meet (the cusp of a swallowtail:
+    the same state on both, so equal G without a crossing).  The background (an index past
+    the branches) has no cusp."""
+    if i >= len(branches) or j >= len(branches):
+        return False
+    bi, bj = branches[i], branches[j]
+    for xa, ka, Ta in ((bi.x_min, bi.ends[0], bi.T_at_x_min), (bi.x_max, bi.ends[1], bi.T_at_x_max)):
+        for xb, kb, Tb in ((bj.x_min, bj.ends[0], bj.T_at_x_min),
+                           (bj.x_max, bj.ends[1], bj.T_at_x_max)):
+            if ka == kb == "spinodal" and abs(xa - xb) <= 1e-9 * abs(xa) \
+                    and abs(T - Ta) <= 1e-9 * abs(Ta):
+                return True
+    return False
 
 
 def _refine_crossing(G_of, i, j, Ta, Tb):

@@ -73,6 +73,10 @@ from bhchem.analysis.isobar import (Transition, analyze_isobar, branch_state_at,
 from bhchem.analysis.critical import loop_side, resolve_pressure_range
 from bhchem.analysis.consistency import emit, first_law_warnings, line_check_warnings
 from bhchem.numerics import brentq, minimize_scalar
+from bhchem.analysis.admissibility import exclusion_summary
+
+#: pressures (geometric across the diagram's range) at which the excluded states are reported
+N_EXCLUSION_PRESSURES = 12
 
 if TYPE_CHECKING:  # annotations only; networkx itself is loaded when a graph is built
     import networkx as nx
@@ -195,6 +199,10 @@ class PhaseDiagram(Result):
     message: str
     warnings: list = field(default_factory=list)
     events: list = field(default_factory=list)
+    #: the binding's admissibility selection (``Admissibility.to_dict()``)
+    admissibility: dict = field(default_factory=dict)
+    #: what each active condition leaves out across the pressure range (ExclusionSummary)
+    exclusions: object = None
 
     @property
     def n_distinct_phases(self) -> int:
@@ -974,7 +982,8 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
         P = float(P)
         if P not in isos:
             try:
-                isos[P] = analyze_isobar(th, P, critical_points=cps, warn=False)
+                isos[P] = analyze_isobar(th, P, critical_points=cps, warn=False,
+                                         report_excluded=False)
             except StateDomainError:
                 isos[P] = None
         return isos[P]
@@ -1109,7 +1118,9 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
                         pressure_range=(lo, hi), lines=lines, critical_points=cps,
                         triple_points=triple_points, regions=regions, graph=graph,
                         structure=structure, structure_hash=h, message=msg, warnings=warnings,
-                        events=[e for e in events if e.relevant])
+                        events=[e for e in events if e.relevant],
+                        admissibility=th.admissibility.to_dict(),
+                        exclusions=exclusion_summary(th, np.geomspace(lo, hi, N_EXCLUSION_PRESSURES)))
 
 
 def _name_partners(lines) -> None:
@@ -1409,7 +1420,7 @@ def takes_part_in_transition(th: Thermodynamics, cp, eps: float = 1e-4) -> bool 
     if res is None:
         return False
     T, x1, x2 = res
-    iso = analyze_isobar(th, P, warn=False)
+    iso = analyze_isobar(th, P, warn=False, report_excluded=False)
     for t in iso.transitions:
         if t.kind == "first-order" and abs(t.T - T) <= 1e-8 * T:
             return True

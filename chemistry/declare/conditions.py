@@ -146,6 +146,14 @@ class Admissibility:
         return {"set": self.set_name, "active": list(self.active),
                 "dropped": list(self.dropped), "removed": list(self.removed)}
 
+    @classmethod
+    def from_dict(cls, doc: dict) -> "Admissibility":
+        """Inverse of :meth:`to_dict` (an empty record is the default selection)."""
+        if not doc:
+            return cls(DEFAULT_SET, ())
+        return cls(doc["set"], tuple(doc["active"]), tuple(doc.get("dropped", ())),
+                   tuple(doc.get("removed", ())))
+
 
 def condition_name_error(family_name: str, name) -> str | None:
     """A one-line complaint when ``name`` is not a valid condition or set name."""

@@ -16,6 +16,13 @@ from bhchem.core.compiled import Thermodynamics
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.present.report_text import EXPONENT_DEFINITIONS
 from bhchem.analysis.exponents import critical_exponents
+from bhchem.declare.conditions import Admissibility
+
+
+def admissibility_line(record: dict) -> str:
+    """``states: default conditions (4 applied)`` or the non-default selection."""
+    adm = Admissibility.from_dict(record)
+    return f"states: {adm.label()} ({len(adm.active)} applied)"
 
 
 def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
@@ -49,7 +56,8 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
             "convention": search.convention, "completeness": search.completeness,
             "method": search.method, "scanned_range": search.scanned_range,
             "converged": search.converged, "message": search.message,
-            "critical_points": points, "warnings": list(search.warnings)}
+            "critical_points": points, "warnings": list(search.warnings),
+            "admissibility": search.admissibility}
 
 
 def _finite(v) -> bool:
@@ -62,7 +70,8 @@ def _g(v) -> str:
 
 def critical_text(doc: dict) -> str:
     params = ", ".join(f"{k} = {v:g}" for k, v in doc["parameters"].items())
-    lines = [f"{doc['family']} ({params})", f"  {doc['message']}", f"  method: {doc['method']}"]
+    lines = [f"{doc['family']} ({params})", f"  {doc['message']}", f"  method: {doc['method']}",
+             f"  {admissibility_line(doc.get('admissibility') or {})}"]
     if not doc["critical_points"]:
         lines.append("  no critical point")
     for i, cp in enumerate(doc["critical_points"], 1):

@@ -4,8 +4,19 @@ from __future__ import annotations
 
 import math
 
+from bhchem.analysis.admissibility import describe_range
 from bhchem.analysis.isobar import IsobarResult, StateData
 from bhchem.analysis.phases import PhaseDiagram
+from bhchem.present.critical_report import admissibility_line
+
+
+def _excluded_lines(res: IsobarResult, state: str) -> list:
+    if res.excluded is None:
+        return []
+    if not res.excluded.ranges:
+        return ["  excluded states: none in the searched range"]
+    return ["  excluded states (by condition):"] + [
+        f"    {describe_range(r, state)}" for r in res.excluded.ranges]
 
 
 def isobar_json(res: IsobarResult) -> dict:
@@ -29,13 +40,17 @@ def isobar_json(res: IsobarResult) -> dict:
         "preferred": [{"T_range": [lo, hi], "phase": ph} for lo, hi, ph in res.preferred],
         "message": res.message,
         "warnings": list(res.warnings),
+        "admissibility": res.admissibility,
+        "excluded": None if res.excluded is None else
+        [r.to_dict() for r in res.excluded.ranges],
     }
 
 
 def isobar_text(res: IsobarResult) -> str:
     """Plain-text report of ``bhchem isobar``."""
     params = ", ".join(f"{k} = {v:g}" for k, v in res.parameters.items())
-    lines = [f"isobar P = {res.pressure:.12g} ({params})", f"  {res.message}", "  branches:"]
+    lines = [f"isobar P = {res.pressure:.12g} ({params})", f"  {res.message}",
+             f"  {admissibility_line(res.admissibility)}", "  branches:"]
     for b in res.branches:
         lines.append(f"    [{b.index}] {b.label:<28} x in [{b.x_min:.6g}, {b.x_max:.6g}]  "
                      f"T in [{b.T_min:.6g}, {b.T_max:.6g}]  ends: {b.ends[0]}/{b.ends[1]}")
@@ -52,6 +67,7 @@ def isobar_text(res: IsobarResult) -> str:
         elif t.kind == "zeroth-order":
             extra = f"  jump dG = {t.delta_G:.10g}"
         lines.append(f"    {t.kind:<13} T = {t.T:.12g}  {t.from_phase} -> {t.to_phase}{extra}")
+    lines.extend(_excluded_lines(res, "x"))
     for w in res.warnings:
         lines.append(f"  WARNING: {w}")
     return "\n".join(lines)
@@ -80,6 +96,10 @@ def diagram_json(pd: PhaseDiagram) -> dict:
         "structure_hash": pd.structure_hash,
         "message": pd.message,
         "warnings": pd.warnings,
+        "admissibility": pd.admissibility,
+        "excluded": None if pd.exclusions is None else {
+            "pressures": list(pd.exclusions.pressures),
+            "conditions": [dict(e) for e in pd.exclusions.conditions]},
     }
 
 
@@ -98,7 +118,7 @@ def diagram_text(pd: PhaseDiagram) -> str:
     """Plain-text report of ``bhchem phases``."""
     params = ", ".join(f"{k} = {v:g}" for k, v in pd.parameters.items())
     out = [f"{pd.family} ({params}), P in [{pd.pressure_range[0]:.4g}, {pd.pressure_range[1]:.4g}]",
-           f"  {pd.message}"]
+           f"  {pd.message}", f"  {admissibility_line(pd.admissibility)}"]
     for cp in pd.critical_points:
         out.append(f"  critical point ({cp.kind}): T = {cp.T:.12g}, P = {cp.P:.12g}")
     for tp in pd.triple_points:
@@ -119,6 +139,21 @@ def diagram_text(pd: PhaseDiagram) -> str:
                 for k, v in line.checks.items() if v is not None))
     out.append("  regions: " + ", ".join(r["phase"] for r in pd.regions))
     out.append(f"  distinct phases: {pd.n_distinct_phases}; structure: {pd.structure}")
+    if pd.exclusions is not None and pd.exclusions.conditions:
+        out.append("  excluded states (by condition, over the pressure range):")
+        for e in pd.exclusions.conditions:
+            out.append(f"    {_summary_text(e)}")
     for w in pd.warnings:
         out.append(f"  WARNING: {w}")
     return "\n".join(out)
+
+
+def _summary_text(e: dict) -> str:
+    if e["T_min"] is None:
+        temps = "T not finite"
+    else:
+        lo = "-infinity" if e["T_unbounded"] in ("below", "both") else f"{e['T_min']:.6g}"
+        hi = "+infinity" if e["T_unbounded"] in ("above", "both") else f"{e['T_max']:.6g}"
+        temps = f"T from {lo} to {hi}"
+    return (f"{e['condition']}: x in [{e['x_min']:.6g}, {e['x_max']:.6g}] for P in "
+            f"[{e['P_min']:.6g}, {e['P_max']:.6g}] ({temps})")
