@@ -177,9 +177,7 @@ def excluded_states(th: Thermodynamics, P: float, x_range=None,
                        (lambda name: lambda z: th.condition_holds(name, z, P))(c.name),
                        th.condition_holds(c.name, xs, P)))
     for name, relation, reason, holds, mask in checks:
-        bad = ~np.asarray(mask, dtype=bool)
-        if name != "finite":
-            bad &= finite  # a non-finite state is reported once, under 'finite'
+        bad = ~np.asarray(mask, dtype=bool)  # each condition on its own (ranges may overlap)
         k = 0
         while k < n:
             if not bad[k]:

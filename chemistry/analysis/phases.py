@@ -33,7 +33,8 @@ Algorithm (family-agnostic):
    of one of its branches, or one of the line's branches stops existing at the transition
    temperature; the branch and the partner lines meeting there are named); ``domain edge``
    (a branch ends at a state condition, which is named, or there is no physical state
-   beyond); ``range end``.
+   beyond); ``zero temperature`` (found by bisection, with the coexistence temperature below
+   1e-2 of the line's median: the line meets the T = 0 axis); ``range end``.
 5. *Densify*: first-order lines by the vectorised Newton solver of
    :mod:`bhchem.analysis.coexistence` seeded from the anchors, approaching a critical end down
    to 1 - P/P_c = 1e-10 with the near-critical solver; a zeroth-order line is the end
@@ -74,6 +75,10 @@ from bhchem.analysis.critical import loop_side, resolve_pressure_range
 from bhchem.analysis.consistency import emit, first_law_warnings, line_check_warnings
 from bhchem.numerics import brentq, minimize_scalar
 from bhchem.analysis.admissibility import exclusion_summary
+
+#: a line end found only by bisection whose temperature is below this fraction of the line's
+#: median temperature is where the line meets T = 0 ("zero temperature")
+ZERO_T_FRACTION = 1e-2
 
 #: pressures (geometric across the diagram's range) at which the excluded states are reported
 N_EXCLUSION_PRESSURES = 12
@@ -1075,6 +1080,14 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
                                "search found no cause"}
                 warnings.append(f"{line.kind} line {line.between[0]}/{line.between[1]}: its "
                                 f"{side} end between P = {a:.10g} and {b:.10g} is not explained")
+            Ts_line = sorted(t.T for _, t in members if t.T > 0)
+            if end["type"] == "unexplained" and Ts_line and \
+                    0 <= end["T"] < ZERO_T_FRACTION * Ts_line[len(Ts_line) // 2]:
+                end.update(type="zero temperature",
+                           note=f"the coexistence temperature falls to T = {end['T']:.3g} "
+                                f"({end['T'] / Ts_line[len(Ts_line) // 2]:.1e} of the line's "
+                                "median) as the end is approached: the line meets the T = 0 "
+                                "axis, where both phases are extremal or limiting states")
             if end["type"] == "unexplained" and desc[0] == "event":
                 warnings.append(f"{line.kind} line {line.between[0]}/{line.between[1]} ends at "
                                 f"P = {end['P']:.10g}, where no critical, triple or terminal "
@@ -1414,6 +1427,22 @@ def takes_part_in_transition(th: Thermodynamics, cp, eps: float = 1e-4) -> bool 
     None for degenerate or unphysical points."""
     if cp.kind == "degenerate" or not cp.physical:
         return None
+    if cp.kind == "isolated":
+        # every isotherm passes through the isolated point, and the lines leaving it do not
+        # follow the square-root law the near-critical solver assumes: on either side, a
+        # first-order transition whose states straddle x_c at 1 - P/P_c = 1e-4 and 1e-7,
+        # with |T - T_c| shrinking by at least half between the two, ends at the point
+        for side in (-1, 1):
+            gaps = []
+            for e in (eps, eps * 1e-3):
+                iso = analyze_isobar(th, cp.P * (1 + side * e), warn=False,
+                                     report_excluded=False)
+                gap = [abs(t.T - cp.T) for t in iso.transitions if t.kind == "first-order"
+                       and _straddles(t, cp.x)]
+                gaps.append(min(gap) if gap else None)
+            if None not in gaps and gaps[1] <= 0.5 * gaps[0]:
+                return True
+        return False
     side = loop_side(th, cp)
     P = cp.P * (1 + side * eps)
     res = coexistence_near_critical(th, cp.x, cp.P, P)
@@ -1425,6 +1454,12 @@ def takes_part_in_transition(th: Thermodynamics, cp, eps: float = 1e-4) -> bool 
         if t.kind == "first-order" and abs(t.T - T) <= 1e-8 * T:
             return True
     return False
+
+
+def _straddles(t, x: float) -> bool:
+    """Whether the two coexisting states of a transition lie on either side of x."""
+    xs = [st.x for st in t.states if not math.isnan(st.x)]
+    return len(xs) == 2 and min(xs) < x < max(xs)
 
 
 def _line_checks(pts: list[CoexistencePoint]) -> dict:

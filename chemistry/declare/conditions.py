@@ -196,7 +196,7 @@ def select(family_name: str, names: tuple, sets: dict, chosen=None, without=()) 
     elif chosen in sets:
         members = sets[chosen].members
     else:
-        known = ", ".join([DEFAULT_SET] + sorted(sets))
+        known = ", ".join([DEFAULT_SET] + sorted(n for n in sets if n != DEFAULT_SET))
         raise InvalidArgumentError(
             f"family {family_name} has no condition set {chosen!r}; known sets: {known}")
     unknown = [w for w in without if w not in names]

@@ -109,7 +109,7 @@ def _end_text(e: dict) -> str:
         extra = "; ".join(x for x in (e.get("branch"), ", ".join(e.get("partners", ()))) if x)
     elif e["type"] == "domain edge":
         extra = e.get("condition", "")
-    elif e["type"] == "unexplained":
+    elif e["type"] in ("unexplained", "zero temperature"):
         extra = e.get("note", "")
     return f"{e['type']} (P = {e['P']:.12g}{'; ' + extra if extra else ''})"
 
