@@ -79,6 +79,53 @@ class PvCurves(Result):
 
 
 @dataclass(frozen=True, eq=False)
+class ExcludedCurve:
+    """States one condition excludes, along one isobar, for drawing faintly.
+
+    Attributes
+    ----------
+    panel : int
+        Index of the isobar (pressure) it belongs to.
+    condition : str
+        The condition's name.
+    curve : ndarray (n, 2)
+        Rows (x, T) for the T-x figure, (T, G) for the G-T figure; finite values only.
+    """
+
+    panel: int
+    condition: str
+    curve: np.ndarray
+
+
+def _excluded_curves(th, res, panel: int, x_window, kind: str, T_window=None) -> list:
+    """The excluded ranges of an isobar (``res.excluded``) as curves inside a window."""
+    out = []
+    if res.excluded is None:
+        return out
+    P = res.pressure
+    for rg in res.excluded.ranges:
+        lo, hi = max(rg.x_min, x_window[0]), min(rg.x_max, x_window[1])
+        if hi <= lo:
+            continue
+        xs = np.geomspace(lo, hi, 400)
+        with np.errstate(all="ignore"):
+            T = th.T(xs, P)
+            rows = np.column_stack([xs, T]) if kind == "tr" else \
+                np.column_stack([T, th.G(xs, P)])
+        keep = np.all(np.isfinite(rows), axis=1)
+        if T_window is not None:
+            keep &= (T >= T_window[0]) & (T <= T_window[1])
+        if np.count_nonzero(keep) >= 2:
+            out.append(ExcludedCurve(panel, rg.condition, rows[keep]))
+    return out
+
+
+def _selection_notes(th) -> tuple:
+    adm = th.admissibility
+    return () if adm.is_default else (f"states: {adm.label()}",)
+
+
+@dataclass(frozen=True, eq=False)
 class GtBranch:
     """One branch of an isobar in the G-T plane.
 
@@ -143,6 +190,8 @@ class GtCurves(Result):
     panels: tuple
     P_c: float | None
     notes: tuple = ()
+    #: states excluded by a condition (ExcludedCurve, rows T, G), when asked for
+    excluded: tuple = ()
 
 
 @dataclass(frozen=True, eq=False)
@@ -251,6 +300,8 @@ class TrCurves(Result):
     P_c: float | None
     critical_point: np.ndarray | None
     notes: tuple = ()
+    #: states excluded by a condition (ExcludedCurve, rows x, T), when asked for
+    excluded: tuple = ()
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -421,7 +472,7 @@ def coexistence_at_temperature(th, cp, T, solver=coexistence_near_critical):
 
 
 # -- G-T isobars -----------------------------------------------------------------------------
-def gt_curves(th, pressures=None) -> GtCurves:
+def gt_curves(th, pressures=None, show_excluded: bool = False) -> GtCurves:
     """G-T isobars: every branch, the globally preferred phase and the transitions.
 
     Parameters
@@ -429,6 +480,9 @@ def gt_curves(th, pressures=None) -> GtCurves:
     th : Thermodynamics
     pressures : sequence of float, optional
         Default :func:`default_pressures`.
+    show_excluded : bool
+        Also return the states the binding's conditions exclude (``excluded``), inside
+        each panel's temperature window, to be drawn faintly and labelled by condition.
 
     Returns
     -------
@@ -436,8 +490,16 @@ def gt_curves(th, pressures=None) -> GtCurves:
     """
     cp = scale_point(th)
     pressures = pressures or default_pressures(th, cp)
-    return GtCurves(**_identity(th), panels=tuple(_gt_panel(th, P, cp) for P in pressures),
-                    P_c=cp.P if cp is not None else None)
+    panels, excluded = [], []
+    for i, P in enumerate(pressures):
+        panel = _gt_panel(th, P, cp)
+        panels.append(panel)
+        if show_excluded:
+            res = analyze_isobar(th, P)
+            excluded += _excluded_curves(th, res, i, res.state_range, "gt", panel.T_window)
+    return GtCurves(**_identity(th), panels=tuple(panels),
+                    P_c=cp.P if cp is not None else None, notes=_selection_notes(th),
+                    excluded=tuple(excluded))
 
 
 def _gt_panel(th, P, cp) -> GtPanel:
@@ -604,7 +666,7 @@ def _regions(th, Tmax, Pmax):
 
 
 # -- T-r+ isobars and C_P --------------------------------------------------------------------
-def tr_curves(th, pressures=None) -> TrCurves:
+def tr_curves(th, pressures=None, show_excluded: bool = False) -> TrCurves:
     """T along isobars against the state variable, over 0.2 to 6 times x_c.
 
     Parameters
@@ -612,6 +674,9 @@ def tr_curves(th, pressures=None) -> TrCurves:
     th : Thermodynamics
     pressures : sequence of float, optional
         Default :func:`default_pressures`.
+    show_excluded : bool
+        Also return the states the binding's conditions exclude (``excluded``), to be
+        drawn faintly and labelled by condition.
 
     Returns
     -------
@@ -620,9 +685,11 @@ def tr_curves(th, pressures=None) -> TrCurves:
     cp = scale_point(th)
     pressures = pressures or default_pressures(th, cp)
     x_c = cp.x if cp is not None else th.typical_state()
-    isobars = []
-    for P in pressures:
+    isobars, excluded = [], []
+    for i, P in enumerate(pressures):
         res = analyze_isobar(th, P)
+        if show_excluded:
+            excluded += _excluded_curves(th, res, i, (0.2 * x_c, 6 * x_c), "tr")
         branches = []
         for b in res.branches:
             lo, hi = max(b.x_min, 0.2 * x_c), min(b.x_max, 6 * x_c)
@@ -635,7 +702,8 @@ def tr_curves(th, pressures=None) -> TrCurves:
         isobars.append(tuple(branches))
     return TrCurves(**_identity(th), pressures=tuple(float(P) for P in pressures),
                     isobars=tuple(isobars), P_c=cp.P if cp is not None else None,
-                    critical_point=np.array([cp.x, cp.T]) if cp is not None else None)
+                    critical_point=np.array([cp.x, cp.T]) if cp is not None else None,
+                    notes=_selection_notes(th), excluded=tuple(excluded))
 
 
 def cp_curves(th, pressure=None) -> CpCurves:

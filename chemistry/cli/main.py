@@ -221,6 +221,10 @@ def cmd_plot(args) -> int:
             kw["pressures"] = P
         else:
             raise BhchemError(f"--pressure does not apply to a '{args.kind}' plot")
+    if args.show_excluded:
+        if args.kind not in ("gt", "tr"):
+            raise BhchemError(f"--show-excluded applies to gt and tr plots, not '{args.kind}'")
+        kw["show_excluded"] = True
     res = make_figure(th, args.kind, **kw)
     with output_lock(args.output):
         for note in clean_stale(args.output):
@@ -376,6 +380,9 @@ def build_parser() -> argparse.ArgumentParser:
                    help="output file (.png, .pdf or .svg)")
     p.add_argument("--pressure", action="append", metavar="P",
                    help="pressure(s) for gt/tr/cp (absolute or like 0.5Pc; repeatable)")
+    p.add_argument("--show-excluded", action="store_true",
+                   help="gt, tr: draw the states the conditions exclude, faintly, labelled by "
+                        "the condition")
     p.set_defaults(func=cmd_plot)
 
     p = sub.add_parser("report", parents=[common],

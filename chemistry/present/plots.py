@@ -233,6 +233,8 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
             drawn[f"P{i}_branch{b.index}"] = b.curve[np.isfinite(b.curve[:, 0])]
         if p.preferred:
             drawn[f"P{i}_preferred"] = np.vstack(p.preferred)
+    for e in data.excluded:
+        drawn[f"P{e.panel}_excluded_{e.condition}"] = e.curve
     _check_nonempty({k: v[:, 1] for k, v in drawn.items()}, "G-T isobars")
     cols = 2 if n > 1 else 1
     rows = math.ceil(n / cols)
@@ -257,6 +259,7 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
             for seg in p.preferred:
                 a.plot(seg[:, 0], seg[:, 1], "-", color=PALETTE[0], lw=2.4,
                        solid_capstyle="butt")
+            _draw_excluded(a, data.excluded, i)
             for T, G in p.transitions:
                 a.plot([T], [G], "o", ms=3.5, color=PALETTE[1], zorder=5)
             if p.G_window is not None:
@@ -274,7 +277,7 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
             for j in range(n, rows * cols):
                 grid[j].set_visible(False)
             fig.legend(handles=handles, loc="lower center", ncol=3, bbox_to_anchor=(0.5, -0.02))
-            fig.suptitle(figure_title(data), y=1.0)
+            fig.suptitle(figure_title(data, _selection(data)), y=1.0)
             fig.tight_layout(rect=(0, 0.05, 1, 1))
         else:
             grid[n - 1].legend(handles=handles, loc="best")
@@ -369,6 +372,24 @@ def _draw_inset(ax, data: PtDiagram):
 
 
 # -- T-r+ isobars and C_P --------------------------------------------------------------------
+def _selection(data) -> str:
+    """'; states: conditions: ...' when the figure's binding is not the default selection."""
+    return "".join(f"; {n}" for n in getattr(data, "notes", ()) if n.startswith("states:"))
+
+
+def _draw_excluded(ax, curves, panel) -> None:
+    """States excluded by a condition: faint, thin, labelled by the condition's name at the
+    middle of each curve (``panel`` None: every curve)."""
+    for e in curves:
+        if panel is not None and e.panel != panel:
+            continue
+        ax.plot(e.curve[:, 0], e.curve[:, 1], "-", color="0.75", lw=0.8, alpha=0.8, zorder=0)
+        mid = e.curve[len(e.curve) // 2]
+        ax.annotate(f"excluded: {e.condition}", mid, fontsize=6, color="0.45",
+                    xytext=(2, 2), textcoords="offset points", zorder=0,
+                    annotation_clip=True)
+
+
 def plot_tr(data: TrCurves, ax=None) -> PlotResult:
     """T along isobars against the horizon radius (or the state variable); unstable
     branches (C_P < 0) dotted.
@@ -396,13 +417,16 @@ def plot_tr(data: TrCurves, ax=None) -> PlotResult:
             for b in iso:
                 ax.plot(b.curve[:, 0], b.curve[:, 1], "-" if b.stable else ":", color=color,
                         label=label if b.last else None)
+        _draw_excluded(ax, data.excluded, None)
+        for e in data.excluded:
+            drawn[f"P{e.panel}_excluded_{e.condition}"] = e.curve
         if data.critical_point is not None:
             x_c, T_c = data.critical_point
             ax.plot([x_c], [T_c], "o", color="black", ms=5, label="critical point")
             ax.set_ylim(0, 2.2 * T_c)
         ax.set_xlabel(rf"${_state_label(data.state)}$")
         ax.set_ylabel(r"temperature $T$")
-        ax.set_title(figure_title(data, "; dotted: $C_P<0$"))
+        ax.set_title(figure_title(data, "; dotted: $C_P<0$" + _selection(data)))
         ax.legend(loc="lower right")
     return PlotResult(fig, "tr", drawn, list(data.notes))
 
