@@ -52,6 +52,28 @@ upper zero of Upsilon' (when disc >= 0): Upsilon is monotonic if disc < 0 (or bo
 couplings vanish); otherwise the Einstein branch needs k/r+^2 > g* and Upsilon(g*) < 0; at
 exactly disc = 0 the branch below g* is regular too when sup_{r >= r+} of
 m/r^(d-1) - q^2/r^(2d-4) stays below Upsilon(g*).
+
+These are two named conditions: ``horizon-on-einstein-branch`` (Upsilon'(k/r+^2) > 0) and
+``regular-exterior`` (the branch logic above).  What the default set excludes at the
+fine-tuned hyperbolic couplings (k = -1, alpha~3 = alpha~2^2/3, Q = 0), and why: Upsilon is
+then monotonic with Upsilon'(g) = (1 + alpha~2 g)^2, so g(r) is unique, but near
+g* = -1/alpha~2 it behaves as g - g* ~ (m/r^(d-1) - Upsilon(g*))^(1/3): f is continuous while
+f' diverges, a curvature singularity at the radius where m/r^(d-1) = Upsilon(g*).  With
+Upsilon(g*) = alpha~0 - 1/(3 alpha~2), i.e. of the sign of P - P_c:
+
+* P > P_c: every hole with r+ > sqrt(alpha~2) (m > 0, g decreasing from g_h > g* to the
+  vacuum g_vac < g*) crosses g* outside its horizon -- excluded; the small holes
+  r+ < sqrt(alpha~2) are regular.
+* P < P_c: every hole with r+ < sqrt(alpha~2) (then m < 0 and g increases from g_h < g* to
+  g_vac > g*) crosses g* outside its horizon -- excluded; the large holes are regular.
+
+So at every pressure only one side of r+ = sqrt(alpha~2) is admissible and no two phases
+coexist.  The set ``thermodynamic`` drops ``regular-exterior`` (naked singularities outside
+the horizon count); under it the two first-order small/large lines of DKKM14 end at the
+isolated critical point (tests/test_admissibility.py, with an independent 40-digit check
+of the coexistence temperatures, and the independent integration of g(r) that confirms
+the condition exactly).  The papers' own statement of their conditions was not available
+to us (only their abstracts were); the set is named for what it is, not for the papers.
 """
 import sympy as sp
 
@@ -141,8 +163,8 @@ FAMILY = Family(
                      "the thermodynamic conditions alone (S > 0, T >= 0, horizon on the "
                      "Einstein branch), without regularity of the exterior: states with a "
                      "naked curvature singularity outside the horizon count",
-                     "conditions under which the hyperbolic structures of DKKM14 and FKMS14 "
-                     "are reproduced (see tests/test_lovelock3_ads.py)"),
+                     "the set under which the two first-order lines of DKKM14 (CQG 31 (2014) "
+                     "242001) are reproduced, tests/test_admissibility.py"),
     ),
     conventions={
         "coupling": "alpha2, alpha3 are the bare Lovelock couplings of the action (alpha2 = the "

@@ -801,18 +801,23 @@ def _dense_first_order(th, line, members, grid, warnings, isobar):
     # where a branch of the line stops (terminal, triple point, domain edge), T(P) has a
     # (P - P_end)^(3/2) term: the Clapeyron step stays well inside.  (Towards a critical
     # point the step stays 1e-3 P; a step that crosses P_c gives no value, as before.)
-    stops = [e["P"] for e in line.ends.values() if e["type"] not in ("critical point",
-                                                                     "range end")]
+    # An isolated critical point is a stop too: its lines leave it non-analytically.
+    stops = [e["P"] for e in line.ends.values() if e["type"] != "range end" and not (
+        e["type"] == "critical point" and getattr(e.get("_cp"), "kind", "") != "isolated")]
     pts, failed = [], []
     for P, x1, x2, good, s1, s2 in zip(grid, a, b, ok & near, lo_, hi_):
         if not good:
             pair = None
-            for t in _transitions(isobar(float(P))):
-                if t.kind == "first-order":
-                    q = tuple(sorted(_oriented(t)))
-                    if max(abs(math.log(q[0] / s1)), abs(math.log(q[1] / s2))) < 0.5:
-                        pair = q
-                        break
+            firsts = [t for t in _transitions(isobar(float(P))) if t.kind == "first-order"]
+            named = [t for t in firsts if (t.from_phase, t.to_phase) == tuple(line.between)]
+            if len(named) == 1:  # the line's own transition (its seeds may be poor, e.g.
+                # where one state runs to x -> 0 as the line approaches T = 0)
+                pair = tuple(sorted(_oriented(named[0])))
+            for t in firsts if pair is None else ():
+                q = tuple(sorted(_oriented(t)))
+                if max(abs(math.log(q[0] / s1)), abs(math.log(q[1] / s2))) < 0.5:
+                    pair = q
+                    break
             if pair is None:
                 failed.append(float(P))
                 continue
