@@ -35,6 +35,7 @@ from bhchem.errors import (BhchemError, BhchemWarning, DuplicateFamilyError, Fam
                            UnknownFamilyError, UnknownParameterError)
 from bhchem.declare.domain import Domain
 from bhchem.declare.family import Family, Parameter
+from bhchem.declare.conditions import Admissibility, Condition, ConditionSet
 from bhchem.declare.registry import (available_families, get_family, load_family_file,
                                      register)
 from bhchem.core.derive import Derivation, derive
@@ -46,6 +47,8 @@ from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.critical_scan import CriticalScan, critical_scan
 from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_exponents
 from bhchem.analysis.isobar import IsobarResult, Transition, analyze_isobar
+from bhchem.analysis.admissibility import (ExcludedRange, Exclusions, ExclusionSummary,
+                                           excluded_states, exclusion_summary)
 from bhchem.analysis.coexistence_line import CoexistenceCurve, coexistence_curve
 from bhchem.analysis.phases import PhaseDiagram, PhaseLine, TriplePoint, phase_diagram
 from bhchem.analysis.figure_data import (CpCurves, GtCurves, PtDiagram, PvCurves, TrCurves,
@@ -60,6 +63,9 @@ __all__ = [
     # declaring families
     "Domain", "Family", "Parameter", "available_families", "get_family",
     "load_family_file", "register",
+    # which states count
+    "Condition", "ConditionSet", "Admissibility",
+    "ExcludedRange", "Exclusions", "ExclusionSummary", "excluded_states", "exclusion_summary",
     # derivation and checks
     "Derivation", "derive", "State", "Thermodynamics", "bind",
     "FirstLawResult", "SmarrResult", "check_first_law", "check_smarr",

@@ -290,3 +290,16 @@ def test_cli_phases_json_carries_the_selection(tmp_path):
     assert doc["admissibility"]["set"] == "thermodynamic"
     assert "excluded" in doc and doc["excluded"]["conditions"][0]["condition"] == \
         "nonnegative-temperature"
+
+
+def test_scan_records_and_applies_the_selection(tmp_path):
+    from bhchem.workflows.atlas import parse_grid, scan
+    with pytest.raises(InvalidArgumentError, match="no condition 'nope'"):
+        scan("schwarzschild-ads", [parse_grid("d=4:5:2")], {}, str(tmp_path / "a"),
+             without=("nope",))
+    doc = scan("schwarzschild-ads", [parse_grid("d=4:5:2")], {}, str(tmp_path / "b"),
+               without=("positive-entropy",), refine=0)
+    assert doc["conditions"]["removed"] == ["positive-entropy"]
+    import json
+    manifest = json.loads((tmp_path / "b" / "manifest.json").read_text())
+    assert manifest["conditions"]["active"] == ["nonnegative-temperature"]

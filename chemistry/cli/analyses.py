@@ -93,7 +93,11 @@ def parse_cycle(text: str, parse_pressure=None, th=None) -> list:
     return out
 
 
-def _finish(args, doc: dict, text: str, figure) -> int:
+def _finish(args, doc: dict, text: str, figure, th=None) -> int:
+    if th is not None:  # the selection of states the result rests on
+        doc = {**doc, "admissibility": th.admissibility.to_dict()}
+        if not th.admissibility.is_default:
+            text = f"{text}\nstates: {th.admissibility.label()}"
     if args.output:
         path = save(figure(), args.output)
         print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
@@ -131,14 +135,14 @@ def register(sub, common, helpers: dict) -> None:
         Pmax = parse_pressure(args.pressure_max, th) if args.pressure_max else None
         res = joule_thomson_expansion(th, masses=masses, pressure_max=Pmax)
         return _finish(args, expansion_json(res), expansion_text(res),
-                       lambda: plot_expansion(res, th))
+                       lambda: plot_expansion(res, th), th)
 
     def cmd_engine(args) -> int:
         th = bound(args)
         corners = parse_cycle(args.cycle, parse_pressure, th)
         res = analyze_cycle(th, corners)
         return _finish(args, engine_json(res), engine_text(res),
-                       lambda: plot_cycle(cycle_curves(th, res)))
+                       lambda: plot_cycle(cycle_curves(th, res)), th)
 
     def cmd_curvature(args) -> int:
         th = bound(args)
@@ -150,7 +154,7 @@ def register(sub, common, helpers: dict) -> None:
             has_cp = any(c.kind == "standard" for c in find_critical_points(th).physical)
             amp = critical_amplitude(th) if has_cp else None
         return _finish(args, curvature_json(th, amp), curvature_text(th, amp),
-                       lambda: plot_curvature(cmap, th))
+                       lambda: plot_curvature(cmap, th), th)
 
     p = sub.add_parser("expansion", parents=[common],
                        help="Joule-Thomson expansion: isenthalps, inversion curve, T_i,min/T_c")

@@ -3,7 +3,8 @@ the declarative file format with its safe expression parser, and the registry.
 
 A family module imports from here and from nothing else in bhchem.
 """
+from bhchem.declare.conditions import Condition, ConditionSet
 from bhchem.declare.domain import Domain
 from bhchem.declare.family import Family, Parameter
 
-__all__ = ["Domain", "Family", "Parameter"]
+__all__ = ["Condition", "ConditionSet", "Domain", "Family", "Parameter"]

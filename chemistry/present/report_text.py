@@ -182,8 +182,19 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
     if eos.get("latex"):
         lines.append(f"- equation of state ({eos['form']}): $P = {eos['latex']}$")
     lines += ["", f"**First law**: {doc['first_law']['message']}", "",
-              f"**Smarr relation**: {doc['smarr']['message']}", "",
-              "## Critical points", "", doc["critical"]["message"], ""]
+              f"**Smarr relation**: {doc['smarr']['message']}", ""]
+    if doc.get("conditions"):
+        adm = doc.get("admissibility") or {}
+        lines += ["## Which states count", "",
+                  f"Condition set `{adm.get('set', 'default')}`"
+                  + (f" without {', '.join(adm['removed'])}" if adm.get("removed") else "")
+                  + "; a state counts when it satisfies every applied condition.", "",
+                  "| condition | applied | why | source |", "| --- | --- | --- | --- |"]
+        for c in doc["conditions"]:
+            lines.append(f"| `{c['name']}` | {'yes' if c['active'] else 'no'} | {c['reason']} | "
+                         f"{c['reference']} |")
+        lines.append("")
+    lines += ["## Critical points", "", doc["critical"]["message"], ""]
     cps = doc["critical"]["critical_points"]
     if cps:
         lines += ["| # | kind | physical | on preferred branch | T_c | P_c | v_c | P_c v_c/T_c | critical exponents α, β, γ, δ |",

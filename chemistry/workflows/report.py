@@ -90,6 +90,8 @@ def compute_results(th: Thermodynamics, progress=None) -> tuple[dict, object]:
         "equation_of_state": show["equation_of_state"],
         "first_law": show["first_law"],
         "smarr": show["smarr"],
+        "admissibility": show["admissibility"],
+        "conditions": show["conditions"],
         "critical": {k: crit[k] for k in ("completeness", "method", "message", "converged",
                                           "critical_points")},
         "phases": phases,
