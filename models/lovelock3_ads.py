@@ -72,7 +72,9 @@ coexist.  The set ``thermodynamic`` drops ``regular-exterior`` (naked singularit
 the horizon count); under it the two first-order small/large lines of DKKM14 end at the
 isolated critical point (tests/test_admissibility.py, with an independent 40-digit check
 of the coexistence temperatures, and the independent integration of g(r) that confirms
-the condition exactly).  The papers' own statement of their conditions was not available
+the condition exactly); so is a small/large/small/large isobar (FKMS14's multiple
+reentrance) at alpha~2 = 2.4, alpha~3 = 1, P = 0.0616, whose first step is zeroth order onto
+the large branch's S = 0 end.  The papers' own statement of their conditions was not available
 to us (only their abstracts were); the set is named for what it is, not for the papers.
 """
 import sympy as sp
@@ -164,7 +166,8 @@ FAMILY = Family(
                      "Einstein branch), without regularity of the exterior: states with a "
                      "naked curvature singularity outside the horizon count",
                      "the set under which the two first-order lines of DKKM14 (CQG 31 (2014) "
-                     "242001) are reproduced, tests/test_admissibility.py"),
+                     "242001) and a small/large/small/large isobar as in FKMS14 (JHEP 09 "
+                     "(2014) 080) are reproduced, tests/test_admissibility.py"),
     ),
     conventions={
         "coupling": "alpha2, alpha3 are the bare Lovelock couplings of the action (alpha2 = the "

@@ -303,3 +303,57 @@ def test_scan_records_and_applies_the_selection(tmp_path):
     import json
     manifest = json.loads((tmp_path / "b" / "manifest.json").read_text())
     assert manifest["conditions"]["active"] == ["nonnegative-temperature"]
+
+
+# -- FKMS14's multiple reentrance under the thermodynamic conditions ------------------------
+FKMS = dict(d=7, k=-1, alpha2=0.2, alpha3=1 / 24, Q=0.0)   # alpha~2 = 2.4, alpha~3 = 1
+P_FKMS = 0.0616
+
+
+def test_fkms_multiple_reentrant_isobar_small_large_small_large():
+    """Frassino, Kubiznak, Mann & Simovic, JHEP 09 (2014) 080, arXiv:1406.7015 (abstract):
+    "for fixed pressure the small/large/small/large black hole phase transition occurs as the
+    temperature of the system increases".  Found here for hyperbolic d = 7, alpha = alpha~2 /
+    sqrt(alpha~3) = 2.4 (the couplings and pressure are ours: the papers' figures could not be
+    read), in a narrow window around P = 0.0616, under the ``thermodynamic`` set.  The first
+    step is zeroth order onto the large branch's end, where S = 0 exactly (r+ = sqrt(5)); the
+    other two are first order.  Checked against an independent 40-digit solution (mpmath; M, S,
+    T written here from the Lovelock polynomial)."""
+    th = bind("lovelock3-ads", conditions="thermodynamic", **FKMS)
+    res = analyze_isobar(th, P_FKMS)
+    assert [ph for _, _, ph in res.preferred] == ["small", "large", "small", "large"]
+    kinds = [t.kind for t in res.transitions]
+    assert kinds == ["zeroth-order", "first-order", "first-order"]
+
+    mp.mp.dps = 40
+    a2, a3, P = mp.mpf("2.4"), mp.mpf(1), mp.mpf(P_FKMS)
+
+    def M(x):
+        return 5 / (16 * mp.pi) * (16 * mp.pi * P * x**6 / 30 - x**4 + a2 * x**2 - a3)
+
+    def S(x):
+        return x**5 / 4 * (1 - 10 * a2 / (3 * x**2) + 15 * a3 / x**4)
+
+    def T(x):
+        return (16 * mp.pi * P * x**6 / 5 - 4 * x**4 + 2 * a2 * x**2) / (
+            4 * mp.pi * x * (x**4 - 2 * a2 * x**2 + 3 * a3))
+
+    def G(x):
+        return M(x) - T(x) * S(x)
+    # zeroth order: the large branch starts where S = 0, r+^2 = 5 (roots of
+    # x^2 - (10/3) a2 x + 15 a3 = 0 with x = r^2: 3 and 5)
+    assert abs(S(mp.sqrt(5))) < mp.mpf(10) ** -35
+    zeroth = res.transitions[0]
+    assert zeroth.T == pytest.approx(float(T(mp.sqrt(5))), rel=1e-10)
+    assert max(s.x for s in zeroth.states) == pytest.approx(math.sqrt(5), rel=1e-10)
+    for t in res.transitions[1:]:
+        xs = sorted(s.x for s in t.states)
+        x1, x2 = mp.findroot(lambda u, w: [T(u) - T(w), G(u) - G(w)],
+                             (mp.mpf(xs[0]), mp.mpf(xs[1])))
+        assert t.T == pytest.approx(float(T(x1)), rel=1e-10)
+        assert xs == pytest.approx([float(x1), float(x2)], rel=1e-9)
+    # the default conditions exclude every small state here (a naked singularity outside
+    # the horizon): one phase, no transition
+    default = analyze_isobar(bind("lovelock3-ads", **FKMS), P_FKMS)
+    assert not default.transitions
+    assert {r.condition for r in default.excluded.ranges} >= {"regular-exterior"}
