@@ -372,14 +372,30 @@ def _G_on_grid(th, P, br: Branch, Ts: np.ndarray, m: int = 4000) -> np.ndarray:
             step = np.where(Tx != 0, (th.T(x, P) - Ts[inside]) / Tx, 0.0)
             x = np.clip(x - np.nan_to_num(step), br.x_min, br.x_max)
         G = th.G(x, P)
-        bad = ~(np.abs(th.T(x, P) - Ts[inside]) <= 1e-9 * np.abs(Ts[inside])) | ~np.isfinite(G)
+        # near T = 0 the temperature itself carries an absolute round-off of order 1e-16
+        # of the branch's scale: accept to 1e-9 relative or 1e-12 of that scale
+        T_floor = 1e-12 * max(abs(br.T_min), abs(br.T_max))
+        bad = ~(np.abs(th.T(x, P) - Ts[inside]) <= 1e-9 * np.abs(Ts[inside]) + T_floor) \
+            | ~np.isfinite(G)
     # states the interpolation could not reach (a branch whose T varies over many decades):
-    # Brent's method on the monotone branch, for at most 400 of them; the rest stay NaN
-    for k in np.nonzero(bad)[0][:400]:
-        xk = branch_state_at(th, P, br, float(Ts[inside][k]))
-        G[k] = float(th.G(xk, P)) if xk is not None else np.nan
-    if np.count_nonzero(bad) > 400:
-        G[np.nonzero(bad)[0][400:]] = np.nan
+    # bisection on the monotone branch, all of them at once (in log x, 120 halvings: to
+    # round-off), then the same acceptance test; what still fails stays NaN
+    if np.any(bad):
+        target = Ts[inside][bad]
+        lo = np.full(target.shape, math.log(br.x_min))
+        hi = np.full(target.shape, math.log(br.x_max))
+        rising = br.T_at_x_max >= br.T_at_x_min
+        with np.errstate(all="ignore"):
+            for _ in range(120):
+                mid = 0.5 * (lo + hi)
+                above = th.T(np.exp(mid), P) > target
+                go_left = above if rising else ~above
+                hi = np.where(go_left, mid, hi)
+                lo = np.where(go_left, lo, mid)
+            xb = np.exp(0.5 * (lo + hi))
+            Gb = th.G(xb, P)
+            ok = np.abs(th.T(xb, P) - target) <= 1e-9 * np.abs(target) + T_floor
+        G[bad] = np.where(ok & np.isfinite(Gb), Gb, np.nan)
     out[inside] = G
     return out
 
