@@ -186,15 +186,20 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
               "## Critical points", "", doc["critical"]["message"], ""]
     cps = doc["critical"]["critical_points"]
     if cps:
-        lines += ["| # | kind | physical | on preferred branch | T_c | P_c | v_c | P_c v_c/T_c | critical exponents α, β, γ, δ |",
-                  "| --- | --- | --- | --- | --- | --- | --- | --- | --- |"]
+        lines += ["| # | kind | physical | on preferred branch | T_c | P_c | v_c | P_c v_c/T_c | critical exponents α, β, γ, δ | topological charge |",
+                  "| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |"]
         for i, cp in enumerate(cps, 1):
             ex = cp.get("exponents")
             exs = ", ".join(ex[k] or "–" for k in ("alpha", "beta", "gamma", "delta")) if ex else "–"
             pref = {True: "yes", False: "no", None: "–"}[cp.get("on_preferred_branch")]
             lines.append(f"| {i} | {cp['kind']} | {'yes' if cp['physical'] else 'no'} | {pref} | "
-                         f"{g(cp['T'])} | {g(cp['P'])} | {g(cp['v'])} | {g(cp['ratio'])} | {exs} |")
+                         f"{g(cp['T'])} | {g(cp['P'])} | {g(cp['v'])} | {g(cp['ratio'])} | {exs} | "
+                         f"{_charge_cell(cp.get('topological_charge'))} |")
         lines.append("")
+        tot = doc["critical"].get("topological_charge")
+        if tot and tot.get("total") is not None:
+            lines += [f"Total topological charge of the physical critical points: "
+                      f"{tot['total']:+d} ({tot['convention']}).", ""]
         if any(cp.get("exponents") for cp in cps):
             lines += ["Critical exponents (not parameters): " + "; ".join(
                 f"exponent {k} ({EXPONENT_DEFINITIONS[k]})" for k in EXPONENT_DEFINITIONS)
@@ -224,6 +229,13 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
         lines += [f"![{caption}]({name}.png)", "", f"*{caption}* (also `{name}.pdf`)", ""]
     lines += ["Tables for the paper: `tables.tex`; every number with provenance: `results.json`.", ""]
     return "\n".join(lines)
+
+
+def _charge_cell(tc) -> str:
+    """A critical point's topological charge for the report table."""
+    if not tc or tc.get("charge") is None:
+        return "–"
+    return f"{tc['charge']:+d} ({tc['kind']})" + ("" if tc.get("agree") else " DISAGREES")
 
 
 # -- the bundle ----------------------------------------------------------------------------------
