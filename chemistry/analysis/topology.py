@@ -271,8 +271,14 @@ class TopologyResult(Result):
     W: int | None
     converged: bool
     message: str
+    curve: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
     convention: dict = field(default_factory=lambda: dict(CONVENTION))
     warnings: tuple = ()
+
+    def to_dict(self) -> dict:
+        d = super().to_dict()
+        d.pop("curve", None)   # figure data, not a result
+        return d
 
 
 # -- the off-shell field -----------------------------------------------------------------------------
@@ -466,7 +472,7 @@ def thermodynamic_topology(th: Thermodynamics, P: float, taus=(), n_per_interval
     else:
         cls, W = _CLASSES[(inner, outer)]
         cls_text = (f"class {cls} (innermost branch {'stable' if inner > 0 else 'unstable'}, "
-                    f"outermost {'stable' if outer > 0 else 'unstable'}), W = {W:+d}")
+                    f"outermost {'stable' if outer > 0 else 'unstable'}), W = {W}")
     problems = []
     if not all(s.agree for s in samples):
         bad = [s.tau for s in samples if not s.agree]
@@ -486,12 +492,23 @@ def thermodynamic_topology(th: Thermodynamics, P: float, taus=(), n_per_interval
            f"{len(gen)} generation/annihilation point(s)"
            + (f" (W conserved at each)" if gen and all(e.W_conserved for e in gen) else "")
            + f"; zeros per tau: {', '.join(map(str, n_zero_counts))}")
-    warnings = tuple(f"WARNING: {p}" for p in problems)
+    warnings = tuple(problems)
+    # tau(x) for the figure, around every event and sampled zero
+    marks = [e.x for e in events] + [z.x for smp in samples for z in smp.zeros]
+    x_lo, x_hi = branches[0].x_min, branches[-1].x_max
+    if marks:
+        x_lo, x_hi = max(x_lo, min(marks) / 10), min(x_hi, max(marks) * 10)
+    xs = np.geomspace(x_lo, x_hi, 800)
+    ok = th.physical(xs, P)
+    with np.errstate(all="ignore"):
+        tau_x = 1.0 / th.T(xs[ok], P)
+    curve = np.column_stack([xs[ok], tau_x])
+    curve = curve[np.isfinite(curve[:, 1]) & (curve[:, 1] > 0)]
     return TopologyResult(family=th.family.name, parameters=dict(th.values), pressure=P,
                           state_variable=th.derivation.state.name, branches=tuple(bw),
                           samples=samples, events=tuple(events), tau_limits=limits,
                           topological_class=cls, W=W, converged=converged, message=msg,
-                          warnings=warnings)
+                          curve=curve, warnings=warnings)
 
 
 # -- critical points ----------------------------------------------------------------------------

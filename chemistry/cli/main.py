@@ -34,6 +34,7 @@ from bhchem.workflows.atlas import parse_grid, scan
 from bhchem.version import __version__
 from bhchem.workflows.figures import KINDS
 from bhchem.cli.analyses import register
+from bhchem.cli.topology import register as register_topology
 
 EXIT_USAGE = 2
 
@@ -392,8 +393,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_demo)
 
-    register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
-                           "BhchemError": BhchemError})
+    helpers = {"bound": _bound, "parse_pressure": parse_pressure, "BhchemError": BhchemError}
+    register(sub, common, helpers)
+    register_topology(sub, common, helpers)
     return parser
 
 

@@ -127,7 +127,7 @@ def critical_text(doc: dict) -> str:
     tot = doc.get("topological_charge")
     if tot and tot["total"] is not None:
         lines.append(f"  total topological charge of the physical critical points: "
-                     f"{tot['total']:+d} (Wei & Liu 2022: conventional -1, novel +1)")
+                     f"{tot['total'] if tot['total'] == 0 else format(tot['total'], '+d')} (Wei & Liu 2022: conventional -1, novel +1)")
     for w in doc.get("warnings", ()):
         lines.append(f"  WARNING: {w}")
     return "\n".join(lines)

@@ -199,7 +199,7 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
         tot = doc["critical"].get("topological_charge")
         if tot and tot.get("total") is not None:
             lines += [f"Total topological charge of the physical critical points: "
-                      f"{tot['total']:+d} ({tot['convention']}).", ""]
+                      f"{tot['total'] if tot['total'] == 0 else format(tot['total'], '+d')} ({tot['convention']}).", ""]
         if any(cp.get("exponents") for cp in cps):
             lines += ["Critical exponents (not parameters): " + "; ".join(
                 f"exponent {k} ({EXPONENT_DEFINITIONS[k]})" for k in EXPONENT_DEFINITIONS)
