@@ -15,10 +15,13 @@ F_x = M_x - S_x/tau = 0, i.e. tau = 1/T(x) (T = M_x/S_x).  The winding number of
 is the number of turns of the field's angle around a small contour enclosing it; it is
 computed here **as that contour integral** (:func:`contour_winding`: the angle of phi
 sampled around a rectangle in the (x, Theta) plane, refined until no step exceeds
-pi/4) **and** from the sign formula w = sign(det d phi) = sign(F_xx) = sign(T_x S_x)
+pi/4; F_x is measured in the unit S_x(x_i)/tau of the zero, a positive constant that
+changes no winding number) **and** from the sign formula w = sign(det d phi) = sign(F_xx) = sign(T_x S_x)
 (= sign C_P: +1 stable, -1 unstable); the two must agree.  The topological number W(tau)
 is their sum; it is also computed as one contour integral around the whole physical
-domain (x over each connected physical piece at this P, Theta in [0.01, pi - 0.01]).
+domain (x over each connected physical piece at this P, Theta in [0.01, pi - 0.01]), of
+the field with F_x divided by the positive S_x/tau (same zeros, same indices; F_x itself
+spans too many decades across the domain for a sampled angle).
 
 State variable.  WLM22 write phi in r+.  Here x is the family's own state variable (r+
 for every family declared in r; the entropy S for the rotating families).  Zeros and
@@ -84,6 +87,8 @@ CONVENTION = {
 
 #: most angle samples one contour may use (a count, not a time)
 MAX_CONTOUR_POINTS = 20000
+#: most bisection rounds of a contour's samples (a segment is halved at most this often)
+MAX_BISECTIONS = 40
 #: largest angle step (radians) between neighbouring samples of a converged contour
 MAX_ANGLE_STEP = math.pi / 4
 #: a slope |d ln T / d ln x| below this over the last decade of the search range means
@@ -159,9 +164,9 @@ def contour_winding(field, x_range, theta_range, n_side: int = 64,
 
     s = np.linspace(0.0, 4.0, 4 * n_side + 1)
     ang, bad = angle(s)
-    while True:
+    for _ in range(MAX_BISECTIONS):
         d = np.angle(np.exp(1j * np.diff(ang)))
-        big = np.nonzero(np.abs(d) > MAX_ANGLE_STEP)[0]
+        big = np.nonzero((np.abs(d) > MAX_ANGLE_STEP) & (np.diff(s) > 1e-12))[0]
         if big.size == 0 or len(s) + big.size > max_points or bad:
             break
         mid = 0.5 * (s[big] + s[big + 1])
@@ -282,12 +287,23 @@ class TopologyResult(Result):
 
 
 # -- the off-shell field -----------------------------------------------------------------------------
-def off_shell_field(th: Thermodynamics, P: float, tau: float):
-    """phi(x, Theta) = (F_x, -cot Theta csc Theta) with F = M - S/tau at pressure P."""
+def off_shell_field(th: Thermodynamics, P: float, tau: float, unit: float = 1.0,
+                    normalised: bool = False):
+    """phi(x, Theta) = (F_x / unit, -cot Theta csc Theta) with F = M - S/tau at pressure P.
+
+    ``unit`` (> 0) is the unit of F_x: F_x and the angular component have different
+    dimensions, and a zero at a large x would otherwise sit in a field whose angle turns
+    within a relative width ~1e-16 (a positive constant changes no winding number).
+    ``normalised``: F_x divided by the positive S_x/tau at every x, i.e. tau T - 1 (the
+    same zeros and winding numbers; used for the contour around a whole domain, across
+    which F_x spans many decades)."""
 
     def field(x, theta):
-        Fx = th.d("M", "x", x, P) - th.d("S", "x", x, P) / tau
-        return Fx, -np.cos(theta) / np.sin(theta) ** 2
+        Sx = th.d("S", "x", x, P)
+        Fx = th.d("M", "x", x, P) - Sx / tau
+        if normalised:
+            Fx = Fx / (Sx / tau)
+        return Fx / unit, -np.cos(theta) / np.sin(theta) ** 2
 
     return field
 
@@ -297,7 +313,9 @@ def free_energy_off_shell(th: Thermodynamics, x, P: float, tau: float) -> np.nda
     return th.M(x, P) - th.S(x, P) / tau
 
 
-def _x_range(th: Thermodynamics, P: float) -> tuple:
+def search_range(th: Thermodynamics, P: float) -> tuple:
+    """The state range searched at pressure P (the isobar's, or around the family's scale
+    at P = 0, the asymptotically flat limit)."""
     if P > 0:
         return state_range(th, P)
     x0 = th.typical_state()
@@ -316,7 +334,8 @@ def _pieces(branches) -> list:
 
 
 def _zero_winding(th, P, tau, x, h) -> Contour:
-    return contour_winding(off_shell_field(th, P, tau), (x - h, x + h),
+    unit = abs(float(th.d("S", "x", x, P))) / tau or 1.0    # the scale of M_x and S_x/tau
+    return contour_winding(off_shell_field(th, P, tau, unit), (x - h, x + h),
                            (math.pi / 2 - 0.5, math.pi / 2 + 0.5))
 
 
@@ -326,7 +345,7 @@ def zeros_at(th: Thermodynamics, P: float, tau: float, branches=None) -> TauSamp
     if not (tau > 0 and math.isfinite(tau)):
         raise BhchemError(f"tau = {tau!r} must be a positive finite inverse temperature")
     if branches is None:
-        branches = find_branches(th, P, _x_range(th, P))
+        branches = find_branches(th, P, search_range(th, P))
     T = 1.0 / tau
     found = []
     for br in branches:
@@ -354,7 +373,7 @@ def zeros_at(th: Thermodynamics, P: float, tau: float, branches=None) -> TauSamp
     # one contour around each physical piece (its sides just inside the piece)
     Wc = 0
     ok = True
-    fld = off_shell_field(th, P, tau)
+    fld = off_shell_field(th, P, tau, normalised=True)
     for lo, hi in pieces:
         a, b = lo * (1 + 1e-9), hi * (1 - 1e-9)
         c = contour_winding(fld, (a, b), (0.01, math.pi - 0.01))
@@ -414,7 +433,7 @@ def thermodynamic_topology(th: Thermodynamics, P: float, taus=(), n_per_interval
     P = float(P)
     if not (P >= 0 and math.isfinite(P)):
         raise BhchemError(f"pressure {P!r} must be finite and >= 0")
-    xr = _x_range(th, P)
+    xr = search_range(th, P)
     branches = find_branches(th, P, xr)
     if not branches:
         raise BhchemError(f"{th.family.name}: no physical state at P = {P:g} in "
