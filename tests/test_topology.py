@@ -111,15 +111,17 @@ def test_born_infeld_critical_point_charges():
     # -1, novel ones +1.  Born-Infeld-AdS at Q = 1, b = 0.4 has two; the (r+, P, T) values
     # are the tool's own critical points (already checked in tests/test_born_infeld_ads.py)
     th = bind("born-infeld-ads", Q=1.0, b=0.4)
-    cps = sorted(find_critical_points_on_branches(th).physical, key=lambda c: c.x)
+    cps = sorted(find_critical_points(th).physical, key=lambda c: c.x)
     assert len(cps) == 2
     expected = [((1.1142, 0.0020161, 0.040493), 1, "novel"),
                 ((2.0809, 0.0038075, 0.045890), -1, "conventional")]
+    charges = []
     for cp, ((r, P, T), q, kind) in zip(cps, expected):
         assert (cp.r, cp.P, cp.T) == pytest.approx((r, P, T), rel=5e-5)
-        ch = cp.topological_charge
+        ch = critical_point_charge(th, cp)
         assert ch.charge == q and ch.sign_formula == q and ch.agree and ch.kind == kind
-    assert sum(cp.topological_charge.charge for cp in cps) == 0
+        charges.append(ch.charge)
+    assert sum(charges) == 0
 
 
 def test_charged_ads_critical_point_is_conventional():
@@ -139,10 +141,13 @@ def test_charged_ads_critical_point_is_conventional():
 
 
 def test_critical_cli_reports_charges(capsys):
-    assert main(["critical", "born-infeld-ads", "-p", "Q=1,b=0.4"]) == 0
+    # wired through find_critical_points_on_branches into the API, text and JSON
+    (cp,) = find_critical_points_on_branches(bind("rn-ads", Q=1.0)).physical
+    assert cp.topological_charge.charge == -1
+    assert main(["critical", "rn-ads"]) == 0
     out = capsys.readouterr().out
-    assert "topological charge +1 (novel" in out and "topological charge -1 (conventional" in out
-    assert "total topological charge of the physical critical points: 0" in out
+    assert "topological charge -1 (conventional; contour integral and sign formula agree)" in out
+    assert "total topological charge of the physical critical points: -1" in out
     assert main(["critical", "rn-ads", "--json"]) == 0
     doc = json.loads(capsys.readouterr().out)
     assert doc["critical_points"][0]["topological_charge"]["charge"] == -1
@@ -273,3 +278,20 @@ def test_bad_input_is_one_line(argv, capsys):
     err = capsys.readouterr().err
     assert code == 2
     assert len(err.strip().splitlines()) == 1 and "Traceback" not in err
+
+
+def test_report_topology_section():
+    # the report bundle's issue-16 part (``bhchem report --topology``), without the bundle
+    from bhchem.present.report_text import report_md
+    from bhchem.workflows.report import topology_results
+    doc, figures = topology_results(bind("rn-ads", Q=1.0))
+    assert doc["topology"]["class"] == "W^{1+}" and doc["landscape"]["first_passage"]["converged"]
+    assert [n for n, _, _ in figures] == ["tau", "landscape", "first-passage"]
+    fake = {"family": {"name": "rn-ads", "summary": "", "reference": ""}, "parameters": {},
+            "provenance": {"version": "0", "date": "today"}, "convention": {},
+            "quantities": {}, "equation_of_state": {}, "first_law": {"message": ""},
+            "smarr": {"message": ""}, "critical": {"message": "", "critical_points": []},
+            "phases": {"structure": "", "graph": {"distinct_phases": 1}, "message": "",
+                       "lines": [], "triple_points": [], "warnings": []}, **doc}
+    md = report_md(fake, [], 6)
+    assert "## Thermodynamic topology" in md and "W^{1+}" in md

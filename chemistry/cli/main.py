@@ -219,7 +219,7 @@ def cmd_report(args) -> int:
     try:
         path = write_report(th, args.output, digits=args.digits, force=args.force,
                             progress=progress, include_unphysical=args.include_unphysical,
-                            notify=_note)
+                            notify=_note, topology=args.topology)
     except OSError as exc:  # e.g. disk full: nothing was moved into place
         print(f"bhchem: error: the report {args.output} was not written ({exc}); any "
               f"earlier folder there is untouched", file=sys.stderr)
@@ -368,6 +368,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--include-unphysical", action="store_true",
                    help="list unphysical critical points in tables.tex too (default: "
                         "physical only; results.json and report.md list all)")
+    p.add_argument("--topology", action="store_true",
+                   help="add thermodynamic topology, the free-energy landscape and the "
+                        "first-passage time (figures tau, landscape, first-passage)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_report)
 

@@ -14,8 +14,7 @@ from bhchem.errors import BhchemError
 from bhchem.present.serialize import to_json
 from bhchem.present.plots import save
 from bhchem.analysis.critical import find_critical_points
-from bhchem.analysis.isobar import analyze_isobar
-from bhchem.analysis.landscape import first_passage, free_energy_landscape
+from bhchem.workflows.topology import default_pressure, landscape_run
 from bhchem.analysis.topology import critical_point_charge, thermodynamic_topology
 from bhchem.present.topology_plots import plot_first_passage, plot_landscape, plot_tau
 from bhchem.present.topology_text import (landscape_json, landscape_text, topology_json,
@@ -37,8 +36,7 @@ def _pressure(args, th, parse_pressure) -> float:
     """--pressure (0 allowed for topology: the flat limit), default 0.5 P_c or the family's
     typical pressure."""
     if args.pressure is None:
-        cps = find_critical_points(th).physical
-        return 0.5 * cps[0].P if cps else th.typical_pressure()
+        return default_pressure(th)
     if args.pressure.strip() in ("0", "0.0") and args.command == "topology":
         return 0.0
     return parse_pressure(args.pressure, th)
@@ -71,36 +69,17 @@ def register(sub, common, helpers: dict) -> None:
     def cmd_landscape(args) -> int:
         th = bound(args)
         P = _pressure(args, th, parse_pressure)
-        note = ""
-        if args.temperature is not None:
-            T_E = _number(args.temperature, "temperature")
-        else:
-            iso = analyze_isobar(th, P, warn=False)
-            tr = next((t for t in iso.transitions
-                       if t.kind in ("first-order", "hawking-page")), None)
-            if tr is None:
-                raise BhchemError(f"no first-order or Hawking-Page transition at P = {P:g}: "
-                                  f"give the ensemble temperature with --temperature")
-            T_E = tr.T
-            note = f"the {tr.kind} transition temperature at this P"
-        ls = free_energy_landscape(th, T_E, P)
-        fp = None
-        inner = [i for i, e in enumerate(ls.extrema)
-                 if e.kind == "barrier" and 0 < i < len(ls.extrema) - 1]
-        if inner:
-            start = args.start
-            if start == "auto":
-                ib = max(inner, key=lambda i: ls.extrema[i].G_L)
-                start = "large" if ls.extrema[ib - 1].edge else "small"
-            fp = first_passage(th, T_E, P, start=start, target=args.target, landscape=ls)
+        T_E = _number(args.temperature, "temperature") if args.temperature is not None else None
+        run = landscape_run(th, P, T_E, start=args.start, target=args.target)
+        ls, fp = run.landscape, run.passage
         figs = [(args.output, lambda: plot_landscape(ls))]
         if args.distribution:
             if fp is None:
                 raise BhchemError("--distribution: no first passage at these T_E, P "
                                   "(no barrier between two wells)")
             figs.append((args.distribution, lambda: plot_first_passage(fp)))
-        return _emit(args, landscape_json(ls, fp, note), landscape_text(ls, fp, note), figs,
-                     th.family)
+        return _emit(args, landscape_json(ls, fp, run.note), landscape_text(ls, fp, run.note),
+                     figs, th.family)
 
     def family_args(p, figure_help):
         p.add_argument("family", help="family name (see 'bhchem families')")

@@ -224,11 +224,47 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
                      f"({', '.join(tp['phases'])})")
     for w in ph["warnings"]:
         lines.append(f"- WARNING: {w}")
+    lines += _topology_md(doc)
     lines += ["", "## Figures", ""]
     for name, caption in figures:
         lines += [f"![{caption}]({name}.png)", "", f"*{caption}* (also `{name}.pdf`)", ""]
     lines += ["Tables for the paper: `tables.tex`; every number with provenance: `results.json`.", ""]
     return "\n".join(lines)
+
+
+def _topology_md(doc: dict) -> list:
+    """The report's section on issue 16, when the bundle was asked for it; and the
+    isoperimetric verdict (always)."""
+    out = []
+    iso = doc.get("isoperimetric")
+    if iso:
+        out += ["", f"**Reverse isoperimetric ratio**: {iso['message']}."]
+    topo = doc.get("topology")
+    if not topo:
+        return out
+    out += ["", "## Thermodynamic topology", "",
+            f"At P = {topo['pressure']:.6g}: "
+            + (f"class {topo['class']}, topological number W = {topo['W']}"
+               if topo["class"] else "outside the four classes (W depends on tau)")
+            + f"; {topo['message']}.", ""]
+    for e in topo["events"]:
+        out.append(f"- {e['kind']} at tau = {e['tau']:.6g}: W {e['W_below']} below, "
+                   f"{e['W_above']} above")
+    ls = doc.get("landscape")
+    if ls:
+        out += ["", f"Free-energy landscape at T_E = {ls['temperature']:.6g} "
+                f"({ls['note'] or 'given'}): {ls['message']}."]
+        fp = ls.get("first_passage")
+        if fp:
+            td = fp["mfpt_time_dependent"]
+            out.append(f"Mean first-passage time (units of zeta): {fp['message']}; "
+                       f"time-dependent solution {'-' if td is None else format(td, '.6g')}"
+                       + ("" if fp["kramers_time"] is None
+                          else f"; Kramers {fp['kramers_time']:.6g}") + ".")
+            out += [f"- WARNING: {w}" for w in fp["warnings"]]
+    elif doc.get("landscape_note"):
+        out += ["", f"No landscape: {doc['landscape_note']}."]
+    return out
 
 
 def _charge_cell(tc) -> str:
