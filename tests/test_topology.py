@@ -140,6 +140,16 @@ def test_charged_ads_critical_point_is_conventional():
     assert (ch.charge, ch.sign_formula, ch.kind) == (-1, -1, "conventional")
 
 
+def test_degenerate_point_has_index_0_by_the_contour():
+    # uncharged Gauss-Bonnet-AdS in d = 6 has a degenerate solution of the critical
+    # conditions (no loop forms): T~ has an inflection there, so the index is 0 (a zero
+    # where the field does not turn; exact), and T~'' = 0 silences the sign formula
+    th = bind("gauss-bonnet-ads", Q=0.0, d=6)
+    (cp,) = [c for c in find_critical_points(th).points if c.kind == "degenerate"]
+    ch = critical_point_charge(th, cp)
+    assert ch.charge == 0 and ch.sign_formula is None and ch.kind.startswith("degenerate")
+
+
 def test_critical_cli_reports_charges(capsys):
     # wired through find_critical_points_on_branches into the API, text and JSON
     (cp,) = find_critical_points_on_branches(bind("rn-ads", Q=1.0)).physical

@@ -536,7 +536,8 @@ class CriticalCharge:
     """The topological charge of one critical point (WL22), both ways.
 
     ``charge`` is the contour integral (None when it could not be computed), ``sign_formula``
-    sign(T~ T~''), ``kind`` 'conventional' (-1) or 'novel' (+1)."""
+    sign(T~ T~'') (None at a degenerate point, where T~'' = 0), ``kind`` 'conventional' (-1),
+    'novel' (+1) or 'degenerate (index 0)'; ``agree``: both computed and equal."""
 
     charge: int | None
     sign_formula: int | None
@@ -591,8 +592,11 @@ def critical_point_charge(th: Thermodynamics, cp: CriticalPoint) -> CriticalChar
         Txxx = float(th.d("T", "xxx", x, P))
         TxP = float(th.d("T", "xP", x, P))
         second = -Tp * Txxx / TxP
+    # at a degenerate point (an even-multiplicity root: no loop forms) T~'' vanishes and
+    # its computed sign is rounding noise: the sign formula is silent there
+    flat = cp.kind == "degenerate" or not abs(second) > 1e-8 * cp.T / cp.x**2
     s = int(np.sign(second * cp.T)) if math.isfinite(second) else 0
-    sign = s if s != 0 else None
+    sign = None if (flat or s == 0) else s
     c = None
     for frac in (1e-2, 1e-3, 1e-4):
         c = contour_winding(critical_field(th, P), (x * (1 - frac), x * (1 + frac)),
@@ -602,7 +606,8 @@ def critical_point_charge(th: Thermodynamics, cp: CriticalPoint) -> CriticalChar
     charge = c.winding if c is not None and c.converged else None
     note = "" if charge is not None else "contour did not converge"
     if sign is None:
-        note = (note + "; " if note else "") + "T~'' = 0: degenerate zero (sign formula silent)"
+        note = (note + "; " if note else "") + ("T~'' = 0 at this degenerate zero: the sign "
+                                                "formula is silent, the contour integral decides")
     q = charge if charge is not None else sign
-    kind = {-1: "conventional", 1: "novel"}.get(q)
+    kind = {-1: "conventional", 1: "novel", 0: "degenerate (index 0)"}.get(q)
     return CriticalCharge(charge, sign, bool(charge is not None and charge == sign), kind, note)

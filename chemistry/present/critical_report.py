@@ -102,9 +102,13 @@ def critical_text(doc: dict) -> str:
             if tc["charge"] is None:
                 lines.append(f"      topological charge: {tc['note']}")
             else:
-                both = "contour integral and sign formula agree" if tc["agree"] else \
-                    f"DISAGREES with the sign formula ({tc['sign_formula']})"
-                lines.append(f"      topological charge {tc['charge']:+d} ({tc['kind']}; {both})")
+                both = ("contour integral and sign formula agree" if tc["agree"] else
+                        "contour integral only: the sign formula is silent here"
+                        if tc["sign_formula"] is None else
+                        f"DISAGREES with the sign formula ({tc['sign_formula']})")
+                q = tc["charge"]
+                lines.append(f"      topological charge {q if q == 0 else format(q, '+d')} "
+                             f"({tc['kind']}; {both})")
         if cp["note"]:
             lines.append(f"      note: {cp['note']}")
         if "exponents" in cp:

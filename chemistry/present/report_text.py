@@ -271,7 +271,10 @@ def _charge_cell(tc) -> str:
     """A critical point's topological charge for the report table."""
     if not tc or tc.get("charge") is None:
         return "–"
-    return f"{tc['charge']:+d} ({tc['kind']})" + ("" if tc.get("agree") else " DISAGREES")
+    q = tc["charge"]
+    silent = tc.get("sign_formula") is None
+    return f"{q if q == 0 else format(q, '+d')} ({tc['kind']})" + (
+        "" if tc.get("agree") or silent else " DISAGREES")
 
 
 # -- the bundle ----------------------------------------------------------------------------------

@@ -26,6 +26,7 @@ from __future__ import annotations
 import math
 
 from bhchem.analysis.topology import TopologyResult
+from bhchem.analysis.critical import counts_as_critical_point
 from bhchem.analysis.landscape import FirstPassage, Landscape
 from bhchem.core.results import plain
 
@@ -57,7 +58,8 @@ def topology_json(res: TopologyResult, critical=()) -> dict:
     (CriticalPoint, CriticalCharge)."""
     cps = [{"T": cp.T, "P": cp.P, "x": cp.x, "r": cp.r, "kind": cp.kind,
             "physical": cp.physical, "topological_charge": plain(ch)} for cp, ch in critical]
-    charges = [ch.charge for cp, ch in critical if cp.physical and ch.charge is not None]
+    charges = [ch.charge for cp, ch in critical
+               if counts_as_critical_point(cp) and ch.charge is not None]
     return {"family": res.family, "parameters": res.parameters, "pressure": res.pressure,
             "state_variable": res.state_variable, "convention": res.convention,
             "class": res.topological_class, "W": res.W, "tau_limits": res.tau_limits,
@@ -110,13 +112,17 @@ def topology_text(res: TopologyResult, critical=()) -> str:
             if ch.charge is None:
                 what = ch.note
             else:
-                what = (f"charge {ch.charge:+d} ({ch.kind}; "
+                what = (f"charge {_s(ch.charge)} ({ch.kind}; "
                         + ("contour integral and sign formula agree)" if ch.agree else
+                           "contour integral only: " + ch.note + ")"
+                           if ch.sign_formula is None else
                            f"sign formula {_s(ch.sign_formula)} DISAGREES)"))
-                if cp.physical:
+                if counts_as_critical_point(cp):
                     charges.append(ch.charge)
+            flag = "" if cp.physical else " (unphysical)"
+            flag += " (degenerate: not a critical point)" if cp.kind == "degenerate" else ""
             out.append(f"    T_c = {cp.T:.10g}, P_c = {cp.P:.10g}, {x}_c = {cp.x:.6g}"
-                       f"{'' if cp.physical else ' (unphysical)'}: {what}")
+                       f"{flag}: {what}")
         if charges:
             out.append(f"    total charge of the physical critical points: {_s(sum(charges))}")
     out.append(f"  {res.message}")
