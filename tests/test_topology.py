@@ -305,3 +305,22 @@ def test_report_topology_section():
                        "lines": [], "triple_points": [], "warnings": []}, **doc}
     md = report_md(fake, [], 6)
     assert "## Thermodynamic topology" in md and "W^{1+}" in md
+
+
+@pytest.mark.parametrize("argv", [
+    ["topology", "rn-ads", "--pressure", "1e-300"],
+    ["landscape", "rn-ads", "--pressure", "1e300", "--temperature", "1"],
+])
+def test_unrepresentable_pressures_are_refused(argv, capsys):
+    assert main(argv) == 2
+    assert "decades from the family's scale" in capsys.readouterr().err
+
+
+def test_huge_barrier_gives_logarithms_not_inf(capsys):
+    # Schwarzschild-AdS at P = 1e-6: the Hawking-Page barrier is ~3e4 T_E; <t> ~ 10^12067
+    # is beyond double precision: its log10 is given, never inf
+    assert main(["landscape", "schwarzschild-ads", "--pressure", "1e-6", "--json"]) == 0
+    fp = json.loads(capsys.readouterr().out)["first_passage"]
+    assert fp["mfpt_integral"] is None and fp["kramers_time"] is None
+    assert 12000 < fp["log10_mfpt"] < 12200
+    assert any("beyond double precision" in w for w in fp["warnings"])

@@ -59,6 +59,7 @@ from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError
 from bhchem.analysis.isobar import branch_state_at, find_branches, state_range
+from bhchem.analysis.topology import check_pressure_scale
 
 #: barrier (in units of T_E) from which Kramers' formula is offered
 KRAMERS_MIN_BARRIER = 5.0
@@ -151,6 +152,7 @@ def free_energy_landscape(th: Thermodynamics, T_E: float, P: float, n: int = 600
         raise BhchemError(f"ensemble temperature {T_E!r} must be positive and finite")
     if not (P > 0 and math.isfinite(P)):
         raise BhchemError(f"pressure {P!r} must be positive and finite")
+    check_pressure_scale(th, P)
     branches = find_branches(th, P, state_range(th, P))
     if not branches:
         raise BhchemError(f"{th.family.name}: no physical state at P = {P:g}")
@@ -172,9 +174,14 @@ def free_energy_landscape(th: Thermodynamics, T_E: float, P: float, n: int = 600
                             Tx * Sx))
     # the ends of the physical domain: a well where G_L rises inwards
     lo, hi = branches[0], branches[-1]
+    notes = []
     for x_end, inward, kind in ((lo.x_min, 1, lo.ends[0]), (hi.x_max, -1, hi.ends[1])):
         slope = float(th.d("M", "x", x_end, P)) - T_E * float(th.d("S", "x", x_end, P))
-        if slope * inward > 0:
+        if slope * inward > 0 and kind == "range" and inward < 0:
+            # falling towards the end of the search range: unbounded, not a well
+            notes.append("G_L falls without bound towards large "
+                         f"{th.derivation.state.name} (T_E above every black hole there)")
+        elif slope * inward > 0:
             # at the small end of the search range the state is the limit x -> 0
             x_at = 0.0 if (kind == "range" and inward > 0) else float(x_end)
             G_end = float(G(x_end))
@@ -190,13 +197,18 @@ def free_energy_landscape(th: Thermodynamics, T_E: float, P: float, n: int = 600
     b = min(x_hi, max(inner) * 3)
     xs = np.linspace(x_lo if (ext and ext[0].edge) else a, b, n)
     xs = xs[th.physical(xs, P)]
+    G_xs = np.asarray(G(xs), float)
+    xs, G_xs = xs[np.isfinite(G_xs)], G_xs[np.isfinite(G_xs)]
     nw = sum(e.kind == "well" for e in ext)
     nb = len(ext) - nw
+    ok &= all(math.isfinite(e.G_L) for e in ext)
+    ext = [e for e in ext if math.isfinite(e.G_L)]
     msg = (f"G_L at T_E = {T_E:.6g}, P = {P:.6g}: {nw} well(s), {nb} barrier(s)"
+           + "".join(f"; {n}" for n in notes)
            + ("" if alternate else "; WARNING: wells and barriers do not alternate"))
     return Landscape(family=th.family.name, parameters=dict(th.values), temperature=T_E,
                      pressure=P, state_variable=th.derivation.state.name, x=xs,
-                     G_L=np.asarray(G(xs), float), extrema=tuple(ext), converged=bool(ok),
+                     G_L=G_xs, extrema=tuple(ext), converged=bool(ok),
                      message=msg)
 
 
@@ -421,8 +433,13 @@ def first_passage(th: Thermodynamics, T_E: float, P: float, start: str = "small"
                         f"double integral is given")
     k = kt = None
     if w0.curvature is not None and bar.curvature is not None and height >= KRAMERS_MIN_BARRIER:
-        k = math.sqrt(w0.curvature * abs(bar.curvature)) / (2 * math.pi) * math.exp(-height)
-        kt = 1.0 / k if target == "well" else 0.5 / k
+        log_k = math.log(math.sqrt(w0.curvature * abs(bar.curvature)) / (2 * math.pi)) - height
+        log_kt = -log_k + (0.0 if target == "well" else math.log(0.5))
+        if log_kt < MAX_EXPONENT:
+            k, kt = math.exp(log_k), math.exp(log_kt)
+        else:
+            warnings.append(f"Kramers time 10^{log_kt / math.log(10):.1f} zeta is beyond double "
+                            f"precision: not given as a number")
     elif height < KRAMERS_MIN_BARRIER:
         warnings.append(f"barrier {height:.3g} T_E < {KRAMERS_MIN_BARRIER:g} T_E: too low for "
                         f"Kramers' formula (no rate given)")

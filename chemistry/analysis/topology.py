@@ -87,6 +87,8 @@ CONVENTION = {
 
 #: most angle samples one contour may use (a count, not a time)
 MAX_CONTOUR_POINTS = 20000
+#: farthest a pressure may be from the family's typical pressure (decades)
+MAX_PRESSURE_DECADES = 40
 #: most bisection rounds of a contour's samples (a segment is halved at most this often)
 MAX_BISECTIONS = 40
 #: largest angle step (radians) between neighbouring samples of a converged contour
@@ -313,6 +315,15 @@ def free_energy_off_shell(th: Thermodynamics, x, P: float, tau: float) -> np.nda
     return th.M(x, P) - th.S(x, P) / tau
 
 
+def check_pressure_scale(th: Thermodynamics, P: float) -> None:
+    """Refuse (one line) a pressure more than MAX_PRESSURE_DECADES from the family's own."""
+    P_typ = th.typical_pressure()
+    if P > 0 and abs(math.log10(P / P_typ)) > MAX_PRESSURE_DECADES:
+        raise BhchemError(f"pressure {P:g} is more than {MAX_PRESSURE_DECADES} decades from the "
+                          f"family's scale ({P_typ:.3g}): its states are not representable in "
+                          f"double precision; results are scale-free, rescale the parameters")
+
+
 def search_range(th: Thermodynamics, P: float) -> tuple:
     """The state range searched at pressure P (the isobar's, or around the family's scale
     at P = 0, the asymptotically flat limit)."""
@@ -348,10 +359,14 @@ def zeros_at(th: Thermodynamics, P: float, tau: float, branches=None) -> TauSamp
         branches = find_branches(th, P, search_range(th, P))
     T = 1.0 / tau
     found = []
+    unresolved = False
     for br in branches:
         if not (br.T_min < T < br.T_max):
             continue
-        x = branch_state_at(th, P, br, T)
+        try:
+            x = branch_state_at(th, P, br, T)
+        except (RuntimeError, ValueError):   # Brent's method did not converge (a count)
+            x, unresolved = None, True
         if x is None:
             continue
         found.append((x, br))
@@ -380,7 +395,7 @@ def zeros_at(th: Thermodynamics, P: float, tau: float, branches=None) -> TauSamp
         ok &= c.converged
         Wc += c.winding
     W_contour = Wc if ok else None
-    agree = bool(all(z.agree for z in zeros) and W_contour == W)
+    agree = bool(all(z.agree for z in zeros) and W_contour == W and not unresolved)
     return TauSample(tau=float(tau), zeros=tuple(zeros), W=W, W_contour=W_contour, agree=agree)
 
 
@@ -433,6 +448,7 @@ def thermodynamic_topology(th: Thermodynamics, P: float, taus=(), n_per_interval
     P = float(P)
     if not (P >= 0 and math.isfinite(P)):
         raise BhchemError(f"pressure {P!r} must be finite and >= 0")
+    check_pressure_scale(th, P)
     xr = search_range(th, P)
     branches = find_branches(th, P, xr)
     if not branches:
