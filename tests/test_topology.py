@@ -257,6 +257,16 @@ def test_super_entropic_states_flagged_in_show(capsys, tmp_path):
     iso = json.loads(capsys.readouterr().out)["isoperimetric"]
     assert iso["super_entropic"] is True
     assert iso["R_min"] == pytest.approx(0.5 ** (1 / 3), rel=1e-12)
+    # and on the T-r figure: every drawn state is marked (none for charged AdS)
+    from bhchem import load_family_file
+    from bhchem.analysis.figure_data import tr_curves
+    from bhchem.present.plots import plot_tr
+    (fam,) = load_family_file(f)
+    data = tr_curves(bind(fam), pressures=[0.01])
+    n = sum(len(b.curve) for iso_ in data.isobars for b in iso_)
+    assert len(data.super_entropic) == n > 0
+    assert "super_entropic" in plot_tr(data).data
+    assert len(tr_curves(bind("rn-ads", Q=1.0), pressures=[0.002]).super_entropic) == 0
 
 
 # -- command line ------------------------------------------------------------------------------

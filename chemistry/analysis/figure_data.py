@@ -27,7 +27,7 @@ hold NaN there (a gap when drawn).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -39,6 +39,7 @@ from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.numerics import brentq, isotherm_pressure
 from bhchem.analysis.isobar import analyze_isobar, branch_state_at
 from bhchem.analysis.phases import phase_diagram
+from bhchem.analysis.isoperimetric import TOLERANCE as ISO_TOLERANCE, isoperimetric_ratio
 
 
 FIGURE_KINDS = ("pv", "gt", "pt", "tr", "cp")
@@ -241,6 +242,9 @@ class TrCurves(Result):
     critical_point : ndarray (2,) or None
         (x_c, T_c).
     notes : tuple of str
+    super_entropic : ndarray (k, 2)
+        Rows (x, T) of the drawn states with a reverse isoperimetric ratio R < 1
+        (:mod:`bhchem.analysis.isoperimetric`); empty for most families.
     """
 
     family: str
@@ -251,6 +255,7 @@ class TrCurves(Result):
     P_c: float | None
     critical_point: np.ndarray | None
     notes: tuple = ()
+    super_entropic: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -621,6 +626,7 @@ def tr_curves(th, pressures=None) -> TrCurves:
     pressures = pressures or default_pressures(th, cp)
     x_c = cp.x if cp is not None else th.typical_state()
     isobars = []
+    low = []
     for P in pressures:
         res = analyze_isobar(th, P)
         branches = []
@@ -629,13 +635,18 @@ def tr_curves(th, pressures=None) -> TrCurves:
             if hi <= lo:
                 continue
             xs = np.geomspace(lo, hi, 500)
-            branches.append(StateBranch(b.index, bool(b.stable),
-                                        np.column_stack([xs, th.T(xs, P)]),
+            T = th.T(xs, P)
+            branches.append(StateBranch(b.index, bool(b.stable), np.column_stack([xs, T]),
                                         last=b is res.branches[-1]))
+            if th.family.gravitational:
+                with np.errstate(invalid="ignore"):
+                    sel = isoperimetric_ratio(th, xs, P) < 1 - ISO_TOLERANCE
+                low.append(np.column_stack([xs[sel], T[sel]]))
         isobars.append(tuple(branches))
     return TrCurves(**_identity(th), pressures=tuple(float(P) for P in pressures),
                     isobars=tuple(isobars), P_c=cp.P if cp is not None else None,
-                    critical_point=np.array([cp.x, cp.T]) if cp is not None else None)
+                    critical_point=np.array([cp.x, cp.T]) if cp is not None else None,
+                    super_entropic=np.concatenate(low) if low else np.zeros((0, 2)))
 
 
 def cp_curves(th, pressure=None) -> CpCurves:
