@@ -334,3 +334,15 @@ def test_huge_barrier_gives_logarithms_not_inf(capsys):
     assert fp["mfpt_integral"] is None and fp["kramers_time"] is None
     assert 12000 < fp["log10_mfpt"] < 12200
     assert any("beyond double precision" in w for w in fp["warnings"])
+
+
+def test_results_have_short_reprs_and_strict_json():
+    from bhchem.present.serialize import strict_loads, to_json
+    th = bind("rn-ads", Q=1.0)
+    P = 0.5 / (96 * math.pi)
+    results = [thermodynamic_topology(th, P), free_energy_landscape(th, 0.0328, P),
+               first_passage(th, 0.0328, P, n_cells=100), isoperimetric_survey(th)]
+    for res in results:
+        text = repr(res)
+        assert len(text) < 200 and "\n" not in text and text.startswith(type(res).__name__)
+        strict_loads(to_json(res.to_dict()))

@@ -199,6 +199,14 @@ def free_energy_landscape(th: Thermodynamics, T_E: float, P: float, n: int = 600
     xs = xs[th.physical(xs, P)]
     G_xs = np.asarray(G(xs), float)
     xs, G_xs = xs[np.isfinite(G_xs)], G_xs[np.isfinite(G_xs)]
+    if len(ext) >= 2:   # the samples cover the extrema and the walls up to 1.5 x the relief
+        Gs = [e.G_L for e in ext if math.isfinite(e.G_L)]
+        top, bottom = max(Gs), min(Gs)
+        xe = [e.x for e in ext]
+        keep = (G_xs <= top + 1.5 * (top - bottom)) | ((xs >= min(xe)) & (xs <= max(xe)))
+        if np.any(keep):
+            i0, i1 = np.nonzero(keep)[0][[0, -1]]
+            xs, G_xs = xs[i0:i1 + 1], G_xs[i0:i1 + 1]
     nw = sum(e.kind == "well" for e in ext)
     nb = len(ext) - nw
     ok &= all(math.isfinite(e.G_L) for e in ext)
