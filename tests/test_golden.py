@@ -50,7 +50,8 @@ COMMANDS = ("show", "critical", "isobar", "phases")
 ADDED_KEYS = {"convention", "non_finite", "warnings", "admissibility", "excluded",
               "conditions", "condition_sets",
               "ensemble", "topological_charge", "end_explanation", "polynomial",
-              "converged", "nearby_system", "note", "events", "phases", "event"}
+              "converged", "nearby_system", "note", "events", "phases", "event",
+              "isoperimetric"}
 #: promised bound of every residual the analyses report (README, "Numerical guarantees")
 RESIDUAL_BOUND = 1e-9
 #: below this a 0.1 number was rounding noise around zero

@@ -52,7 +52,8 @@ def test_readme_lists_the_commands_it_documents():
     cmds = readme_command_lines(README.read_text())
     verbs = {shlex.split(c.split("bhchem", 1)[1])[0] for c in cmds}
     assert {"demo", "families", "show", "critical", "exponents", "isobar", "phases", "plot",
-            "report", "scan", "expansion", "engine", "curvature"} <= verbs
+            "report", "scan", "expansion", "engine", "curvature", "topology",
+            "landscape"} <= verbs
 
 
 def _run(line: str, workdir: Path, exe: str):

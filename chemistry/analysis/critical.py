@@ -117,6 +117,13 @@ class CriticalPoint(Result):
         For an isolated point of a nearby exact system (couplings typed as
         decimals): {'relative_distance': max_q |dq/q|, 'tolerance':
         ROUNDING_TOLERANCE, 'relative_shifts': {q: dq/q}}; otherwise None.
+    topological_charge : CriticalCharge or None
+        Its topological charge (Wei & Liu, PRD 105 (2022) 104003: conventional -1, novel
+        +1) by contour integral and sign formula
+        (:func:`bhchem.analysis.topology.critical_point_charge`).  Decided with
+        ``on_preferred_branch`` by
+        :func:`~bhchem.analysis.critical_branch.find_critical_points_on_branches`; None in
+        the plain search.
     """
 
     T: float
@@ -134,6 +141,7 @@ class CriticalPoint(Result):
     note: str = ""
     converged: bool = True
     nearby_system: dict | None = None
+    topological_charge: object = None
 
     def to_dict(self) -> dict:
         return asdict(self)

@@ -15,6 +15,7 @@ from dataclasses import replace
 from bhchem.analysis.critical import CriticalSearch, find_critical_points
 from bhchem.analysis.phases import takes_part_in_transition
 from bhchem.analysis.consistency import emit, first_law_warnings
+from bhchem.analysis.topology import critical_point_charge
 from bhchem.core.compiled import Thermodynamics, bind
 
 _CACHE: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
@@ -24,7 +25,8 @@ _LOCK = threading.Lock()
 def find_critical_points_on_branches(family, method: str = "auto", *, pressure_range=None,
                                      state_range=None, **params) -> CriticalSearch:
     """:func:`~bhchem.analysis.critical.find_critical_points`, with ``on_preferred_branch``
-    decided for every point (a new frozen result; the plain search is not changed).
+    and the ``topological_charge`` decided for every point (a new frozen result; the plain
+    search is not changed).
 
     Parameters are those of :func:`~bhchem.analysis.critical.find_critical_points`.
 
@@ -48,7 +50,8 @@ def find_critical_points_on_branches(family, method: str = "auto", *, pressure_r
             return hit
     base = find_critical_points(th, method, pressure_range=pressure_range,
                                 state_range=state_range)
-    points = tuple(replace(cp, on_preferred_branch=takes_part_in_transition(th, cp))
+    points = tuple(replace(cp, on_preferred_branch=takes_part_in_transition(th, cp),
+                           topological_charge=critical_point_charge(th, cp))
                    for cp in base.points)
     result = replace(base, points=points, warnings=first_law_warnings(th))
     if default:

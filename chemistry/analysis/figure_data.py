@@ -27,7 +27,7 @@ hold NaN there (a gap when drawn).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -39,6 +39,7 @@ from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.numerics import brentq, isotherm_pressure
 from bhchem.analysis.isobar import analyze_isobar, branch_state_at
 from bhchem.analysis.phases import phase_diagram
+from bhchem.analysis.isoperimetric import TOLERANCE as ISO_TOLERANCE, isoperimetric_ratio
 
 
 FIGURE_KINDS = ("pv", "gt", "pt", "tr", "cp")
@@ -290,6 +291,9 @@ class TrCurves(Result):
     critical_point : ndarray (2,) or None
         (x_c, T_c).
     notes : tuple of str
+    super_entropic : ndarray (k, 2)
+        Rows (x, T) of the drawn states with a reverse isoperimetric ratio R < 1
+        (:mod:`bhchem.analysis.isoperimetric`); empty for most families.
     """
 
     family: str
@@ -302,6 +306,7 @@ class TrCurves(Result):
     notes: tuple = ()
     #: states excluded by a condition (ExcludedCurve, rows x, T), when asked for
     excluded: tuple = ()
+    super_entropic: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -686,6 +691,7 @@ def tr_curves(th, pressures=None, show_excluded: bool = False) -> TrCurves:
     pressures = pressures or default_pressures(th, cp)
     x_c = cp.x if cp is not None else th.typical_state()
     isobars, excluded = [], []
+    low = []
     for i, P in enumerate(pressures):
         res = analyze_isobar(th, P)
         if show_excluded:
@@ -696,14 +702,19 @@ def tr_curves(th, pressures=None, show_excluded: bool = False) -> TrCurves:
             if hi <= lo:
                 continue
             xs = np.geomspace(lo, hi, 500)
-            branches.append(StateBranch(b.index, bool(b.stable),
-                                        np.column_stack([xs, th.T(xs, P)]),
+            T = th.T(xs, P)
+            branches.append(StateBranch(b.index, bool(b.stable), np.column_stack([xs, T]),
                                         last=b is res.branches[-1]))
+            if th.family.gravitational:
+                with np.errstate(invalid="ignore"):
+                    sel = isoperimetric_ratio(th, xs, P) < 1 - ISO_TOLERANCE
+                low.append(np.column_stack([xs[sel], T[sel]]))
         isobars.append(tuple(branches))
     return TrCurves(**_identity(th), pressures=tuple(float(P) for P in pressures),
                     isobars=tuple(isobars), P_c=cp.P if cp is not None else None,
                     critical_point=np.array([cp.x, cp.T]) if cp is not None else None,
-                    notes=_selection_notes(th), excluded=tuple(excluded))
+                    notes=_selection_notes(th), excluded=tuple(excluded),
+                    super_entropic=np.concatenate(low) if low else np.zeros((0, 2)))
 
 
 def cp_curves(th, pressure=None) -> CpCurves:

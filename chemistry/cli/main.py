@@ -34,6 +34,7 @@ from bhchem.workflows.atlas import parse_grid, scan
 from bhchem.version import __version__
 from bhchem.workflows.figures import KINDS
 from bhchem.cli.analyses import register
+from bhchem.cli.topology import register as register_topology
 
 EXIT_USAGE = 2
 
@@ -240,7 +241,7 @@ def cmd_report(args) -> int:
     try:
         path = write_report(th, args.output, digits=args.digits, force=args.force,
                             progress=progress, include_unphysical=args.include_unphysical,
-                            notify=_note)
+                            notify=_note, topology=args.topology)
     except OSError as exc:  # e.g. disk full: nothing was moved into place
         print(f"bhchem: error: the report {args.output} was not written ({exc}); any "
               f"earlier folder there is untouched", file=sys.stderr)
@@ -394,6 +395,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--include-unphysical", action="store_true",
                    help="list unphysical critical points in tables.tex too (default: "
                         "physical only; results.json and report.md list all)")
+    p.add_argument("--topology", action="store_true",
+                   help="add thermodynamic topology, the free-energy landscape and the "
+                        "first-passage time (figures tau, landscape, first-passage)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_report)
 
@@ -420,8 +424,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_demo)
 
-    register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
-                           "BhchemError": BhchemError, "condition_args": add_condition_args})
+    helpers = {"bound": _bound, "parse_pressure": parse_pressure, "BhchemError": BhchemError,
+               "condition_args": add_condition_args}
+    register(sub, common, helpers)
+    register_topology(sub, common, helpers)
     return parser
 
 

@@ -3,7 +3,11 @@
 JSON keys (a contract with external scripts): ``family``, ``parameters``,
 ``convention``, ``completeness``, ``method``, ``message``, ``critical_points``: a
 list of {``T``, ``P``, ``v``, ``r``, ``G``, ``ratio``, ``kind``, ``physical``,
-``scale_free``, ``residuals``, ``converged``, ``note``, ``nearby_system``, ...}; for ``exponents`` each point also has
+``scale_free``, ``residuals``, ``converged``, ``note``, ``nearby_system``,
+``topological_charge`` {``charge`` (contour integral), ``sign_formula``, ``agree``,
+``kind`` ('conventional' -1 | 'novel' +1 | None), ``note``}, ...}; the top-level
+``topological_charge`` {``total`` (sum over the physical points with a charge),
+``convention``}; for ``exponents`` each point also has
 ``exponents`` {alpha, beta, gamma, delta} (exact, as fractions) and ``fitted``
 (the same keys, each {value, uncertainty, fit_range, note}).  No critical point is
 a result (an empty list), not an error.
@@ -16,6 +20,7 @@ from bhchem.core.compiled import Thermodynamics
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.present.report_text import EXPONENT_DEFINITIONS
 from bhchem.analysis.exponents import critical_exponents
+from bhchem.analysis.topology import CONVENTION as TOPOLOGY_CONVENTION
 from bhchem.declare.conditions import Admissibility
 
 
@@ -52,7 +57,13 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
                 d["exponents_agree"] = ex.agree
                 d["exponents_note"] = ex.message
         points.append(d)
+    charges = [cp.topological_charge.charge for cp in search.physical
+               if cp.topological_charge is not None and cp.topological_charge.charge is not None]
+    total = {"total": sum(charges) if charges else None,
+             "n_points": len(charges),
+             "convention": TOPOLOGY_CONVENTION["critical_charge"]}
     return {"family": search.family, "parameters": search.parameters,
+            "topological_charge": total,
             "convention": search.convention, "completeness": search.completeness,
             "method": search.method, "scanned_range": search.scanned_range,
             "converged": search.converged, "message": search.message,
@@ -95,6 +106,18 @@ def critical_text(doc: dict) -> str:
         res = ", ".join(f"{k} = {v:.1e}" if _finite(v) else f"{k} = not computed"
                         for k, v in cp["residuals"].items())
         lines.append(f"      residuals: {res}")
+        tc = cp.get("topological_charge")
+        if tc:
+            if tc["charge"] is None:
+                lines.append(f"      topological charge: {tc['note']}")
+            else:
+                both = ("contour integral and sign formula agree" if tc["agree"] else
+                        "contour integral only: the sign formula is silent here"
+                        if tc["sign_formula"] is None else
+                        f"DISAGREES with the sign formula ({tc['sign_formula']})")
+                q = tc["charge"]
+                lines.append(f"      topological charge {q if q == 0 else format(q, '+d')} "
+                             f"({tc['kind']}; {both})")
         if cp["note"]:
             lines.append(f"      note: {cp['note']}")
         if "exponents" in cp:
@@ -114,6 +137,10 @@ def critical_text(doc: dict) -> str:
                 head = f"exponent {k} ({EXPONENT_DEFINITIONS[k]})"
                 lines.append(f"        {head:<50} exact {ex[k] or '-':<5} fitted {fitted}")
             lines.append(f"      {cp['exponents_note']}")
+    tot = doc.get("topological_charge")
+    if tot and tot["total"] is not None:
+        lines.append(f"  total topological charge of the physical critical points: "
+                     f"{tot['total'] if tot['total'] == 0 else format(tot['total'], '+d')} (Wei & Liu 2022: conventional -1, novel +1)")
     for w in doc.get("warnings", ()):
         lines.append(f"  WARNING: {w}")
     return "\n".join(lines)

@@ -424,9 +424,16 @@ def plot_tr(data: TrCurves, ax=None) -> PlotResult:
             x_c, T_c = data.critical_point
             ax.plot([x_c], [T_c], "o", color="black", ms=5, label="critical point")
             ax.set_ylim(0, 2.2 * T_c)
+        low = getattr(data, "super_entropic", np.zeros((0, 2)))
+        if len(low):
+            ax.plot(low[::25, 0], low[::25, 1], "x", color="black", ms=3, lw=0.6,
+                    label=r"super-entropic ($\mathcal{R}<1$)")
+            drawn["super_entropic"] = low
         ax.set_xlabel(rf"${_state_label(data.state)}$")
         ax.set_ylabel(r"temperature $T$")
-        ax.set_title(figure_title(data, "; dotted: $C_P<0$" + _selection(data)))
+        ax.set_title(figure_title(data, "; dotted: $C_P<0$"
+                                  + ("; x: super-entropic" if len(low) else "")
+                                  + _selection(data)))
         ax.legend(loc="lower right")
     return PlotResult(fig, "tr", drawn, list(data.notes))
 

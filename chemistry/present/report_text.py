@@ -197,15 +197,20 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
     lines += ["## Critical points", "", doc["critical"]["message"], ""]
     cps = doc["critical"]["critical_points"]
     if cps:
-        lines += ["| # | kind | physical | on preferred branch | T_c | P_c | v_c | P_c v_c/T_c | critical exponents α, β, γ, δ |",
-                  "| --- | --- | --- | --- | --- | --- | --- | --- | --- |"]
+        lines += ["| # | kind | physical | on preferred branch | T_c | P_c | v_c | P_c v_c/T_c | critical exponents α, β, γ, δ | topological charge |",
+                  "| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |"]
         for i, cp in enumerate(cps, 1):
             ex = cp.get("exponents")
             exs = ", ".join(ex[k] or "–" for k in ("alpha", "beta", "gamma", "delta")) if ex else "–"
             pref = {True: "yes", False: "no", None: "–"}[cp.get("on_preferred_branch")]
             lines.append(f"| {i} | {cp['kind']} | {'yes' if cp['physical'] else 'no'} | {pref} | "
-                         f"{g(cp['T'])} | {g(cp['P'])} | {g(cp['v'])} | {g(cp['ratio'])} | {exs} |")
+                         f"{g(cp['T'])} | {g(cp['P'])} | {g(cp['v'])} | {g(cp['ratio'])} | {exs} | "
+                         f"{_charge_cell(cp.get('topological_charge'))} |")
         lines.append("")
+        tot = doc["critical"].get("topological_charge")
+        if tot and tot.get("total") is not None:
+            lines += [f"Total topological charge of the physical critical points: "
+                      f"{tot['total'] if tot['total'] == 0 else format(tot['total'], '+d')} ({tot['convention']}).", ""]
         if any(cp.get("exponents") for cp in cps):
             lines += ["Critical exponents (not parameters): " + "; ".join(
                 f"exponent {k} ({EXPONENT_DEFINITIONS[k]})" for k in EXPONENT_DEFINITIONS)
@@ -230,11 +235,57 @@ def report_md(doc: dict, figures: list, digits: int = 6) -> str:
                      f"({', '.join(tp['phases'])})")
     for w in ph["warnings"]:
         lines.append(f"- WARNING: {w}")
+    lines += _topology_md(doc)
     lines += ["", "## Figures", ""]
     for name, caption in figures:
         lines += [f"![{caption}]({name}.png)", "", f"*{caption}* (also `{name}.pdf`)", ""]
     lines += ["Tables for the paper: `tables.tex`; every number with provenance: `results.json`.", ""]
     return "\n".join(lines)
+
+
+def _topology_md(doc: dict) -> list:
+    """The report's section on issue 16, when the bundle was asked for it; and the
+    isoperimetric verdict (always)."""
+    out = []
+    iso = doc.get("isoperimetric")
+    if iso:
+        out += ["", f"**Reverse isoperimetric ratio**: {iso['message']}."]
+    topo = doc.get("topology")
+    if not topo:
+        return out
+    out += ["", "## Thermodynamic topology", "",
+            f"At P = {topo['pressure']:.6g}: "
+            + (f"class {topo['class']}, topological number W = {topo['W']}"
+               if topo["class"] else "outside the four classes (W depends on tau)")
+            + f"; {topo['message']}.", ""]
+    for e in topo["events"]:
+        out.append(f"- {e['kind']} at tau = {e['tau']:.6g}: W {e['W_below']} below, "
+                   f"{e['W_above']} above")
+    ls = doc.get("landscape")
+    if ls:
+        out += ["", f"Free-energy landscape at T_E = {ls['temperature']:.6g} "
+                f"({ls['note'] or 'given'}): {ls['message']}."]
+        fp = ls.get("first_passage")
+        if fp:
+            td = fp["mfpt_time_dependent"]
+            out.append(f"Mean first-passage time (units of zeta): {fp['message']}; "
+                       f"time-dependent solution {'-' if td is None else format(td, '.6g')}"
+                       + ("" if fp["kramers_time"] is None
+                          else f"; Kramers {fp['kramers_time']:.6g}") + ".")
+            out += [f"- WARNING: {w}" for w in fp["warnings"]]
+    elif doc.get("landscape_note"):
+        out += ["", f"No landscape: {doc['landscape_note']}."]
+    return out
+
+
+def _charge_cell(tc) -> str:
+    """A critical point's topological charge for the report table."""
+    if not tc or tc.get("charge") is None:
+        return "–"
+    q = tc["charge"]
+    silent = tc.get("sign_formula") is None
+    return f"{q if q == 0 else format(q, '+d')} ({tc['kind']})" + (
+        "" if tc.get("agree") or silent else " DISAGREES")
 
 
 # -- the bundle ----------------------------------------------------------------------------------

@@ -3,7 +3,9 @@
 The JSON keys are a contract with external scripts: ``family``, ``parameters``
 (name -> {value, dimension, domain}), ``convention``, ``quantities`` (name ->
 {sympy, latex}), ``equation_of_state``, ``first_law`` {holds, max_residual, ...},
-``smarr`` {holds, relation, missing, ...}.
+``smarr`` {holds, relation, missing, ...}, ``isoperimetric`` {R_min, R_max, n_states,
+super_entropic, worst {x, P, R}, message, convention}: the reverse isoperimetric ratio over
+random physical states at the given parameters (null fields for non-black-hole systems).
 """
 from __future__ import annotations
 
@@ -12,6 +14,7 @@ import sympy as sp
 from bhchem.core.checks import check_first_law, check_smarr
 from bhchem.core.compiled import Thermodynamics
 from bhchem.conventions import convention_record
+from bhchem.analysis.isoperimetric import isoperimetric_survey
 
 _LABELS = {
     "M": "enthalpy (mass)", "S": "entropy", "T": "temperature",
@@ -48,6 +51,7 @@ def show_json(th: Thermodynamics) -> dict:
                "variables": "P(T, v)" if eos.form == "closed" else f"T({der.state}, P), v({der.state})"}
     fl = check_first_law(th)
     sm = check_smarr(th)
+    iso = isoperimetric_survey(th)
     return {
         "family": fam.name,
         "summary": fam.summary,
@@ -74,6 +78,9 @@ def show_json(th: Thermodynamics) -> dict:
                                   "reference": cs.reference}
                            for name, cs in fam.condition_set_table().items()},
         "admissibility": th.admissibility.to_dict(),
+        "isoperimetric": {"R_min": iso.R_min, "R_max": iso.R_max, "n_states": iso.n_states,
+                          "super_entropic": iso.super_entropic, "worst": iso.worst,
+                          "message": iso.message, "convention": iso.convention},
     }
 
 
@@ -117,6 +124,10 @@ def show_text(th: Thermodynamics) -> str:
     lines.append("")
     lines.append(f"First law    {doc['first_law']['message']}")
     lines.append(f"Smarr        {doc['smarr']['message']}")
+    iso = doc["isoperimetric"]
+    lines.append(f"Isoperimetric {iso['message']}"
+                 + ("" if iso["R_min"] is None else
+                    " [reverse isoperimetric ratio R; R < 1: super-entropic]"))
     lines.append("")
     lines.append(f"Which states count ({th.admissibility.label()}; a state must satisfy every "
                  f"condition marked *)")

@@ -31,6 +31,10 @@ from bhchem.present.phase_text import diagram_json
 from bhchem.present.summary import show_json
 from bhchem.present.plots import EmptyFigureError, save
 from bhchem.workflows.figures import make_figure
+from bhchem.workflows.topology import default_pressure, landscape_run
+from bhchem.analysis.topology import thermodynamic_topology
+from bhchem.present.topology_text import landscape_json, topology_json
+from bhchem.present.topology_plots import plot_first_passage, plot_landscape, plot_tau
 
 FIGURES = (("pv", "P-v isotherms with the equal-area construction"),
            ("gt", "G-T isobars"),
@@ -93,15 +97,42 @@ def compute_results(th: Thermodynamics, progress=None) -> tuple[dict, object]:
         "admissibility": show["admissibility"],
         "conditions": show["conditions"],
         "critical": {k: crit[k] for k in ("completeness", "method", "message", "converged",
-                                          "critical_points")},
+                                          "critical_points", "topological_charge")},
+        "isoperimetric": show["isoperimetric"],
         "phases": phases,
     }
     return doc, pd
 
 
 # -- LaTeX tables ------------------------------------------------------------------------
+def topology_results(th: Thermodynamics, progress=None) -> tuple[dict, list]:
+    """Issue 16 for the report: topology at the default pressure, the landscape and first
+    passage at its transition (if any).  Returns the JSON parts and a list of
+    (name, caption, figure maker)."""
+    if progress:
+        progress("thermodynamic topology")
+    P = default_pressure(th)
+    topo = thermodynamic_topology(th, P)
+    doc = {"topology": topology_json(topo), "landscape": None}
+    figures = [("tau", "tau(r+) = 1/T with the zeros of phi marked by their winding numbers",
+                lambda: plot_tau(topo))]
+    try:
+        run = landscape_run(th, P)
+    except BhchemError as exc:
+        doc["landscape_note"] = str(exc)
+        return doc, figures
+    doc["landscape"] = landscape_json(run.landscape, run.passage, run.note)
+    figures.append(("landscape", "free-energy landscape G_L = M - T_E S",
+                    lambda: plot_landscape(run.landscape)))
+    if run.passage is not None and len(run.passage.t):
+        figures.append(("first-passage", "first-passage-time distribution (t in units of "
+                        "the friction zeta)", lambda: plot_first_passage(run.passage)))
+    return doc, figures
+
+
 def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = False,
-                 progress=None, include_unphysical: bool = False, notify=None) -> str:
+                 progress=None, include_unphysical: bool = False, notify=None,
+                 topology: bool = False) -> str:
     """Compute and write the report bundle atomically into ``out_dir``.
 
     Parameters
@@ -122,6 +153,10 @@ def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = Fal
     notify : callable, optional
         Called with one line for each temporary of an interrupted earlier run that was
         removed (or a bundle restored from its renamed-aside copy).
+    topology : bool
+        Add the thermodynamic topology, the free-energy landscape and the first passage
+        (issue 16): keys ``topology``, ``landscape`` in results.json, a section in
+        report.md, figures ``tau``, ``landscape``, ``first-passage``.
 
     Returns
     -------
@@ -171,6 +206,19 @@ def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = Fal
                 save(res, os.path.join(tmp, f"{name}.pdf"))
                 del res  # saved, not returned: the figure (never in pyplot) is released
                 figures.append((name, caption))
+            if topology:
+                part, extra = topology_results(th, progress)
+                doc.update(part)
+                for name, caption, make in extra:
+                    try:
+                        res = make()
+                    except EmptyFigureError as exc:
+                        doc.setdefault("figures_skipped", {})[name] = str(exc)
+                        continue
+                    save(res, os.path.join(tmp, f"{name}.png"))
+                    save(res, os.path.join(tmp, f"{name}.pdf"))
+                    del res
+                    figures.append((name, caption))
             doc["figures"] = [n for n, _ in figures]
             atomic_write(os.path.join(tmp, "results.json"), dumps(doc, family=th.family))
             atomic_write(os.path.join(tmp, "tables.tex"),
