@@ -49,7 +49,7 @@ they keep the square root positive for all r >= r+.  S > 0 and T >= 0 are added 
 """
 import sympy as sp
 
-from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare import Domain, Family, Metric, Parameter
 from bhchem.declare.symbols import P, d, k, omega, parameter_symbol, pi, r
 
 alpha = parameter_symbol("alpha")
@@ -59,6 +59,7 @@ _Om = omega(d)
 _at = (d - 3) * (d - 4) * alpha                                    # alpha~ (CCLY13)
 _q = 8 * pi * Q / (sp.sqrt(2 * (d - 2) * (d - 3)) * _Om)           # metric charge q(Q), as rn-ads
 _a0 = 16 * pi * P / ((d - 1) * (d - 2))                            # alpha~_0 = 1/L^2
+_rho, _m, _L = sp.symbols("r m L", positive=True)                 # radial coordinate, mass
 
 FAMILY = Family(
     name="gauss-bonnet-ads",
@@ -85,6 +86,13 @@ FAMILY = Family(
         1 + 2 * k * _at / r**2 > 0,                   # horizon on the GB branch (real root)
         64 * pi * _at * P < (d - 1) * (d - 2),        # its AdS vacuum exists (4 alpha~ < L^2)
     ),
+    # the metric function of the docstring (CCLY13); tests check it reproduces M and T
+    metric=Metric.declare(
+        k + _rho**2 / (2 * _at) * (1 - sp.sqrt(1 + 4 * _at * _m / _rho ** (d - 1)
+                                               - 4 * _at * _q**2 / _rho ** (2 * d - 4)
+                                               - 4 * _at / _L**2)),
+        mass="m", enthalpy=(d - 2) * _Om * _m / (16 * pi),
+        parameters=(alpha, Q)),
     conventions={
         "coupling": "alpha is the bare Gauss-Bonnet coupling of the action; CCLY13 and "
                     "Wei & Liu use alpha~ = (d-3)(d-4) alpha",

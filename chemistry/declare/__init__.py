@@ -5,5 +5,6 @@ A family module imports from here and from nothing else in bhchem.
 """
 from bhchem.declare.domain import Domain
 from bhchem.declare.family import Family, Parameter
+from bhchem.declare.metric import Metric, from_metric
 
-__all__ = ["Domain", "Family", "Parameter"]
+__all__ = ["Domain", "Family", "Metric", "Parameter", "from_metric"]

@@ -1,0 +1,458 @@
+r"""Families from the metric function: the line element as the declaration.
+
+A static black hole
+
+.. math:: ds^2 = -f(r)\,dt^2 + \frac{dr^2}{h(r)} + r^2 d\Omega_{d-2}^2 \qquad (h = f \text{ unless given})
+
+is declared by its metric function f (in the radial coordinate ``r``, the AdS radius ``L``
+and a *mass parameter*, ``M`` by default), the relation between the mass parameter and the
+enthalpy (default: M itself, as for f = 1 - 2M/r + ...; in d dimensions with
+f = 1 - m/r^(d-3) + ..., M = (d-2) Omega m/(16 pi)), and the entropy: the area law
+(default), a stated expression, or ``"first-law"``.  :func:`from_metric` then
+
+1. replaces L by the pressure, L^2 = (d-1)(d-2)/(16 pi P);
+2. solves f(r+) = 0 for the mass parameter (symbolically; with several roots it keeps the
+   one that is real and positive at a reference state and verifies f(r+) = 0, or the one
+   chosen with ``root=``, and says which in the family's conventions);
+3. takes the temperature from the surface gravity, T = f'(r+)/(4 pi), or
+   T = sqrt(f'(r+) h'(r+))/(4 pi) when h is given;
+4. builds the entropy: A/4 = Omega r+^(d-2)/4, the stated S, or the entropy that makes the
+   first law hold with this M and T,
+
+   .. math:: S = \int \frac{(\partial M/\partial r_+)_{P,q}}{T}\,dr_+ ,
+
+   in closed form (sympy), with the integration constant stated (0 in the antiderivative
+   shown, or ``entropy_constant``).  When h = f the integrand is
+   -4 pi (dM/dm)/(df/dm) at r = r+ (implicit differentiation of f(r+, m) = 0), which needs
+   no cancellation.
+
+The result is an ordinary :class:`~bhchem.declare.family.Family` (M, S and T declared, so
+the engine checks T against (dM/dS)_P as for any family) that also carries its
+:class:`Metric`, from which the photon sphere, the critical impact parameter and the
+Lyapunov exponent are derived (:mod:`bhchem.core.metric`).  A family declared by M and S
+whose metric is known may attach the :class:`Metric` alone (``Family(..., metric=...)``):
+nothing is solved at import, and :func:`bhchem.core.metric.metric_route_agrees` checks that
+the metric reproduces the declared M and T.
+
+Example
+-------
+>>> import sympy as sp
+>>> from bhchem.declare.metric import from_metric
+>>> r, M, L = sp.symbols("r M L", positive=True)
+>>> fam = from_metric(name="toy-sads", summary="Schwarzschild-AdS from its metric",
+...                   reference="Hawking & Page, Commun. Math. Phys. 87 (1983) 577",
+...                   f=1 - 2*M/r + r**2/L**2)
+>>> fam.enthalpy
+r*(8*pi*P*r**2/3 + 1)/2
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+
+import sympy as sp
+
+from bhchem.declare import symbols as sy
+from bhchem.declare.family import Family, Parameter
+from bhchem.errors import MalformedFamilyError
+
+#: the radial coordinate of a metric (the horizon radius r+ is the family's state ``r``)
+RHO = sp.Symbol("rho", positive=True)
+#: the AdS radius, replaced by the pressure
+L_ADS = sp.Symbol("L", positive=True)
+#: the mass parameter of a metric
+MASS = sp.Symbol("m_metric", real=True)
+
+#: entropy rules of :func:`from_metric`
+ENTROPY_RULES = ("area", "first-law")
+
+#: expressions above this many operations are not passed to sympy.simplify
+_SIMPLIFY_OPS = 200
+
+
+@dataclass(frozen=True)
+class Metric:
+    """A static metric function, as data (see module docstring).
+
+    Attributes
+    ----------
+    f : sympy.Expr
+        f in the canonical symbols: :data:`RHO` (radial coordinate), :data:`L_ADS`,
+        :data:`MASS` (the mass parameter), ``d`` and the family's parameters.
+    mass_enthalpy : sympy.Expr
+        The enthalpy M as a function of :data:`MASS` (and d, parameters).
+    h : sympy.Expr or None
+        1/g_rr when it differs from f.
+    root : int or None
+        Which root of f(r+) = 0 to keep when there are several (index in sympy's order).
+    text : str
+        f as the author wrote it (for reports).
+    mass_name : str
+        The name of the mass parameter as written.
+    """
+
+    f: sp.Expr
+    mass_enthalpy: sp.Expr = MASS
+    h: sp.Expr | None = None
+    root: int | None = None
+    text: str = ""
+    mass_name: str = "M"
+
+    @classmethod
+    def declare(cls, f, *, mass: str = "M", enthalpy=None, h=None, ads_radius: str = "L",
+                root: int | None = None, parameters=(), where: str = "metric") -> "Metric":
+        """A :class:`Metric` from expressions written with symbols *named* ``r`` (the radial
+        coordinate), ``ads_radius``, ``mass``, ``d``, ``k`` and the parameter names
+        (``parameters``: the family's Parameter objects or their canonical symbols).
+
+        Raises
+        ------
+        MalformedFamilyError
+            On an undeclared symbol, a metric without L or without the mass parameter.
+        """
+        table = {"r": RHO, ads_radius: L_ADS, mass: MASS, "d": sy.d, "k": sy.k, "pi": sp.pi}
+        for p in parameters:  # Parameter objects, or their canonical symbols
+            if p.name in (ads_radius, mass, "r"):
+                raise MalformedFamilyError(
+                    f"{where}: parameter {p.name} has the name of the radial coordinate, the "
+                    f"AdS radius or the mass parameter; rename it")
+            table[p.name] = p.symbol if isinstance(p, Parameter) else p
+        fc = _canonical(f, table, f"{where} f")
+        if fc is None:
+            raise MalformedFamilyError(f"{where}: the metric function f is missing")
+        if L_ADS not in fc.free_symbols:
+            raise MalformedFamilyError(
+                f"{where}: f does not contain the AdS radius {ads_radius} (the pressure enters "
+                f"through L^2 = (d-1)(d-2)/(16 pi P))")
+        if MASS not in fc.free_symbols:
+            raise MalformedFamilyError(
+                f"{where}: f does not contain the mass parameter {mass} (name it with mass=...)")
+        hc = _canonical(h, table, f"{where} h")
+        mc = _canonical(enthalpy if enthalpy is not None else sp.Symbol(mass), table,
+                        f"{where} enthalpy")
+        if MASS not in mc.free_symbols:
+            raise MalformedFamilyError(
+                f"{where}: the enthalpy must be written in the mass parameter {mass}")
+        for e, what in ((mc, "enthalpy"), (hc, "h")):
+            if e is not None and (RHO in e.free_symbols and what == "enthalpy"):
+                raise MalformedFamilyError(f"{where}: the enthalpy may not depend on r")
+        if root is not None and (isinstance(root, bool) or not isinstance(root, int) or root < 0):
+            raise MalformedFamilyError(f"{where}: root must be a non-negative integer index")
+        return cls(f=fc, mass_enthalpy=mc, h=hc, root=root, text=str(f), mass_name=mass)
+
+
+def _canonical(expr, table, where):
+    if expr is None:
+        return None
+    try:
+        e = expr if isinstance(expr, sp.Basic) else sp.sympify(expr, strict=True)
+    except (sp.SympifyError, TypeError) as exc:
+        raise MalformedFamilyError(f"{where} is not a sympy expression ({exc})") from None
+    unknown = sorted(s.name for s in e.free_symbols if s.name not in table)
+    if unknown:
+        raise MalformedFamilyError(
+            f"{where} uses undeclared symbol(s) {', '.join(unknown)} (known: "
+            f"{', '.join(sorted(k for k in table if k != 'pi'))})")
+    return e.xreplace({s: table[s.name] for s in e.free_symbols})
+
+
+def pressure_substitution(dim):
+    """{L: sqrt((d-1)(d-2)/(16 pi P))}: L^2 = (d-1)(d-2)/(16 pi P)."""
+    return {L_ADS: sp.sqrt((dim - 1) * (dim - 2) / (16 * sp.pi * sy.P))}
+
+
+def _small_simplify(e):
+    if sp.count_ops(e) <= _SIMPLIFY_OPS:
+        try:
+            return sp.simplify(e)
+        except Exception:  # pragma: no cover - sympy internals: keep the raw form
+            return e
+    return e
+
+
+@dataclass(frozen=True)
+class HorizonSolution:
+    """f(r+) = 0 solved for the mass parameter, at given structural values.
+
+    ``mass``: m(r+, P, q); ``enthalpy``: M(r+, P, q); ``temperature``: T from the surface
+    gravity; ``f_state``/``h_state``: f(rho; r+, P, q) and h with m eliminated;
+    ``note``: which root was kept, when there were several."""
+
+    mass: sp.Expr
+    enthalpy: sp.Expr
+    temperature: sp.Expr
+    f_state: sp.Expr
+    h_state: sp.Expr | None
+    note: str = ""
+    roots: tuple = field(default_factory=tuple)
+
+
+def solve_horizon(metric: Metric, subs: dict | None = None, reference: dict | None = None,
+                  where: str = "metric") -> HorizonSolution:
+    """Solve f(r+) = 0 for the mass parameter and take T from the surface gravity.
+
+    Parameters
+    ----------
+    metric : Metric
+    subs : dict, optional
+        Symbol -> value substituted first (d, k, ...).
+    reference : dict, optional
+        Symbol -> number for every remaining symbol but r+ and P (parameter defaults):
+        where roots are tested when there are several.
+
+    Raises
+    ------
+    MalformedFamilyError
+        When f(r+) = 0 has no usable root, or h does not vanish at the horizon.
+    """
+    subs = dict(subs or {})
+    dim = subs.get(sy.d, sy.d)
+    press = pressure_substitution(dim)
+    f = metric.f.subs(subs).subs(press)
+    h = metric.h.subs(subs).subs(press) if metric.h is not None else None
+    Mm = metric.mass_enthalpy.subs(subs)
+    r = sy.r
+    try:
+        roots = sp.solve(sp.Eq(f.subs(RHO, r), 0), MASS, dict=False)
+    except (NotImplementedError, ValueError, TypeError) as exc:
+        raise MalformedFamilyError(f"{where}: f(r+) = 0 cannot be solved for the mass "
+                                   f"parameter {metric.mass_name} ({exc})") from None
+    if not roots:
+        raise MalformedFamilyError(f"{where}: f(r+) = 0 has no solution for the mass "
+                                   f"parameter {metric.mass_name}")
+    note = ""
+    if len(roots) > 1:
+        ref = {r: sp.Rational(13, 10), sy.P: sp.Rational(1, 100)}
+        ref.update(reference or {})
+        good = []
+        for i, m in enumerate(roots):
+            try:
+                val = complex(m.subs(ref).evalf())
+                res = complex(f.subs(RHO, r).subs(MASS, m).subs(ref).evalf())
+            except (TypeError, ValueError):
+                continue
+            if abs(val.imag) <= 1e-12 * max(1.0, abs(val)) and val.real > 0 \
+                    and abs(res) <= 1e-9 * max(1.0, abs(val)):
+                good.append(i)
+        if metric.root is not None:
+            if metric.root >= len(roots):
+                raise MalformedFamilyError(f"{where}: root={metric.root}, but f(r+) = 0 has "
+                                           f"{len(roots)} roots")
+            keep = metric.root
+        elif len(good) == 1:
+            keep = good[0]
+        else:
+            listed = "; ".join(f"[{i}] {m}" for i, m in enumerate(roots))
+            raise MalformedFamilyError(
+                f"{where}: f(r+) = 0 has {len(roots)} roots for {metric.mass_name} "
+                f"({len(good)} real and positive at the reference state): {listed}; choose "
+                f"one with root=INDEX")
+        note = (f"f(r+) = 0 has {len(roots)} roots for {metric.mass_name}; kept root {keep} "
+                f"({'chosen with root=' if metric.root is not None else 'the only one real, positive and verifying f(r+) = 0 at the reference state'})")
+        m_sol = roots[keep]
+    else:
+        m_sol = roots[0]
+    f_state = f.subs(MASS, m_sol)
+    h_state = h.subs(MASS, m_sol) if h is not None else None
+    fp = sp.diff(f, RHO).subs(MASS, m_sol).subs(RHO, r)
+    if h_state is None:
+        T = _small_simplify(fp / (4 * sp.pi))
+    else:
+        at = _small_simplify(h_state.subs(RHO, r))
+        if at != 0:
+            raise MalformedFamilyError(f"{where}: h does not vanish at the horizon (h(r+) = "
+                                       f"{at}); both f and h must vanish there")
+        hp = sp.diff(h, RHO).subs(MASS, m_sol).subs(RHO, r)
+        T = _small_simplify(sp.sqrt(fp * hp) / (4 * sp.pi))
+    M = _small_simplify(Mm.subs(MASS, m_sol))
+    return HorizonSolution(mass=m_sol, enthalpy=M, temperature=T, f_state=f_state,
+                           h_state=h_state, note=note, roots=tuple(roots))
+
+
+def first_law_integrand(metric: Metric, solution: HorizonSolution, subs: dict | None = None):
+    r"""(dM/dr+)_{P,q} / T: the derivative of the first-law-consistent entropy.
+
+    With h = f this is -4 pi (dM/dm) / (df/dm) at r = r+ (implicit differentiation of
+    f(r+, m(r+)) = 0 and T = f'(r+)/(4 pi)): free of the cancellation in M_r / T."""
+    subs = dict(subs or {})
+    if metric.h is None:
+        dim = subs.get(sy.d, sy.d)
+        f = metric.f.subs(subs).subs(pressure_substitution(dim))
+        dMdm = sp.diff(metric.mass_enthalpy.subs(subs), MASS)
+        dfdm = sp.diff(f, MASS)
+        expr = (-4 * sp.pi * dMdm / dfdm).subs(RHO, sy.r).subs(MASS, solution.mass)
+    else:
+        expr = sp.diff(solution.enthalpy, sy.r) / solution.temperature
+    return _small_simplify(expr)
+
+
+def _assumed(parameters) -> dict:
+    """Canonical symbol -> a symbol with the sign its domain implies (for the integrator:
+    sqrt(g**2) is g for g >= 0).  Bounded below by 0: positive (the antiderivative is then
+    continuous at 0 in the cases met here, and evaluated numerically there)."""
+    out = {}
+    for p in parameters:
+        if p.discrete:
+            continue
+        if p.domain.lower >= 0:
+            out[p.symbol] = sp.Symbol(p.name, positive=True)
+        elif p.domain.upper <= 0:
+            out[p.symbol] = sp.Symbol(p.name, negative=True)
+    return out
+
+
+def first_law_entropy(metric: Metric, solution: HorizonSolution, subs: dict | None = None,
+                      where: str = "metric", parameters=()):
+    """The antiderivative S(r+) of :func:`first_law_integrand` (integration constant 0).
+
+    ``parameters``: the family's parameters; their domains' signs are assumed while
+    integrating.
+
+    Raises
+    ------
+    MalformedFamilyError
+        When sympy finds no closed form (state the entropy instead).
+    """
+    assumed = _assumed(parameters)
+    integrand = first_law_integrand(metric, solution, subs).xreplace(assumed)
+    # sqrt((r^2 + 2a)^2) is r^2 + 2a for positive symbols, once the base is factored
+    integrand = _small_simplify(integrand.replace(
+        lambda e: isinstance(e, sp.Pow) and e.exp.is_Rational and not e.exp.is_Integer,
+        lambda e: sp.Pow(sp.factor(e.base), e.exp)))
+    try:
+        S = sp.integrate(integrand, sy.r, conds="none")
+    except Exception as exc:  # sympy's integrator raises many kinds of errors
+        raise MalformedFamilyError(f"{where}: the first-law entropy integral of {integrand} "
+                                   f"failed in sympy ({type(exc).__name__})") from None
+    if S.has(sp.Integral):
+        raise MalformedFamilyError(
+            f"{where}: no closed form for the first-law entropy S = integral of {integrand} "
+            f"dr+ (give the entropy as an expression, or fix the dimension)")
+    return _small_simplify(S).xreplace({v: k for k, v in assumed.items()})
+
+
+def area_entropy(dim):
+    """A/4 = Omega_{d-2} r+^(d-2)/4."""
+    return sy.omega(dim) * sy.r ** (dim - 2) / 4
+
+
+def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, parameters=(),
+                mass: str = "M", enthalpy=None, h=None, ads_radius: str = "L",
+                entropy="area", entropy_constant=0, root: int | None = None,
+                temperature: str = "surface-gravity", **family) -> Family:
+    """A :class:`Family` from a static metric function (see module docstring).
+
+    Parameters
+    ----------
+    name, summary, reference, dimension, parameters
+        As for :class:`Family`.
+    f : sympy expression
+        The metric function, with symbols named ``r`` (radial coordinate), ``ads_radius``
+        and ``mass``, ``d`` and the parameter names.
+    mass : str
+        Name of the mass parameter in f (default ``M``).
+    enthalpy : sympy expression, optional
+        The enthalpy M in terms of the mass parameter (default: the mass parameter).
+    h : sympy expression, optional
+        1/g_rr when it differs from f; then T = sqrt(f'h')/(4 pi).
+    entropy : 'area', 'first-law' or a sympy expression in r, d and the parameters
+    entropy_constant : sympy expression
+        Added to the first-law entropy (default 0), stated in the conventions.
+    root : int, optional
+        Which root of f(r+) = 0 to keep when there are several.
+    temperature : 'surface-gravity' or 'first-law'
+        'first-law' declares no T: the engine derives T = (dM/dS)_P (the area-law route
+        that a comparison of routes needs).
+    **family
+        Other :class:`Family` keywords (conditions, background_gibbs, conventions, ...).
+
+    Raises
+    ------
+    MalformedFamilyError
+        One line naming the family and the fault.
+    """
+    who = f"family {name}"
+    params = tuple(parameters)
+    metric = Metric.declare(f, mass=mass, enthalpy=enthalpy, h=h, ads_radius=ads_radius,
+                            root=root, parameters=params, where=who)
+    dim_sym = sy.d if isinstance(dimension, Parameter) else dimension
+    subs = {} if isinstance(dimension, Parameter) else {sy.d: dimension}
+    reference_values = {p.symbol: sp.nsimplify(p.default) for p in params if not p.discrete}
+    reference_values.update({p.symbol: p.default for p in params if p.discrete})
+    sol = solve_horizon(metric, subs, reference_values, where=who)
+    conventions = dict(family.pop("conventions", {}) or {})
+    conventions.setdefault("metric", f"f = {metric.text}" + (f", h = {h}" if h is not None
+                                                             else "")
+                           + f"; L^2 = (d-1)(d-2)/(16 pi P); enthalpy M = "
+                             f"{enthalpy if enthalpy is not None else mass}")
+    if sol.note:
+        conventions.setdefault("mass_root", sol.note)
+    if isinstance(entropy, str):
+        if entropy == "area":
+            S = area_entropy(dim_sym)
+            conventions.setdefault("entropy", "area law S = Omega_{d-2} r+^(d-2)/4")
+        elif entropy == "first-law":
+            S0 = first_law_entropy(metric, sol, subs, where=who, parameters=params)
+            const = sp.sympify(entropy_constant)
+            S = S0 + const
+            conventions.setdefault(
+                "entropy", f"first-law entropy S = integral of (dM/dr+)/T dr+ = {S0} + C, "
+                           f"integration constant C = {const}")
+        else:
+            raise MalformedFamilyError(f"{who}: entropy must be 'area', 'first-law' or an "
+                                       f"expression, not {entropy!r}")
+    else:
+        S = entropy
+        conventions.setdefault("entropy", f"stated: S = {entropy}")
+    if temperature == "surface-gravity":
+        T = sol.temperature
+        conventions.setdefault("temperature", "surface gravity: T = f'(r+)/(4 pi)" if h is None
+                               else "surface gravity: T = sqrt(f'(r+) h'(r+))/(4 pi)")
+    elif temperature == "first-law":
+        T = None
+        conventions.setdefault("temperature", "T = (dM/dS)_P (not the surface gravity)")
+    else:
+        raise MalformedFamilyError(f"{who}: temperature must be 'surface-gravity' or "
+                                   f"'first-law', not {temperature!r}")
+    return Family(name=name, summary=summary, reference=reference, dimension=dimension,
+                  parameters=params, enthalpy=sol.enthalpy, entropy=S, temperature=T,
+                  conventions=conventions, metric=metric, **family)
+
+
+def with_route(family: Family, *, entropy, temperature: str, suffix: str) -> Family:
+    """The same metric family with another entropy/temperature choice (a route).
+
+    Parameters
+    ----------
+    family : Family
+        Must carry a :class:`Metric`.
+    entropy : 'area', 'first-law' or an expression
+    temperature : 'surface-gravity' or 'first-law'
+    suffix : str
+        Appended to the name (``-area``, ``-first-law``).
+    """
+    m = family.metric
+    if m is None:
+        raise MalformedFamilyError(f"family {family.name}: declares no metric")
+    dim = family.dimension
+    subs = {} if isinstance(dim, Parameter) else {sy.d: dim}
+    params = family.parameters
+    ref = {p.symbol: sp.nsimplify(p.default) for p in params if not p.discrete}
+    sol = solve_horizon(m, subs, ref, where=f"family {family.name}")
+    dim_sym = sy.d if isinstance(dim, Parameter) else dim
+    conv = dict(family.conventions)
+    if entropy == "area":
+        S = area_entropy(dim_sym)
+        conv["entropy"] = "area law S = Omega_{d-2} r+^(d-2)/4"
+    elif entropy == "first-law":
+        S0 = first_law_entropy(m, sol, subs, where=f"family {family.name}", parameters=params)
+        S = S0
+        conv["entropy"] = (f"first-law entropy S = integral of (dM/dr+)/T dr+ = {S0} + C, "
+                           f"integration constant C = 0")
+    else:
+        S = entropy
+        conv["entropy"] = f"stated: S = {entropy}"
+    T = sol.temperature if temperature == "surface-gravity" else None
+    conv["temperature"] = ("surface gravity of the metric" if T is not None
+                           else "T = (dM/dS)_P (not the surface gravity)")
+    return replace(family, name=family.name + suffix, enthalpy=sol.enthalpy, entropy=S,
+                   temperature=T, volume=None, conventions=conv)
