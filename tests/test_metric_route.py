@@ -44,7 +44,6 @@ def test_bundled_metric_reproduces_M_and_T_symbolically(name, d):
 
 @pytest.mark.parametrize("d, k, values, how", [
     (5, 1, {"alpha": 0.1, "Q": 1.0}, "symbolic"),
-    (6, 1, {"alpha": 0.05, "Q": 0.5}, "symbolic"),
     # k = -1: sqrt((r^2 - 2 alpha~)^2) has the sign of the GB-branch condition (a state
     # condition, not a parameter domain): decided at physical states
     (6, -1, {"alpha": 0.01, "Q": 0.5}, "numerical")])
@@ -228,3 +227,19 @@ def test_metric_declaration_faults(tmp_path):
     missing.write_text(BARDEEN_TOML.read_text().replace('f = "1 - 2*M', 'ff = "1 - 2*M'))
     with registry.registry_scope(), pytest.raises(MalformedFamilyError, match="ff"):
         bhchem.load_family_file(missing)
+
+
+# -- command line -----------------------------------------------------------------------------
+def test_cli_metric_text_json_and_figure(tmp_path, capsys):
+    from bhchem.cli.main import main
+    fig = tmp_path / "jumps.png"
+    assert main(["metric", "rn-ads", "-p", "Q=1", "--json", "-o", str(fig)]) == 0
+    out = capsys.readouterr()
+    doc = json.loads(out.out)
+    assert {"diagnosis", "photon_sphere", "jumps", "metric"} <= set(doc)
+    assert abs(doc["photon_sphere"]["r_ps"] - (2 + math.sqrt(6))) < 1e-12
+    assert abs(doc["jumps"]["exponent"] - 0.5) < 0.01 and doc["diagnosis"]["holds"] is True
+    assert fig.stat().st_size > 0 and "wrote" in out.err
+    assert main(["metric", "vdw-fluid"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "declares no metric" in err and "Traceback" not in err

@@ -409,6 +409,8 @@ class PhotonJumps(Result):
     converged: bool
     message: str
     warnings: tuple = field(default_factory=tuple)
+    family: str = ""
+    parameters: dict = field(default_factory=dict)
 
 
 def _fit(t, y):
@@ -444,6 +446,7 @@ def photon_sphere_jumps(th: Thermodynamics, critical_point=None, n_points: int =
         When the family declares no metric.
     """
     derive_metric(th.derivation)  # refuse a family without a metric first
+    who = dict(family=th.family.name, parameters=dict(th.values))
     cp = critical_point
     if cp is None:
         std = [c for c in find_critical_points(th).physical
@@ -452,9 +455,11 @@ def photon_sphere_jumps(th: Thermodynamics, critical_point=None, n_points: int =
             empty = PhotonSphere((), (), (), (), (), (), (), "no states")
             return PhotonJumps({}, (), (), empty, empty, (), (), (), None, None, (), False,
                                "no standard physical critical point: no first-order line "
-                               "ending at one")
+                               "ending at one", **who)
         cp = min(std, key=lambda c: c.P)
-    s = 1 - np.geomspace(1 - fraction, 1e-4, n_points)
+    n_lin = n_points // 2
+    s = np.concatenate([np.linspace(fraction, 0.9, n_lin, endpoint=False),
+                        1 - np.geomspace(0.1, 1e-4, n_points - n_lin)])
     Ps_line = cp.P * np.sort(s)
     Ps_fit = cp.P * (1 - np.geomspace(fit_window[1], fit_window[0], n_fit))
     curve = coexistence_curve(th, np.concatenate([Ps_line, Ps_fit]), critical_point=cp)
@@ -462,7 +467,7 @@ def photon_sphere_jumps(th: Thermodynamics, critical_point=None, n_points: int =
     if not pts:
         empty = PhotonSphere((), (), (), (), (), (), (), "no states")
         return PhotonJumps({}, (), (), empty, empty, (), (), (), None, None, (), False,
-                           "no coexistence point found", tuple(curve.warnings))
+                           "no coexistence point found", tuple(curve.warnings), **who)
     P = np.array([p.P for p in pts])
     T = np.array([p.T for p in pts])
     x1 = np.array([min(p.x1, p.x2) for p in pts])
@@ -496,4 +501,4 @@ def photon_sphere_jumps(th: Thermodynamics, critical_point=None, n_points: int =
         msg += "; too few points near the critical point to fit the exponent"
     return PhotonJumps(cpd, tuple(map(float, P)), tuple(map(float, T)), small, large,
                        tuple(map(float, dr)), tuple(map(float, du)), tuple(map(float, dl)),
-                       exponent, error, rng, conv, msg, tuple(curve.warnings))
+                       exponent, error, rng, conv, msg, tuple(curve.warnings), **who)

@@ -34,6 +34,7 @@ from bhchem.workflows.atlas import parse_grid, scan
 from bhchem.version import __version__
 from bhchem.workflows.figures import KINDS
 from bhchem.cli.analyses import register
+from bhchem.cli.metric import register as register_metric
 
 EXIT_USAGE = 2
 
@@ -394,6 +395,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     register(sub, common, {"bound": _bound, "parse_pressure": parse_pressure,
                            "BhchemError": BhchemError})
+    register_metric(sub, common, {"bound": _bound})
     return parser
 
 

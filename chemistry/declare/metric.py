@@ -47,6 +47,7 @@ r*(8*pi*P*r**2/3 + 1)/2
 """
 from __future__ import annotations
 
+import threading
 from dataclasses import dataclass, field, replace
 
 import sympy as sp
@@ -67,6 +68,29 @@ ENTROPY_RULES = ("area", "first-law")
 
 #: expressions above this many operations are not passed to sympy.simplify
 _SIMPLIFY_OPS = 200
+
+#: horizon solutions and first-law entropies kept (the symbolic work is the same for every
+#: route and analysis of one metric); the oldest is dropped beyond this many
+_CACHE_ENTRIES = 64
+_CACHE: dict = {}
+_CACHE_LOCK = threading.Lock()
+
+
+def _cached(key, compute):
+    with _CACHE_LOCK:
+        if key in _CACHE:
+            return _CACHE[key]
+    value = compute()
+    with _CACHE_LOCK:
+        while len(_CACHE) >= _CACHE_ENTRIES:
+            _CACHE.pop(next(iter(_CACHE)))
+        _CACHE[key] = value
+    return value
+
+
+def _key(*parts):
+    return tuple(tuple(sorted(p.items(), key=lambda kv: str(kv[0]))) if isinstance(p, dict)
+                 else p for p in parts)
 
 
 @dataclass(frozen=True)
@@ -204,6 +228,11 @@ def solve_horizon(metric: Metric, subs: dict | None = None, reference: dict | No
     MalformedFamilyError
         When f(r+) = 0 has no usable root, or h does not vanish at the horizon.
     """
+    return _cached(_key("solve", metric, dict(subs or {}), dict(reference or {}), where),
+                   lambda: _solve_horizon(metric, subs, reference, where))
+
+
+def _solve_horizon(metric, subs, reference, where) -> HorizonSolution:
     subs = dict(subs or {})
     dim = subs.get(sy.d, sy.d)
     press = pressure_substitution(dim)
@@ -312,6 +341,11 @@ def first_law_entropy(metric: Metric, solution: HorizonSolution, subs: dict | No
     MalformedFamilyError
         When sympy finds no closed form (state the entropy instead).
     """
+    return _cached(_key("entropy", metric, solution, dict(subs or {}), tuple(parameters), where),
+                   lambda: _first_law_entropy(metric, solution, subs, where, parameters))
+
+
+def _first_law_entropy(metric, solution, subs, where, parameters):
     assumed = _assumed(parameters)
     integrand = first_law_integrand(metric, solution, subs).xreplace(assumed)
     # sqrt((r^2 + 2a)^2) is r^2 + 2a for positive symbols, once the base is factored
