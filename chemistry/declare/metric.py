@@ -43,7 +43,9 @@ Example
 ...                   reference="Hawking & Page, Commun. Math. Phys. 87 (1983) 577",
 ...                   f=1 - 2*M/r + r**2/L**2)
 >>> fam.enthalpy
-r*(8*pi*P*r**2/3 + 1)/2
+r*(8*pi*P*r**2 + 3)/6
+>>> fam.temperature
+2*P*r + 1/(4*pi*r)
 """
 from __future__ import annotations
 
