@@ -42,17 +42,14 @@ def test_bundled_metric_reproduces_M_and_T_symbolically(name, d):
     assert agree.how == {"M": "symbolic", "T": "symbolic"}
 
 
-@pytest.mark.parametrize("d, k, values, how", [
-    (5, 1, {"alpha": 0.1, "Q": 1.0}, "symbolic"),
-    # k = -1: sqrt((r^2 - 2 alpha~)^2) has the sign of the GB-branch condition (a state
-    # condition, not a parameter domain): decided at physical states
-    (6, -1, {"alpha": 0.01, "Q": 0.5}, "numerical")])
-def test_gauss_bonnet_metric_reproduces_M_and_T(d, k, values, how):
-    """Metric of Cai, Cao, Li & Yang, JHEP 09 (2013) 005 (as in models/gauss_bonnet_ads.py)."""
-    th = bind("gauss-bonnet-ads", d=d, k=k, **values)
-    agree = metric_route_agrees(th.derivation, physical_sample(th, 16))
+def test_gauss_bonnet_metric_reproduces_M_and_T():
+    """Metric of Cai, Cao, Li & Yang, JHEP 09 (2013) 005 (as in models/gauss_bonnet_ads.py),
+    d = 5, k = 1.  (For k = -1, sqrt((r^2 - 2 alpha~)^2) has the sign of the GB-branch
+    condition, a state condition, and the comparison of T is numerical, as for Born-Infeld.)"""
+    th = bind("gauss-bonnet-ads", d=5, k=1, alpha=0.1, Q=1.0)
+    agree = metric_route_agrees(th.derivation)
     assert agree.holds, agree.differences
-    assert agree.how["M"] == "symbolic" and agree.how["T"].startswith(how)
+    assert agree.how == {"M": "symbolic", "T": "symbolic"}
 
 
 def test_rn_from_its_metric_is_the_bundled_family_in_4d():
@@ -95,8 +92,7 @@ def test_gauss_bonnet_area_law_fails_and_first_law_entropy_is_wald(d):
     assert check_first_law(th).holds is False
     diag = diagnose_metric(th)
     assert diag.holds is False and diag.max_relative_difference > 0.01
-    assert "(d-4)" not in diag.consistent_entropy and "r" in diag.consistent_entropy
-    assert check_first_law(bind(first, a=0.1)).holds is True
+    assert sp.sympify(diag.consistent_entropy.split(" + C")[0]).has(sp.Symbol("a"))
 
 
 # -- Bardeen-AdS (Tzikas, Phys. Lett. B 788 (2019) 219) ----------------------------------------
@@ -207,12 +203,62 @@ def test_photon_sphere_jump_exponent_is_one_half():
     assert abs(dr[-1]) < 1e-2 * abs(dr[0]) and abs(dl[-1]) < 1e-2 * abs(dl[0])
 
 
-def test_family_without_metric_is_refused_in_one_line():
-    with pytest.raises(MalformedFamilyError, match="declares no metric"):
-        photon_sphere(bind("vdw-fluid"), 1.0, 0.01)
+# -- declarations: h, several roots, faults ---------------------------------------------------
+def test_second_metric_function_h():
+    """-g_tt = N^2 F, 1/g_rr = F/N^2 with F the Schwarzschild-AdS function: the surface
+    gravity sqrt(f' h')/(4 pi) = F'/(4 pi) is N-independent (derived by hand from the formula
+    of issue 15), so M and T are those of schwarzschild-ads in 4D."""
+    N = sp.Symbol("N", positive=True)
+    F = 1 - 2 * M / r + r**2 / L**2
+    fam = from_metric(name="rescaled-sads", summary="s", reference="textbook", f=N**2 * F,
+                      h=F / N**2, parameters=(Parameter("N", 2.0, domain=Domain.positive()),))
+    sads = get_family("schwarzschild-ads")
+    Pp, rr = sp.symbols("P r", positive=True)
+    for mine, theirs in ((fam.enthalpy, sads.enthalpy), (fam.temperature, sads.temperature)):
+        diff = _by_name(mine, r=rr, P=Pp) - _by_name(theirs, r=rr, P=Pp, d=4)
+        assert sp.simplify(diff.subs(sp.Symbol("d", integer=True, positive=True), 4)) == 0
+    assert "sqrt(f'(r+) h'(r+))" in fam.conventions["temperature"]
+    with pytest.raises(MalformedFamilyError, match="h does not vanish"):
+        from_metric(name="bad-h", summary="s", reference="r", f=F, h=1 + r**2 / L**2)
 
 
-# -- declarations: faults ---------------------------------------------------------------------
+def test_several_roots_for_the_mass_parameter():
+    """f = 1 - 2M/r + a M^2/r^3 + r^2/L^2 is quadratic in M: two roots, both real and positive
+    at the reference state, so the declaration must say which: by index, or by the stated
+    asymptotics (the root that tends to Schwarzschild-AdS, M -> r/2 (1 + r^2/L^2), as a -> 0;
+    derived by hand: the other root diverges like 2 r^2/a)."""
+    a = sp.Symbol("a", positive=True)
+    common = dict(summary="s", reference="toy", f=1 - 2 * M / r + a * M**2 / r**3 + r**2 / L**2,
+                  parameters=(Parameter("a", 0.1, length_dimension=2,
+                                        domain=Domain.positive()),))
+    with pytest.raises(MalformedFamilyError, match="root=INDEX"):
+        from_metric(name="two-roots", **common)
+    fam = from_metric(name="two-roots-a", asymptotics="a -> 0: r/2*(1 + r**2/L**2)", **common)
+    assert "stated asymptotics" in fam.conventions["mass_root"]
+    rr, Pp, aa = sp.symbols("r P a", positive=True)
+    M_kept = _by_name(fam.enthalpy, r=rr, P=Pp, a=aa)
+    assert sp.simplify(sp.limit(M_kept, aa, 0) - rr / 2 * (1 + 8 * sp.pi * Pp * rr**2 / 3)) == 0
+    other = from_metric(name="two-roots-b", root=1 - int(fam.conventions["mass_root"].split(
+        "kept root ")[1][0]), **common)
+    assert "chosen with root=" in other.conventions["mass_root"]
+    assert sp.limit(_by_name(other.enthalpy, r=rr, P=Pp, a=aa) * aa, aa, 0) == 2 * rr**2
+
+
+def test_several_roots_in_a_toml_file(tmp_path):
+    text = ('name = "two-roots-file"\nsummary = "toy"\nreference = "toy"\n'
+            '[parameters.a]\ndefault = 0.1\nlength_dimension = 2\ndomain = "> 0"\n'
+            '[metric]\nf = "1 - 2*M/r + a*M^2/r^3 + r^2/L^2"\n'
+            'asymptotics = "a -> 0: r/2*(1 + r^2/L^2)"\n')
+    path = tmp_path / "two.toml"
+    path.write_text(text)
+    with registry.registry_scope():
+        (fam,) = bhchem.load_family_file(path)
+        assert "stated asymptotics" in fam.conventions["mass_root"]
+        path.write_text(text.replace("a -> 0", "a -> 7"))
+        with pytest.raises(MalformedFamilyError, match=r"line 8: metric: .*'NAME -> 0'"):
+            bhchem.load_family_file(path)
+
+
 def test_metric_declaration_faults(tmp_path):
     with pytest.raises(MalformedFamilyError, match="AdS radius"):
         from_metric(name="no-l", summary="s", reference="r", f=1 - 2 * M / r)
@@ -243,3 +289,12 @@ def test_cli_metric_text_json_and_figure(tmp_path, capsys):
     assert main(["metric", "vdw-fluid"]) == 2
     err = capsys.readouterr().err
     assert err.count("\n") == 1 and "declares no metric" in err and "Traceback" not in err
+
+
+def test_born_infeld_metric_reproduces_M_and_T():
+    """Metric of Gunasekaran, Kubiznak & Mann, JHEP 11 (2012) 110, Sec. 4 (2F1 term, as in
+    models/born_infeld_ads.py): M symbolically; T, declared in the cancellation-free form,
+    at random physical states (sympy does not reduce 1 - sqrt(1+x) + x/(1+sqrt(1+x)))."""
+    th = bind("born-infeld-ads", b=1.0, Q=1.0)
+    agree = metric_route_agrees(th.derivation, physical_sample(th, 16))
+    assert agree.holds and agree.how["M"] == "symbolic", (agree.how, agree.differences)

@@ -57,6 +57,7 @@ Format
     entropy = "area"                     # "area" (default), "first-law" or a formula
     entropy_constant = "0"               # added to the first-law entropy (default 0)
     root = 0                             # which root of f(r+) = 0, when there are several
+    asymptotics = "a -> 0: r/2*(1 + r^2/L^2)"   # or: the root with this limit (NAME -> 0/oo)
 
 With ``[metric]`` the engine solves f(r+) = 0 for the mass parameter, takes T from the
 surface gravity and replaces L by P (:func:`bhchem.declare.metric.from_metric`); the
@@ -141,7 +142,7 @@ FAMILY_MAX_OPERATIONS = 2_000_000
 _TOP_KEYS = ("name", "summary", "reference", "dimension", "state", "state_description",
              "parameters", "definitions", "expressions", "conventions", "metric")
 _METRIC_KEYS = ("f", "h", "mass", "enthalpy", "ads_radius", "entropy", "entropy_constant",
-                "root")
+                "root", "asymptotics")
 _DIMENSION_KEYS = ("default", "minimum", "maximum", "description")
 _PARAMETER_KEYS = ("default", "length_dimension", "domain", "description", "minimum", "maximum",
                    "exclusive_minimum", "exclusive_maximum", "integer", "choices")
@@ -405,6 +406,14 @@ class _Loader:
         if "entropy_constant" in t:
             out["entropy_constant"] = self.formula(t["entropy_constant"],
                                                    key + ("entropy_constant",), plain, no_t).expr
+        if "asymptotics" in t:
+            text = self.string(t, key + ("asymptotics",), one_line=True)
+            limit, sep, expr = text.partition(":")
+            if not sep:
+                self.fail(key + ("asymptotics",), "must read 'NAME -> 0: FORMULA' or "
+                                                  "'NAME -> oo: FORMULA'")
+            out["asymptotics"] = (limit, self.formula(expr.strip(), key + ("asymptotics",),
+                                                      symbols, no_t).expr)
         if "root" in t:
             out["root"] = self.number(t["root"], key + ("root",), integer=True)
             if out["root"] < 0:

@@ -11,9 +11,12 @@ f = 1 - m/r^(d-3) + ..., M = (d-2) Omega m/(16 pi)), and the entropy: the area l
 (default), a stated expression, or ``"first-law"``.  :func:`from_metric` then
 
 1. replaces L by the pressure, L^2 = (d-1)(d-2)/(16 pi P);
-2. solves f(r+) = 0 for the mass parameter (symbolically; with several roots it keeps the
-   one that is real and positive at a reference state and verifies f(r+) = 0, or the one
-   chosen with ``root=``, and says which in the family's conventions);
+2. solves f(r+) = 0 for the mass parameter (symbolically).  With several roots it keeps, in
+   this order: the one chosen with ``root=``; the one with the stated asymptotics
+   (``asymptotics="a -> 0: r/2 + r^3/(2 L^2)"``: the mass parameter approaches that
+   expression in that limit, tested numerically with 30 digits at a reference state); the
+   only one real, positive and verifying f(r+) = 0 at a reference state.  It says which in
+   the family's conventions (``mass_root``), and refuses in one line when it cannot decide;
 3. takes the temperature from the surface gravity, T = f'(r+)/(4 pi), or
    T = sqrt(f'(r+) h'(r+))/(4 pi) when h is given;
 4. builds the entropy: A/4 = Omega r+^(d-2)/4, the stated S, or the entropy that makes the
@@ -110,6 +113,9 @@ class Metric:
         1/g_rr when it differs from f.
     root : int or None
         Which root of f(r+) = 0 to keep when there are several (index in sympy's order).
+    asymptotics : tuple or None
+        (symbol, '0' or 'oo', expression): the kept root approaches the expression as the
+        symbol (a parameter, or ``r`` for r+) goes to 0 or infinity.
     text : str
         f as the author wrote it (for reports).
     mass_name : str
@@ -122,10 +128,12 @@ class Metric:
     root: int | None = None
     text: str = ""
     mass_name: str = "M"
+    asymptotics: tuple | None = None
 
     @classmethod
     def declare(cls, f, *, mass: str = "M", enthalpy=None, h=None, ads_radius: str = "L",
-                root: int | None = None, parameters=(), where: str = "metric") -> "Metric":
+                root: int | None = None, parameters=(), where: str = "metric",
+                asymptotics=None) -> "Metric":
         """A :class:`Metric` from expressions written with symbols *named* ``r`` (the radial
         coordinate), ``ads_radius``, ``mass``, ``d``, ``k`` and the parameter names
         (``parameters``: the family's Parameter objects or their canonical symbols).
@@ -163,7 +171,35 @@ class Metric:
                 raise MalformedFamilyError(f"{where}: the enthalpy may not depend on r")
         if root is not None and (isinstance(root, bool) or not isinstance(root, int) or root < 0):
             raise MalformedFamilyError(f"{where}: root must be a non-negative integer index")
-        return cls(f=fc, mass_enthalpy=mc, h=hc, root=root, text=str(f), mass_name=mass)
+        asym = None
+        if asymptotics is not None:
+            asym = _asymptotics(asymptotics, {**table, "r": sy.r}, where, mass)
+        return cls(f=fc, mass_enthalpy=mc, h=hc, root=root, text=str(f), mass_name=mass,
+                   asymptotics=asym)
+
+
+def _asymptotics(spec, table, where, mass):
+    """('a', '0', expr) from 'a -> 0: expr' or (limit text, expr)."""
+    if isinstance(spec, str):
+        limit, sep, expr = spec.partition(":")
+        if not sep:
+            raise MalformedFamilyError(f"{where}: asymptotics must read 'NAME -> 0: EXPRESSION' "
+                                       f"or 'NAME -> oo: EXPRESSION', not {spec!r}")
+    else:
+        try:
+            limit, expr = spec
+        except (TypeError, ValueError):
+            raise MalformedFamilyError(f"{where}: asymptotics must be 'NAME -> 0: EXPRESSION' "
+                                       f"or a pair (limit text, expression)") from None
+    name, arrow, value = str(limit).partition("->")
+    name, value = name.strip(), value.strip()
+    if not arrow or value not in ("0", "oo", "inf") or name not in table or name in ("pi",):
+        raise MalformedFamilyError(f"{where}: the asymptotic limit {limit!r} must read "
+                                   f"'NAME -> 0' or 'NAME -> oo' with NAME r or a parameter")
+    e = _canonical(expr if not isinstance(expr, str) else sp.sympify(expr, locals={
+        k: sp.Symbol(k) for k in table if k != "pi"}), {k: v for k, v in table.items()
+                                                        if k != mass}, f"{where} asymptotics")
+    return (name, "oo" if value != "0" else "0", e)
 
 
 def _canonical(expr, table, where):
@@ -230,7 +266,7 @@ def solve_horizon(metric: Metric, subs: dict | None = None, reference: dict | No
     MalformedFamilyError
         When f(r+) = 0 has no usable root, or h does not vanish at the horizon.
     """
-    return _cached(_key("solve", metric, dict(subs or {}), dict(reference or {}), where),
+    return _cached(_key("solve", metric, dict(subs or {}), dict(reference or {})),
                    lambda: _solve_horizon(metric, subs, reference, where))
 
 
@@ -264,11 +300,21 @@ def _solve_horizon(metric, subs, reference, where) -> HorizonSolution:
             if abs(val.imag) <= 1e-12 * max(1.0, abs(val)) and val.real > 0 \
                     and abs(res) <= 1e-9 * max(1.0, abs(val)):
                 good.append(i)
+        matching = _matching_asymptotics(metric, roots, f, ref, press) \
+            if metric.asymptotics is not None and metric.root is None else []
         if metric.root is not None:
             if metric.root >= len(roots):
                 raise MalformedFamilyError(f"{where}: root={metric.root}, but f(r+) = 0 has "
                                            f"{len(roots)} roots")
             keep = metric.root
+        elif metric.asymptotics is not None:
+            name, value, e = metric.asymptotics
+            if len(matching) != 1:
+                raise MalformedFamilyError(
+                    f"{where}: {len(matching)} of the {len(roots)} roots of f(r+) = 0 for "
+                    f"{metric.mass_name} approach {e} as {name} -> {value}; choose one with "
+                    f"root=INDEX")
+            keep = matching[0]
         elif len(good) == 1:
             keep = good[0]
         else:
@@ -277,8 +323,15 @@ def _solve_horizon(metric, subs, reference, where) -> HorizonSolution:
                 f"{where}: f(r+) = 0 has {len(roots)} roots for {metric.mass_name} "
                 f"({len(good)} real and positive at the reference state): {listed}; choose "
                 f"one with root=INDEX")
-        note = (f"f(r+) = 0 has {len(roots)} roots for {metric.mass_name}; kept root {keep} "
-                f"({'chosen with root=' if metric.root is not None else 'the only one real, positive and verifying f(r+) = 0 at the reference state'})")
+        if metric.root is not None:
+            why = "chosen with root="
+        elif metric.asymptotics is not None:
+            name, value, e = metric.asymptotics
+            why = f"the one with the stated asymptotics: -> {e} as {name} -> {value}"
+        else:
+            why = "the only one real, positive and verifying f(r+) = 0 at the reference state"
+        note = (f"f(r+) = 0 has {len(roots)} roots for {metric.mass_name}; kept root {keep} = "
+                f"{roots[keep]} ({why})")
         m_sol = roots[keep]
     else:
         m_sol = roots[0]
@@ -297,6 +350,31 @@ def _solve_horizon(metric, subs, reference, where) -> HorizonSolution:
     M = _small_simplify(Mm.subs(MASS, m_sol))
     return HorizonSolution(mass=m_sol, enthalpy=M, temperature=T, f_state=f_state,
                            h_state=h_state, note=note, roots=tuple(roots))
+
+
+def _matching_asymptotics(metric, roots, f, ref, press) -> list:
+    """Indices of the roots that approach the stated expression in the stated limit
+    (relative difference below 1e-3 at 1e-8 (or 1e8) times the reference value of the
+    symbol, 30 significant digits)."""
+    name, value, e = metric.asymptotics
+    e = e.subs(press)
+    sym = sy.r if name == "r" else next((s for s in ref if getattr(s, "name", "") == name),
+                                        None)
+    base = dict(ref)
+    if sym is None:
+        return []
+    x0 = base.get(sym, 1)
+    base[sym] = sp.Float(x0, 30) * (sp.Rational(1, 10**8) if value == "0" else 10**8)
+    out = []
+    for i, m in enumerate(roots):
+        try:
+            a = complex(m.subs(base).evalf(30))
+            b = complex(e.subs(base).evalf(30))
+        except (TypeError, ValueError):
+            continue
+        if abs(a - b) <= 1e-3 * max(abs(b), 1e-300):
+            out.append(i)
+    return out
 
 
 def first_law_integrand(metric: Metric, solution: HorizonSolution, subs: dict | None = None):
@@ -343,7 +421,7 @@ def first_law_entropy(metric: Metric, solution: HorizonSolution, subs: dict | No
     MalformedFamilyError
         When sympy finds no closed form (state the entropy instead).
     """
-    return _cached(_key("entropy", metric, solution, dict(subs or {}), tuple(parameters), where),
+    return _cached(_key("entropy", metric, solution, dict(subs or {}), tuple(parameters)),
                    lambda: _first_law_entropy(metric, solution, subs, where, parameters))
 
 
@@ -374,6 +452,7 @@ def area_entropy(dim):
 def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, parameters=(),
                 mass: str = "M", enthalpy=None, h=None, ads_radius: str = "L",
                 entropy="area", entropy_constant=0, root: int | None = None,
+                asymptotics=None,
                 temperature: str = "surface-gravity", **family) -> Family:
     """A :class:`Family` from a static metric function (see module docstring).
 
@@ -395,6 +474,10 @@ def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, para
         Added to the first-law entropy (default 0), stated in the conventions.
     root : int, optional
         Which root of f(r+) = 0 to keep when there are several.
+    asymptotics : str, optional
+        'NAME -> 0: EXPRESSION' or 'NAME -> oo: EXPRESSION' (NAME r or a parameter): with
+        several roots, keep the one that approaches EXPRESSION (in r, L and the parameters)
+        in that limit.
     temperature : 'surface-gravity' or 'first-law'
         'first-law' declares no T: the engine derives T = (dM/dS)_P (the area-law route
         that a comparison of routes needs).
@@ -409,7 +492,7 @@ def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, para
     who = f"family {name}"
     params = tuple(parameters)
     metric = Metric.declare(f, mass=mass, enthalpy=enthalpy, h=h, ads_radius=ads_radius,
-                            root=root, parameters=params, where=who)
+                            root=root, parameters=params, where=who, asymptotics=asymptotics)
     dim_sym = sy.d if isinstance(dimension, Parameter) else dimension
     subs = {} if isinstance(dimension, Parameter) else {sy.d: dimension}
     reference_values = {p.symbol: sp.nsimplify(p.default) for p in params if not p.discrete}
