@@ -190,11 +190,20 @@ def test_schwarzschild_ads_lyapunov_exponent():
 
 def test_photon_sphere_jump_exponent_is_one_half():
     """Delta r_ps ~ (1 - T/T_c)^(1/2) along the 4D RN-AdS coexistence line (Wei & Liu,
-    PRD 97 (2018) 104027, arXiv:1711.01522): fitted within 0.01."""
+    PRD 97 (2018) 104027, arXiv:1711.01522): fitted within 0.01; the same from a line of a
+    phase diagram (its own coexistence points; here a line built from a coexistence curve)."""
+    from bhchem.analysis.phases import PhaseLine
     th = bind("rn-ads", Q=1.0)
     jumps = photon_sphere_jumps(th)
     assert jumps.converged
     assert abs(jumps.exponent - 0.5) < 0.01 and jumps.exponent_error < 0.01
+    (cp,) = find_critical_points(th).physical
+    curve = bhchem.coexistence_curve(th, cp.P * np.linspace(0.1, 0.9, 9), critical_point=cp)
+    line = PhaseLine(kind="first-order", between=("small", "large"), points=[], ends={},
+                     coexistence=list(curve.points), critical_point=cp)
+    on_line = photon_sphere_jumps(th, line=line)
+    assert on_line.converged and abs(on_line.exponent - 0.5) < 0.01
+    assert on_line.message.startswith("first-order line small/large")
     dr = np.array(jumps.delta_r_ps)
     dl = np.array(jumps.delta_lyapunov)
     # the larger black hole has the larger photon sphere and the smaller Lyapunov exponent;

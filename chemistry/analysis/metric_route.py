@@ -23,7 +23,7 @@ PRD 97 (2018) 104027, arXiv:1711.01522).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import sympy as sp
@@ -426,19 +426,25 @@ def _fit(t, y):
 
 def photon_sphere_jumps(th: Thermodynamics, critical_point=None, n_points: int = 40,
                         fraction: float = 0.05, fit_window=(1e-6, 1e-3),
-                        n_fit: int = 16) -> PhotonJumps:
-    """Delta r_ps, Delta u_ps, Delta lambda along the first-order line that ends at a
-    critical point, and the exponent of Delta r_ps.
+                        n_fit: int = 16, line=None) -> PhotonJumps:
+    """Delta r_ps, Delta u_ps, Delta lambda along a first-order line, and the exponent of
+    Delta r_ps when the line ends at a critical point.
 
     Parameters
     ----------
     th : Thermodynamics
     critical_point : CriticalPoint, optional
-        Default: the standard physical critical point of lowest pressure.
+        Default: the standard physical critical point of lowest pressure at which a
+        first-order line ends (tested just below it, at 0.999 P_c), or the line's.
     n_points : int
-        Coexistence pressures from ``fraction`` P_c to just below P_c (the line).
+        Coexistence pressures from ``fraction`` P_c to just below P_c (the line), when no
+        ``line`` is given.
     fit_window : (t1, t2)
         Range of 1 - P/P_c where the exponent is fitted (``n_fit`` log-spaced pressures).
+    line : PhaseLine, optional
+        A first-order line of :func:`bhchem.analysis.phases.phase_diagram`: its own
+        coexistence points are used (and near-critical ones added when it ends at a
+        critical point).
 
     Raises
     ------
@@ -447,6 +453,8 @@ def photon_sphere_jumps(th: Thermodynamics, critical_point=None, n_points: int =
     """
     derive_metric(th.derivation)  # refuse a family without a metric first
     who = dict(family=th.family.name, parameters=dict(th.values))
+    if line is not None:
+        return _line_jumps(th, line, fit_window, n_fit, who)
     cp = critical_point
     if cp is None:
         std = [c for c in find_critical_points(th).physical
@@ -456,18 +464,45 @@ def photon_sphere_jumps(th: Thermodynamics, critical_point=None, n_points: int =
             return PhotonJumps({}, (), (), empty, empty, (), (), (), None, None, (), False,
                                "no standard physical critical point: no first-order line "
                                "ending at one", **who)
-        cp = min(std, key=lambda c: c.P)
+        ending = [c for c in sorted(std, key=lambda c: c.P)
+                  if coexistence_curve(th, [c.P * (1 - 1e-3)], critical_point=c).points]
+        cp = ending[0] if ending else min(std, key=lambda c: c.P)
     n_lin = n_points // 2
     s = np.concatenate([np.linspace(fraction, 0.9, n_lin, endpoint=False),
                         1 - np.geomspace(0.1, 1e-4, n_points - n_lin)])
     Ps_line = cp.P * np.sort(s)
     Ps_fit = cp.P * (1 - np.geomspace(fit_window[1], fit_window[0], n_fit))
     curve = coexistence_curve(th, np.concatenate([Ps_line, Ps_fit]), critical_point=cp)
-    pts = sorted(curve.points, key=lambda p: p.P)
+    out = _jumps(th, list(curve.points), cp, fit_window, tuple(curve.warnings),
+                 bool(curve.failed_pressures), who)
+    if curve.failed_pressures:
+        out = replace(out, message=out.message + f"; no coexistence at "
+                      f"{len(curve.failed_pressures)} of the requested pressures (from "
+                      f"{fraction:g} P_c up; the line may end before: see --all-lines)")
+    return out
+
+
+def _line_jumps(th, line, fit_window, n_fit, who) -> PhotonJumps:
+    pts = list(getattr(line, "coexistence", None) or [])
+    cp = getattr(line, "critical_point", None)
+    warnings, failed = (), False
+    if cp is not None:
+        Ps_fit = cp.P * (1 - np.geomspace(fit_window[1], fit_window[0], n_fit))
+        curve = coexistence_curve(th, Ps_fit, critical_point=cp)
+        pts += list(curve.points)
+        warnings, failed = tuple(curve.warnings), bool(curve.failed_pressures)
+    label = f"{line.kind} line {'/'.join(map(str, line.between))}"
+    out = _jumps(th, pts, cp, fit_window, warnings, failed, who)
+    return replace(out, message=f"{label}: {out.message}")
+
+
+def _jumps(th, points, cp, fit_window, warnings, failed, who) -> PhotonJumps:
+    pts = sorted((p for p in points if p.x1 is not None and p.x2 is not None),
+                 key=lambda p: p.P)
     if not pts:
         empty = PhotonSphere((), (), (), (), (), (), (), "no states")
         return PhotonJumps({}, (), (), empty, empty, (), (), (), None, None, (), False,
-                           "no coexistence point found", tuple(curve.warnings), **who)
+                           "no coexistence point found", warnings, **who)
     P = np.array([p.P for p in pts])
     T = np.array([p.T for p in pts])
     x1 = np.array([min(p.x1, p.x2) for p in pts])
@@ -477,11 +512,14 @@ def photon_sphere_jumps(th: Thermodynamics, critical_point=None, n_points: int =
     du = np.array(large.u_ps) - np.array(small.u_ps)
     dl = np.array(large.lyapunov) - np.array(small.lyapunov)
     ok = np.array(small.converged) & np.array(large.converged)
-    t = 1 - T / cp.T
-    in_fit = ok & (1 - P / cp.P >= 0.5 * fit_window[0]) & (1 - P / cp.P <= 2 * fit_window[1]) \
-        & (t > 0) & (np.abs(dr) > 0)
     exponent = error = None
     rng: tuple = ()
+    if cp is not None:
+        t = 1 - T / cp.T
+        in_fit = ok & (1 - P / cp.P >= 0.5 * fit_window[0]) \
+            & (1 - P / cp.P <= 2 * fit_window[1]) & (t > 0) & (np.abs(dr) > 0)
+    else:
+        in_fit = np.zeros(P.shape, bool)
     if np.count_nonzero(in_fit) >= 6:
         tt, yy = t[in_fit], np.abs(dr[in_fit])
         exponent, se = _fit(tt, yy)
@@ -491,14 +529,24 @@ def photon_sphere_jumps(th: Thermodynamics, critical_point=None, n_points: int =
         hi, _ = _fit(tt[order][h:], yy[order][h:])
         error = se + abs(hi - lo)
         rng = (float(tt.min()), float(tt.max()))
-    conv = bool(ok.all() and exponent is not None and not curve.failed_pressures)
-    cpd = {"T_c": float(cp.T), "P_c": float(cp.P), "x_c": float(cp.x)}
+    conv = bool(ok.all() and (exponent is not None or cp is None) and not failed)
+    cpd = {} if cp is None else {"T_c": float(cp.T), "P_c": float(cp.P), "x_c": float(cp.x)}
     msg = f"{int(ok.sum())} of {ok.size} coexistence points with both photon spheres"
     if exponent is not None:
         msg += (f"; Delta r_ps ~ (1 - T/T_c)^{exponent:.4f} (+- {error:.1e}) over "
                 f"t = {rng[0]:.1e} .. {rng[1]:.1e}")
-    else:
+    elif cp is not None:
         msg += "; too few points near the critical point to fit the exponent"
+    else:
+        msg += "; the line ends at no critical point (no exponent)"
     return PhotonJumps(cpd, tuple(map(float, P)), tuple(map(float, T)), small, large,
                        tuple(map(float, dr)), tuple(map(float, du)), tuple(map(float, dl)),
-                       exponent, error, rng, conv, msg, tuple(curve.warnings), **who)
+                       exponent, error, rng, conv, msg, warnings, **who)
+
+
+def diagram_photon_jumps(th: Thermodynamics, diagram) -> tuple:
+    """:func:`photon_sphere_jumps` for every first-order line of a phase diagram
+    (:func:`bhchem.analysis.phases.phase_diagram`), in the diagram's order."""
+    derive_metric(th.derivation)
+    return tuple(photon_sphere_jumps(th, line=ln) for ln in diagram.lines
+                 if ln.kind == "first-order")

@@ -11,8 +11,10 @@ import sys
 import warnings
 
 from bhchem.analysis.critical import find_critical_points
-from bhchem.analysis.metric_route import (compare_routes, diagnose_metric, photon_sphere,
+from bhchem.analysis.metric_route import (compare_routes, diagnose_metric,
+                                          diagram_photon_jumps, photon_sphere,
                                           photon_sphere_jumps)
+from bhchem.analysis.phases import phase_diagram
 from bhchem.declare.registry import get_family
 from bhchem.errors import BhchemError, BhchemWarning
 from bhchem.present.metric_report import metric_json, metric_text, plot_photon_jumps
@@ -36,20 +38,24 @@ def register(sub, common, helpers: dict) -> None:
             raise BhchemError(f"family {th.family.name} declares no metric function (declare "
                               f"one with bhchem.declare.from_metric or a [metric] table)")
         diag = diagnose_metric(th)
-        std = [c for c in find_critical_points(th).physical
-               if c.kind == "standard" and c.converged]
-        cp = min(std, key=lambda c: c.P) if std else None
-        ps = photon_sphere(th, cp.x, cp.P) if cp is not None else None
-        jumps = photon_sphere_jumps(th, critical_point=cp)
+        jumps = photon_sphere_jumps(th)   # the line of the lowest critical point that has one
+        cpd = jumps.critical_point
+        if not cpd:
+            std = [c for c in find_critical_points(th).physical
+                   if c.kind == "standard" and c.converged]
+            cp = min(std, key=lambda c: c.P) if std else None
+            cpd = {"x_c": cp.x, "P_c": cp.P} if cp is not None else {}
+        ps = photon_sphere(th, cpd["x_c"], cpd["P_c"]) if cpd else None
         comparison = compare_routes(th) if args.compare else None
+        lines = diagram_photon_jumps(th, phase_diagram(th)) if args.all_lines else None
         if args.output:
             path = save(plot_photon_jumps(jumps), args.output)
             print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
         if args.json:
-            print(to_json(metric_json(th, diag, ps, jumps, comparison),
+            print(to_json(metric_json(th, diag, ps, jumps, comparison, lines),
                           family=get_family(args.family)))
         else:
-            print(metric_text(th, diag, ps, jumps, comparison))
+            print(metric_text(th, diag, ps, jumps, comparison, lines))
         return 0
 
     p = sub.add_parser("metric", parents=[common],
@@ -63,6 +69,9 @@ def register(sub, common, helpers: dict) -> None:
                    help="also compare the routes: surface-gravity T with the first-law "
                         "entropy against the area law with T = dM/dS (critical point, "
                         "coexistence temperature at 0.5 P_c)")
+    p.add_argument("--all-lines", action="store_true",
+                   help="also the jumps across every first-order line of the phase diagram "
+                        "(computes the phase diagram: seconds)")
     p.add_argument("-o", "--output", metavar="FIG",
                    help="figure of Delta r_ps and Delta lambda along the coexistence line "
                         "(.png, .pdf or .svg)")

@@ -10,7 +10,8 @@ JSON keys (a contract with external scripts): ``family``, ``parameters``, ``metr
 ``jumps`` {``P``, ``T``, ``delta_r_ps``, ``delta_u_ps``, ``delta_lyapunov``, ``exponent``,
 ``exponent_error``, ``fit_range``, ``critical_point``, ``converged``, ``message``} and
 ``comparison`` (with ``--compare``: ``metric``, ``area`` {``P_c``, ``T_c``, ``V_c``,
-``T_coexistence_half``, ...}, ``shifts``).
+``T_coexistence_half``, ...}, ``shifts``) and ``line_jumps`` (with ``--all-lines``: one
+``jumps`` record per first-order line of the phase diagram).
 
 Formatting and drawing only: every number comes from the analysis results given.
 """
@@ -31,8 +32,17 @@ def _num(v, fmt=".6g") -> str:
     return "-" if v is None or not math.isfinite(v) else format(v, fmt)
 
 
+def _jumps_json(jumps: PhotonJumps) -> dict:
+    return {"P": list(jumps.P), "T": list(jumps.T), "delta_r_ps": list(jumps.delta_r_ps),
+            "delta_u_ps": list(jumps.delta_u_ps), "delta_lyapunov": list(jumps.delta_lyapunov),
+            "exponent": jumps.exponent, "exponent_error": jumps.exponent_error,
+            "fit_range": list(jumps.fit_range), "critical_point": jumps.critical_point,
+            "converged": jumps.converged, "message": jumps.message}
+
+
 def metric_json(th: Thermodynamics, diag: MetricDiagnosis, ps: PhotonSphere | None,
-                jumps: PhotonJumps, comparison: RouteComparison | None = None) -> dict:
+                jumps: PhotonJumps, comparison: RouteComparison | None = None,
+                line_jumps=None) -> dict:
     """The JSON document of ``bhchem metric`` (keys in the module docstring)."""
     conv = th.family.conventions
     doc = {"family": th.family.name, "parameters": dict(th.values),
@@ -47,22 +57,20 @@ def metric_json(th: Thermodynamics, diag: MetricDiagnosis, ps: PhotonSphere | No
            "photon_sphere": None if ps is None else
            {"x": ps.x[0], "P": ps.P[0], "r_ps": ps.r_ps[0], "u_ps": ps.u_ps[0],
             "lyapunov": ps.lyapunov[0], "converged": ps.converged[0]},
-           "jumps": {"P": list(jumps.P), "T": list(jumps.T),
-                     "delta_r_ps": list(jumps.delta_r_ps),
-                     "delta_u_ps": list(jumps.delta_u_ps),
-                     "delta_lyapunov": list(jumps.delta_lyapunov),
-                     "exponent": jumps.exponent, "exponent_error": jumps.exponent_error,
-                     "fit_range": list(jumps.fit_range),
-                     "critical_point": jumps.critical_point, "converged": jumps.converged,
-                     "message": jumps.message},
+           "jumps": _jumps_json(jumps),
            "warnings": list(jumps.warnings)}
     if comparison is not None:
         doc["comparison"] = comparison.to_dict()
+    if line_jumps is not None:
+        doc["line_jumps"] = [_jumps_json(j) for j in line_jumps]
+        doc["warnings"] += [w for j in line_jumps for w in j.warnings
+                            if w not in doc["warnings"]]
     return doc
 
 
 def metric_text(th: Thermodynamics, diag: MetricDiagnosis, ps: PhotonSphere | None,
-                jumps: PhotonJumps, comparison: RouteComparison | None = None) -> str:
+                jumps: PhotonJumps, comparison: RouteComparison | None = None,
+                line_jumps=None) -> str:
     """The text of ``bhchem metric``."""
     params = ", ".join(f"{k} = {v:g}" for k, v in th.values.items())
     conv = th.family.conventions
@@ -101,7 +109,13 @@ def metric_text(th: Thermodynamics, diag: MetricDiagnosis, ps: PhotonSphere | No
             out.append(f"  {r.route:6s} T = {r.temperature}, S = {r.entropy}: P_c = "
                        f"{_num(r.P_c)}, T_c = {_num(r.T_c)}, V_c = {_num(r.V_c)}, "
                        f"T_coex(0.5 P_c) = {_num(r.T_coexistence_half)}")
-    for w in jumps.warnings:
+    warnings = list(jumps.warnings)
+    if line_jumps is not None:
+        out.append(f"Every first-order line of the phase diagram ({len(line_jumps)}):")
+        for j in line_jumps:
+            out.append(f"  {j.message}")
+            warnings += [w for w in j.warnings if w not in warnings]
+    for w in warnings:
         out.append(f"WARNING: {w}")
     return "\n".join(out)
 
