@@ -349,12 +349,22 @@ def compare_routes(th: Thermodynamics) -> RouteComparison:
     fam = th.family
     if getattr(fam, "metric", None) is None:
         raise MalformedFamilyError(f"family {fam.name} declares no metric function")
-    a = with_route(fam, entropy="first-law", temperature="surface-gravity", suffix="-first-law")
-    b = with_route(fam, entropy="area", temperature="first-law", suffix="-area")
+    conv = fam.conventions
     vals = dict(th.values)
-    ra = _route(bind(a, **vals), "metric", "surface gravity",
-                a.conventions["entropy"])
-    rb = _route(bind(b, **vals), "area", "(dM/dS)_P", "area law")
+    # a family that already is one of the routes is used as it is
+    if conv.get("entropy", "").startswith("first-law") and fam.temperature is not None:
+        a, th_a = fam, th
+    else:
+        a = with_route(fam, entropy="first-law", temperature="surface-gravity",
+                       suffix="-first-law")
+        th_a = bind(a, **vals)
+    if conv.get("entropy", "").startswith("area law") and fam.temperature is None:
+        th_b = th
+    else:
+        th_b = bind(with_route(fam, entropy="area", temperature="first-law", suffix="-area"),
+                    **vals)
+    ra = _route(th_a, "metric", "surface gravity", a.conventions["entropy"])
+    rb = _route(th_b, "area", "(dM/dS)_P", "area law")
     shifts = {}
     for key, name in (("P_c", "P_c"), ("T_c", "T_c"), ("V_c", "V_c"),
                       ("T_coexistence_half", "T_coexistence_half")):
