@@ -310,3 +310,39 @@ def test_born_infeld_metric_reproduces_M_and_T():
     th = bind("born-infeld-ads", b=1.0, Q=1.0)
     agree = metric_route_agrees(th.derivation, physical_sample(th, 16))
     assert agree.holds and agree.how["M"] == "symbolic", (agree.how, agree.differences)
+
+
+# -- the first-law entropy without a closed form: certified quadrature ------------------------
+def test_first_law_entropy_by_certified_quadrature(monkeypatch):
+    """With sympy's integration budget at zero, Bardeen's first-law entropy comes from the
+    quadrature (bhchem.declare.entropy_quadrature); with the reference S(r0 = g) taken from
+    the closed form pi[(r^2 - 2g^2) sqrt(r^2+g^2)/r + 3 g^2 asinh(r/g)] (derived here by
+    differentiation) the two agree to the certified tolerance, and the engine's first law and
+    Smarr relation (Phi_g from the quadrature of d/dg of the integrand) hold."""
+    from bhchem import check_smarr
+    from bhchem.declare import metric as metric_module
+    gg, rr = sp.symbols("g r", positive=True)
+    closed = sp.pi * ((rr**2 - 2 * gg**2) * sp.sqrt(rr**2 + gg**2) / rr
+                      + 3 * gg**2 * sp.asinh(rr / gg))
+    assert sp.simplify(sp.diff(closed, rr) - 2 * sp.pi * (rr**2 + gg**2)**sp.Rational(3, 2)
+                       / rr**2) == 0
+    monkeypatch.setattr(metric_module, "INTEGRATION_MAX_OPERATIONS", 10)
+    g = sp.Symbol("g", positive=True)
+    fam = from_metric(name="bardeen-quadrature", summary="s", reference="Tzikas 2019",
+                      parameters=(Parameter("g", 1.0, length_dimension=1,
+                                            domain=Domain.positive()),),
+                      f=1 - 2 * M * r**2 / (r**2 + g**2)**sp.Rational(3, 2) + r**2 / L**2,
+                      entropy="first-law", entropy_reference=(g, closed.subs({rr: g, gg: g})))
+    assert "certified quadrature" in fam.conventions["entropy"]
+    th = bind(fam, g=0.7)
+    x = np.array([0.3, 1.0, 4.0, 30.0])
+    exact = np.array([float(closed.subs({rr: v, gg: sp.Rational(7, 10)})) for v in x])
+    assert np.allclose(th.S(x, 0.01), exact, rtol=1e-12, atol=0)
+    assert check_first_law(th).holds is True
+    assert check_smarr(th).holds is True
+    with pytest.raises(MalformedFamilyError, match="entropy_reference"):
+        from_metric(name="bardeen-no-ref", summary="s", reference="r",
+                    parameters=(Parameter("g", 1.0, length_dimension=1,
+                                          domain=Domain.positive()),),
+                    f=1 - 2 * M * r**2 / (r**2 + g**2)**sp.Rational(3, 2) + r**2 / L**2,
+                    entropy="first-law")

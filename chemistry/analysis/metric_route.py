@@ -276,7 +276,8 @@ def _consistent_entropy_text(fam, integrand) -> str:
     try:
         alt = with_route(fam, entropy="first-law", temperature="surface-gravity",
                          suffix="-first-law")
-        return alt.conventions["entropy"].split("dr+ = ", 1)[1]
+        text = alt.conventions["entropy"]
+        return text.split("dr+ = ", 1)[1] if "dr+ = " in text else text
     except MalformedFamilyError:
         return (f"integral of {integrand} dr+ (no closed form found)" if integrand is not None
                 else "not available")

@@ -56,6 +56,8 @@ Format
     ads_radius = "L"                     # name of the AdS radius (default L)
     entropy = "area"                     # "area" (default), "first-law" or a formula
     entropy_constant = "0"               # added to the first-law entropy (default 0)
+    entropy_reference = ["g", "pi*g^2"]  # S = S0 at r+ = r0: a certified quadrature is used
+                                         # when the first-law entropy has no closed form
     root = 0                             # which root of f(r+) = 0, when there are several
     asymptotics = "a -> 0: r/2*(1 + r^2/L^2)"   # or: the root with this limit (NAME -> 0/oo)
 
@@ -142,7 +144,7 @@ FAMILY_MAX_OPERATIONS = 2_000_000
 _TOP_KEYS = ("name", "summary", "reference", "dimension", "state", "state_description",
              "parameters", "definitions", "expressions", "conventions", "metric")
 _METRIC_KEYS = ("f", "h", "mass", "enthalpy", "ads_radius", "entropy", "entropy_constant",
-                "root", "asymptotics")
+                "root", "asymptotics", "entropy_reference")
 _DIMENSION_KEYS = ("default", "minimum", "maximum", "description")
 _PARAMETER_KEYS = ("default", "length_dimension", "domain", "description", "minimum", "maximum",
                    "exclusive_minimum", "exclusive_maximum", "integer", "choices")
@@ -357,12 +359,14 @@ class _Loader:
             if k in exprs:
                 kwargs[attr] = exprs[k]
         try:
-            with operation_limit(FAMILY_MAX_OPERATIONS, "the family",
-                                 "FAMILY_MAX_OPERATIONS"):
-                if metric is not None:
-                    kwargs.pop("state")
-                    family = from_metric(**kwargs, **metric)
-                else:
+            if metric is not None:
+                # from_metric bounds its own work by counts (SOLVE_MAX_OPERATIONS,
+                # INTEGRATION_MAX_OPERATIONS in bhchem.declare.metric)
+                kwargs.pop("state")
+                family = from_metric(**kwargs, **metric)
+            else:
+                with operation_limit(FAMILY_MAX_OPERATIONS, "the family",
+                                     "FAMILY_MAX_OPERATIONS"):
                     family = Family(**kwargs)
         except MalformedFamilyError as exc:
             self.fail(("metric",) if metric is not None else (), str(exc))
@@ -406,6 +410,17 @@ class _Loader:
         if "entropy_constant" in t:
             out["entropy_constant"] = self.formula(t["entropy_constant"],
                                                    key + ("entropy_constant",), plain, no_t).expr
+        if "entropy_reference" in t:
+            ref = t["entropy_reference"]
+            k = key + ("entropy_reference",)
+            if not isinstance(ref, list) or len(ref) != 2:
+                self.fail(k, "must be an array of two formulas [r0, S0] (S = S0 at r+ = r0)")
+            consts = {n: v for n, v in plain.items() if n not in (state_name, "P")}
+            only = {**no_t, state_name: "r0 and S0 may depend on the parameters only",
+                    "P": "r0 and S0 may depend on the parameters only"}
+            r0 = self.formula(ref[0], k, consts, only).expr
+            S0 = self.formula(ref[1], k, consts, only).expr
+            out["entropy_reference"] = (r0, S0)
         if "asymptotics" in t:
             text = self.string(t, key + ("asymptotics",), one_line=True)
             limit, sep, expr = text.partition(":")

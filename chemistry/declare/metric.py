@@ -58,6 +58,8 @@ from dataclasses import dataclass, field, replace
 import sympy as sp
 
 from bhchem.declare import symbols as sy
+from bhchem.declare.entropy_quadrature import quadrature_entropy
+from bhchem.declare.expression_parser import ExpressionError, operation_limit
 from bhchem.declare.family import Family, Parameter
 from bhchem.errors import MalformedFamilyError
 
@@ -116,6 +118,9 @@ class Metric:
     asymptotics : tuple or None
         (symbol, '0' or 'oo', expression): the kept root approaches the expression as the
         symbol (a parameter, or ``r`` for r+) goes to 0 or infinity.
+    entropy_reference : tuple or None
+        (r0, S0): the first-law entropy is S0 at r+ = r0 (expressions in the parameters);
+        needed when the entropy integral has no closed form (certified quadrature).
     text : str
         f as the author wrote it (for reports).
     mass_name : str
@@ -129,11 +134,12 @@ class Metric:
     text: str = ""
     mass_name: str = "M"
     asymptotics: tuple | None = None
+    entropy_reference: tuple | None = None
 
     @classmethod
     def declare(cls, f, *, mass: str = "M", enthalpy=None, h=None, ads_radius: str = "L",
                 root: int | None = None, parameters=(), where: str = "metric",
-                asymptotics=None) -> "Metric":
+                asymptotics=None, entropy_reference=None) -> "Metric":
         """A :class:`Metric` from expressions written with symbols *named* ``r`` (the radial
         coordinate), ``ads_radius``, ``mass``, ``d``, ``k`` and the parameter names
         (``parameters``: the family's Parameter objects or their canonical symbols).
@@ -174,8 +180,18 @@ class Metric:
         asym = None
         if asymptotics is not None:
             asym = _asymptotics(asymptotics, {**table, "r": sy.r}, where, mass)
+        ref = None
+        if entropy_reference is not None:
+            try:
+                r0, S0 = entropy_reference
+            except (TypeError, ValueError):
+                raise MalformedFamilyError(f"{where}: entropy_reference must be a pair "
+                                           f"(r0, S0)") from None
+            pt = {k: v for k, v in table.items() if k not in ("r", ads_radius, mass)}
+            ref = (_canonical(r0, pt, f"{where} entropy_reference r0"),
+                   _canonical(S0, pt, f"{where} entropy_reference S0"))
         return cls(f=fc, mass_enthalpy=mc, h=hc, root=root, text=str(f), mass_name=mass,
-                   asymptotics=asym)
+                   asymptotics=asym, entropy_reference=ref)
 
 
 def _asymptotics(spec, table, where, mass):
@@ -266,8 +282,19 @@ def solve_horizon(metric: Metric, subs: dict | None = None, reference: dict | No
     MalformedFamilyError
         When f(r+) = 0 has no usable root, or h does not vanish at the horizon.
     """
-    return _cached(_key("solve", metric, dict(subs or {}), dict(reference or {})),
-                   lambda: _solve_horizon(metric, subs, reference, where))
+    def work():
+        try:
+            with operation_limit(SOLVE_MAX_OPERATIONS, "solving f(r+) = 0 and the surface "
+                                 "gravity", "SOLVE_MAX_OPERATIONS"):
+                return _solve_horizon(metric, subs, reference, where)
+        except ExpressionError as exc:
+            raise MalformedFamilyError(f"{where}: {exc}") from None
+    return _cached(_key("solve", metric, dict(subs or {}), dict(reference or {})), work)
+
+
+#: most operations (Python function calls) for solving f(r+) = 0 and differentiating f:
+#: a count, not a time (see bhchem.declare.expression_parser.operation_limit)
+SOLVE_MAX_OPERATIONS = 3_000_000
 
 
 def _solve_horizon(metric, subs, reference, where) -> HorizonSolution:
@@ -411,7 +438,13 @@ def _assumed(parameters) -> dict:
 
 def first_law_entropy(metric: Metric, solution: HorizonSolution, subs: dict | None = None,
                       where: str = "metric", parameters=()):
-    """The antiderivative S(r+) of :func:`first_law_integrand` (integration constant 0).
+    """The first-law entropy: ``(S, how)``.
+
+    The antiderivative of :func:`first_law_integrand` in closed form (integration constant
+    0; ``how`` = 'closed form'), checked by differentiating it at reference states; when
+    sympy finds none within a counted amount of work, or its result fails the check, the
+    certified quadrature S = S0 + integral from r0 (:mod:`bhchem.declare.entropy_quadrature`)
+    with ``metric.entropy_reference`` = (r0, S0) (``how`` says so and why).
 
     ``parameters``: the family's parameters; their domains' signs are assumed while
     integrating.
@@ -419,29 +452,93 @@ def first_law_entropy(metric: Metric, solution: HorizonSolution, subs: dict | No
     Raises
     ------
     MalformedFamilyError
-        When sympy finds no closed form (state the entropy instead).
+        When there is no closed form and no entropy_reference.
     """
     return _cached(_key("entropy", metric, solution, dict(subs or {}), tuple(parameters)),
                    lambda: _first_law_entropy(metric, solution, subs, where, parameters))
 
 
 def _first_law_entropy(metric, solution, subs, where, parameters):
+    """(S, how): the closed form (how 'closed form', constant 0) when sympy finds one within
+    :data:`INTEGRATION_MAX_OPERATIONS` and it passes :func:`_verify_antiderivative`; else
+    the certified quadrature from ``metric.entropy_reference`` (how 'quadrature')."""
     assumed = _assumed(parameters)
+    back = {v: k for k, v in assumed.items()}
     integrand = first_law_integrand(metric, solution, subs).xreplace(assumed)
     # sqrt((r^2 + 2a)^2) is r^2 + 2a for positive symbols, once the base is factored
     integrand = _small_simplify(integrand.replace(
         lambda e: isinstance(e, sp.Pow) and e.exp.is_Rational and not e.exp.is_Integer,
         lambda e: sp.Pow(sp.factor(e.base), e.exp)))
+    why = ""
     try:
-        S = sp.integrate(integrand, sy.r, conds="none")
+        with operation_limit(INTEGRATION_MAX_OPERATIONS, "the first-law entropy integral",
+                             "INTEGRATION_MAX_OPERATIONS"):
+            S = sp.integrate(integrand, sy.r, conds="none")
+    except ExpressionError:
+        S, why = None, f"sympy needed more than {INTEGRATION_MAX_OPERATIONS} operations"
     except Exception as exc:  # sympy's integrator raises many kinds of errors
-        raise MalformedFamilyError(f"{where}: the first-law entropy integral of {integrand} "
-                                   f"failed in sympy ({type(exc).__name__})") from None
-    if S.has(sp.Integral):
+        S, why = None, f"sympy's integrator failed ({type(exc).__name__})"
+    if S is not None and S.has(sp.Integral):
+        S, why = None, "sympy found no closed form"
+    if S is not None:
+        # log(u) from the integral of u'/u: log|u| is the real antiderivative for either sign
+        S = _small_simplify(S).replace(sp.log, lambda u: sp.log(sp.Abs(u)))
+        ok, detail = _verify_antiderivative(S, integrand, parameters, assumed)
+        if ok:
+            return S.xreplace(back), "closed form"
+        S, why = None, f"sympy's antiderivative fails the check dS/dr = integrand ({detail})"
+    if metric.entropy_reference is None:
         raise MalformedFamilyError(
-            f"{where}: no closed form for the first-law entropy S = integral of {integrand} "
-            f"dr+ (give the entropy as an expression, or fix the dimension)")
-    return _small_simplify(S).xreplace({v: k for k, v in assumed.items()})
+            f"{where}: no closed form for the first-law entropy S = integral of "
+            f"{integrand.xreplace(back)} dr+ ({why}); give entropy_reference = (r0, S0) "
+            f"(S = S0 at r+ = r0) for a certified quadrature, or state the entropy")
+    r0, S0 = (e.subs(subs or {}) for e in metric.entropy_reference)
+    cont = tuple(p.symbol for p in parameters if not p.discrete)
+    S = quadrature_entropy(integrand.xreplace(back), cont, r0, S0)
+    return S, f"certified quadrature ({why}; S = {S0} at r+ = {r0})"
+
+
+#: most operations (Python function calls) sympy may spend on the first-law entropy
+#: integral before the certified quadrature is used instead: a count, not a time
+INTEGRATION_MAX_OPERATIONS = 3_000_000
+
+
+#: functions a closed-form entropy may contain (the engine's numerics evaluate them)
+_NUMERIC_FUNCTIONS = (sp.exp, sp.log, sp.sin, sp.cos, sp.tan, sp.sinh, sp.cosh, sp.tanh,
+                      sp.asinh, sp.acosh, sp.atanh, sp.atan, sp.asin, sp.acos, sp.Abs, sp.sign,
+                      sp.hyper)
+
+
+def _verify_antiderivative(S, integrand, parameters, assumed):
+    """dS/dr = integrand at a few reference states (30 digits, relative 1e-12), and S uses
+    only functions the numerics evaluate (no Ei, erf, polylog ...)."""
+    other = sorted({type(e).__name__ for e in S.atoms(sp.Function)
+                    if not isinstance(e, _NUMERIC_FUNCTIONS)})
+    if other:
+        return False, f"it uses {', '.join(other)}, which the numerics do not evaluate"
+    dS = sp.diff(S, sy.r)
+    vals = {sy.P: sp.Rational(1, 100)}
+    for p in parameters:
+        if not p.discrete:
+            vals[assumed.get(p.symbol, p.symbol)] = sp.nsimplify(p.default)
+    worst = 0.0
+    for x in (sp.Rational(7, 10), sp.Rational(13, 10), sp.Integer(3), sp.Integer(11)):
+        at = {**vals, sy.r: x}
+        try:
+            a = complex(dS.subs(at).evalf(30))
+            b = complex(integrand.subs(at).evalf(30))
+        except (TypeError, ValueError):
+            return False, "not a number at a reference state"
+        worst = max(worst, abs(a - b) / max(abs(b), 1e-300))
+    return worst <= 1e-12, f"relative difference {worst:.1e}"
+
+
+def _first_law_text(S, how, const) -> str:
+    if how == "closed form":
+        return (f"first-law entropy S = integral of (dM/dr+)/T dr+ = {S} + C, integration "
+                f"constant C = {const}")
+    return (f"first-law entropy S = integral of (dM/dr+)/T dr+ by {how}"
+            + (f", plus C = {const}" if const != 0 else ""))
 
 
 def area_entropy(dim):
@@ -452,7 +549,7 @@ def area_entropy(dim):
 def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, parameters=(),
                 mass: str = "M", enthalpy=None, h=None, ads_radius: str = "L",
                 entropy="area", entropy_constant=0, root: int | None = None,
-                asymptotics=None,
+                asymptotics=None, entropy_reference=None,
                 temperature: str = "surface-gravity", **family) -> Family:
     """A :class:`Family` from a static metric function (see module docstring).
 
@@ -472,6 +569,9 @@ def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, para
     entropy : 'area', 'first-law' or a sympy expression in r, d and the parameters
     entropy_constant : sympy expression
         Added to the first-law entropy (default 0), stated in the conventions.
+    entropy_reference : (r0, S0), optional
+        S = S0 at r+ = r0 (expressions in the parameters): used when the first-law entropy
+        has no closed form (certified quadrature, :mod:`bhchem.declare.entropy_quadrature`).
     root : int, optional
         Which root of f(r+) = 0 to keep when there are several.
     asymptotics : str, optional
@@ -492,7 +592,8 @@ def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, para
     who = f"family {name}"
     params = tuple(parameters)
     metric = Metric.declare(f, mass=mass, enthalpy=enthalpy, h=h, ads_radius=ads_radius,
-                            root=root, parameters=params, where=who, asymptotics=asymptotics)
+                            root=root, parameters=params, where=who, asymptotics=asymptotics,
+                            entropy_reference=entropy_reference)
     dim_sym = sy.d if isinstance(dimension, Parameter) else dimension
     subs = {} if isinstance(dimension, Parameter) else {sy.d: dimension}
     reference_values = {p.symbol: sp.nsimplify(p.default) for p in params if not p.discrete}
@@ -510,12 +611,10 @@ def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, para
             S = area_entropy(dim_sym)
             conventions.setdefault("entropy", "area law S = Omega_{d-2} r+^(d-2)/4")
         elif entropy == "first-law":
-            S0 = first_law_entropy(metric, sol, subs, where=who, parameters=params)
+            S0, how = first_law_entropy(metric, sol, subs, where=who, parameters=params)
             const = sp.sympify(entropy_constant)
             S = S0 + const
-            conventions.setdefault(
-                "entropy", f"first-law entropy S = integral of (dM/dr+)/T dr+ = {S0} + C, "
-                           f"integration constant C = {const}")
+            conventions.setdefault("entropy", _first_law_text(S0, how, const))
         else:
             raise MalformedFamilyError(f"{who}: entropy must be 'area', 'first-law' or an "
                                        f"expression, not {entropy!r}")
@@ -563,10 +662,9 @@ def with_route(family: Family, *, entropy, temperature: str, suffix: str) -> Fam
         S = area_entropy(dim_sym)
         conv["entropy"] = "area law S = Omega_{d-2} r+^(d-2)/4"
     elif entropy == "first-law":
-        S0 = first_law_entropy(m, sol, subs, where=f"family {family.name}", parameters=params)
-        S = S0
-        conv["entropy"] = (f"first-law entropy S = integral of (dM/dr+)/T dr+ = {S0} + C, "
-                           f"integration constant C = 0")
+        S, how = first_law_entropy(m, sol, subs, where=f"family {family.name}",
+                                   parameters=params)
+        conv["entropy"] = _first_law_text(S, how, 0)
     else:
         S = entropy
         conv["entropy"] = f"stated: S = {entropy}"
