@@ -346,3 +346,18 @@ def test_first_law_entropy_by_certified_quadrature(monkeypatch):
                                           domain=Domain.positive()),),
                     f=1 - 2 * M * r**2 / (r**2 + g**2)**sp.Rational(3, 2) + r**2 / L**2,
                     entropy="first-law")
+
+
+def test_first_law_route_of_bundled_gauss_bonnet_is_its_wald_entropy():
+    """The bundled gauss-bonnet-ads (Wald entropy declared) rebuilt from its metric at
+    d = 5, k = 1 with the first-law entropy: S = pi^2 r (r^2 + 12 alpha)/2 (constant 0), the
+    Wald entropy Omega r^3/4 (1 + 2(d-2) alpha~/((d-4) r^2)) with alpha~ = 2 alpha (Cai,
+    PRD 65 (2002) 084014; Cai, Cao, Li & Yang, JHEP 09 (2013) 005) -- exactly."""
+    from bhchem.declare.metric import with_route
+    fam = with_route(get_family("gauss-bonnet-ads"), entropy="first-law",
+                     temperature="surface-gravity", suffix="-first-law",
+                     fixed={"d": 5, "k": 1})
+    al, rr = sp.symbols("alpha r", positive=True)
+    wald = 2 * sp.pi**2 * rr**3 / 4 * (1 + 2 * 3 * 2 * al / rr**2)
+    assert sp.simplify(_by_name(fam.entropy, alpha=al, r=rr) - wald) == 0
+    assert fam.dimension == 5 and [p.name for p in fam.parameters] == ["alpha", "Q"]

@@ -225,7 +225,9 @@ def diagnose_metric(th: Thermodynamics, n_points: int = 64, seed: int = 20261202
                                             {sy.d: th.derivation.dimension})
         except MalformedFamilyError:
             integrand = None
-        consistent = _consistent_entropy_text(fam, integrand)
+        fixed = {p.name: th.values[p.name] for p in fam.discrete_parameters
+                 if p.name in th.values}
+        consistent = _consistent_entropy_text(fam, integrand, fixed)
     if example is None:
         x0, P0 = th.typical_state(), th.typical_pressure()
         own = [(xs, Ps) for bound, xs, Ps in sample.points if bound is th]
@@ -272,10 +274,10 @@ def _entropy_label(rule: str) -> str:
     return rule
 
 
-def _consistent_entropy_text(fam, integrand) -> str:
+def _consistent_entropy_text(fam, integrand, fixed) -> str:
     try:
         alt = with_route(fam, entropy="first-law", temperature="surface-gravity",
-                         suffix="-first-law")
+                         suffix="-first-law", fixed=fixed)
         text = alt.conventions["entropy"]
         return text.split("dr+ = ", 1)[1] if "dr+ = " in text else text
     except MalformedFamilyError:
@@ -352,18 +354,21 @@ def compare_routes(th: Thermodynamics) -> RouteComparison:
         raise MalformedFamilyError(f"family {fam.name} declares no metric function")
     conv = fam.conventions
     vals = dict(th.values)
+    # the routes are built at this binding's structural values (d, k, ...)
+    fixed = {p.name: vals[p.name] for p in fam.discrete_parameters if p.name in vals}
+    cont = {k: v for k, v in vals.items() if k not in fixed}
     # a family that already is one of the routes is used as it is
     if conv.get("entropy", "").startswith("first-law") and fam.temperature is not None:
         a, th_a = fam, th
     else:
         a = with_route(fam, entropy="first-law", temperature="surface-gravity",
-                       suffix="-first-law")
-        th_a = bind(a, **vals)
+                       suffix="-first-law", fixed=fixed)
+        th_a = bind(a, **cont)
     if conv.get("entropy", "").startswith("area law") and fam.temperature is None:
         th_b = th
     else:
-        th_b = bind(with_route(fam, entropy="area", temperature="first-law", suffix="-area"),
-                    **vals)
+        th_b = bind(with_route(fam, entropy="area", temperature="first-law", suffix="-area",
+                               fixed=fixed), **cont)
     ra = _route(th_a, "metric", "surface gravity", a.conventions["entropy"])
     rb = _route(th_b, "area", "(dM/dS)_P", "area law")
     shifts = {}

@@ -218,6 +218,20 @@ def _asymptotics(spec, table, where, mass):
     return (name, "oo" if value != "0" else "0", e)
 
 
+def _fixed_metric(metric: Metric, subs: dict) -> Metric:
+    """The metric with structural values (d, k, ...) substituted."""
+    def s(e):
+        return e.subs(subs) if isinstance(e, sp.Basic) else e
+    asym = metric.asymptotics
+    if asym is not None:
+        asym = (asym[0], asym[1], s(asym[2]))
+    ref = metric.entropy_reference
+    if ref is not None:
+        ref = (s(ref[0]), s(ref[1]))
+    return replace(metric, f=s(metric.f), mass_enthalpy=s(metric.mass_enthalpy), h=s(metric.h),
+                   asymptotics=asym, entropy_reference=ref)
+
+
 def _canonical(expr, table, where):
     if expr is None:
         return None
@@ -636,7 +650,8 @@ def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, para
                   conventions=conventions, metric=metric, **family)
 
 
-def with_route(family: Family, *, entropy, temperature: str, suffix: str) -> Family:
+def with_route(family: Family, *, entropy, temperature: str, suffix: str,
+               fixed: dict | None = None) -> Family:
     """The same metric family with another entropy/temperature choice (a route).
 
     Parameters
@@ -647,11 +662,34 @@ def with_route(family: Family, *, entropy, temperature: str, suffix: str) -> Fam
     temperature : 'surface-gravity' or 'first-law'
     suffix : str
         Appended to the name (``-area``, ``-first-law``).
+    fixed : dict, optional
+        Values of the structural parameters (d, k, ...): the route family has them fixed
+        (the dimension an integer, the others no longer parameters), which the symbolic
+        solving and integration need.
     """
     m = family.metric
     if m is None:
         raise MalformedFamilyError(f"family {family.name}: declares no metric")
     dim = family.dimension
+    fixed = dict(fixed or {})
+    if fixed:
+        subs_fixed = {}
+        for p in family.discrete_parameters:
+            if p.name in fixed:
+                subs_fixed[p.symbol] = fixed[p.name]
+        if isinstance(dim, Parameter) and "d" in fixed:
+            dim = int(fixed["d"])
+        subs_fixed[sy.d] = dim if not isinstance(dim, Parameter) else sy.d
+        m = _fixed_metric(m, subs_fixed)
+        kept = tuple(p for p in family.parameters if p.name not in fixed)
+        family = replace(family, dimension=dim, parameters=kept, metric=m,
+                         conditions=tuple(sp.sympify(c).subs(subs_fixed)
+                                          for c in family.conditions),
+                         background_gibbs=(sp.sympify(family.background_gibbs).subs(subs_fixed)
+                                           if family.background_gibbs is not None else None),
+                         typical_state=None, typical_pressure=None, enthalpy=sp.Integer(0),
+                         entropy=sy.r, temperature=None, volume=None, horizon_radius=None,
+                         specific_volume=None)
     subs = {} if isinstance(dim, Parameter) else {sy.d: dim}
     params = family.parameters
     ref = {p.symbol: sp.nsimplify(p.default) for p in params if not p.discrete}
