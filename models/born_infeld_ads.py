@@ -75,7 +75,9 @@ FAMILY = Family(
         + 2 * b**2 * sp.Symbol("r")**2 / 3 * (1 - sp.sqrt(1 + Q**2 / (b**2 * sp.Symbol("r")**4)))
         + 4 * Q**2 / (3 * sp.Symbol("r")**2) * sp.hyper(
             [sp.Rational(1, 4), sp.Rational(1, 2)], [sp.Rational(5, 4)],
-            -Q**2 / (b**2 * sp.Symbol("r")**4)), parameters=(b, Q)),
+            -Q**2 / (b**2 * sp.Symbol("r")**4)), parameters=(b, Q),
+        text="f = 1 - 2M/r + r^2/L^2 + (2 b^2 r^2/3)(1 - sqrt(1 + Q^2/(b^2 r^4))) "
+             "+ (4 Q^2/(3 r^2)) 2F1(1/4, 1/2; 5/4; -Q^2/(b^2 r^4))"),
     conventions={
         "charge": "Q as in GKM 2012 Sec. 4 (= the rn-ads charge in 4D)",
         "born_infeld": "Phi_b = (dM/db)_{S,P,Q} is the BI vacuum polarisation B of GKM 2012",

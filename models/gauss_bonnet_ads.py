@@ -92,7 +92,9 @@ FAMILY = Family(
                                                - 4 * _at * _q**2 / _rho ** (2 * d - 4)
                                                - 4 * _at / _L**2)),
         mass="m", enthalpy=(d - 2) * _Om * _m / (16 * pi),
-        parameters=(alpha, Q)),
+        parameters=(alpha, Q),
+        text="f = k + r^2/(2 a)(1 - sqrt(1 + 4 a m/r^(d-1) - 4 a q^2/r^(2d-4) - 4 a/L^2)), "
+             "a = (d-3)(d-4) alpha, q as in rn-ads, M = (d-2) Omega_{d-2} m/(16 pi)"),
     conventions={
         "coupling": "alpha is the bare Gauss-Bonnet coupling of the action; CCLY13 and "
                     "Wei & Liu use alpha~ = (d-3)(d-4) alpha",

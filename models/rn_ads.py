@@ -46,5 +46,8 @@ FAMILY = Family(
     # the metric function above (GKM 2012, Sec. 3); tests check it reproduces M and T
     metric=Metric.declare(1 - _m / _rho ** (d - 3) + _q**2 / _rho ** (2 * (d - 3))
                           + _rho**2 / _L**2, mass="m", enthalpy=(d - 2) * _Om * _m / (16 * pi),
-                          parameters=(_Q_PARAMETER,)),
+                          parameters=(_Q_PARAMETER,),
+                          text="f = 1 - m/r^(d-3) + q^2/r^(2(d-3)) + r^2/L^2, "
+                               "q = 8 pi Q/(sqrt(2(d-2)(d-3)) Omega_{d-2}), "
+                               "M = (d-2) Omega_{d-2} m/(16 pi)"),
 )

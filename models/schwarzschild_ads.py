@@ -34,5 +34,6 @@ FAMILY = Family(
     # f = 1 - m/r^(d-3) + r^2/L^2, M = (d-2) Omega m/(16 pi); tests check M and T from it
     metric=Metric.declare(1 - sp.Symbol("m") / sp.Symbol("r") ** (d - 3)
                           + sp.Symbol("r")**2 / sp.Symbol("L")**2,
-                          mass="m", enthalpy=(d - 2) * _Om * sp.Symbol("m") / (16 * pi)),
+                          mass="m", enthalpy=(d - 2) * _Om * sp.Symbol("m") / (16 * pi),
+                          text="f = 1 - m/r^(d-3) + r^2/L^2, M = (d-2) Omega_{d-2} m/(16 pi)"),
 )

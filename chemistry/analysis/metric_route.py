@@ -42,7 +42,7 @@ from bhchem.errors import MalformedFamilyError
 from bhchem.numerics import bracketed_root
 
 #: offsets s of the radial grid rho = r+ (1 + s) on which 2f - rho f' is sampled
-_GRID = np.geomspace(1e-9, 1e4, 400)
+_GRID = np.geomspace(1e-9, 1e8, 500)
 
 
 # -- photon sphere --------------------------------------------------------------------------
@@ -91,7 +91,7 @@ def _metric_functions(th: Thermodynamics):
 def photon_sphere(th: Thermodynamics, x, P) -> PhotonSphere:
     """r_ps, u_ps and lambda at the states (x, P) (arrays broadcast).
 
-    The radial grid rho = r+ (1 + s), s from 1e-9 to 1e4 (log-spaced, 400 points), is
+    The radial grid rho = r+ (1 + s), s from 1e-9 to 1e8 (log-spaced, 500 points), is
     scanned for the first sign change of 2f - rho f' (negative just outside a
     non-extremal horizon); Brent's method refines it.  A state without a sign change, or
     whose root does not refine, is returned with NaN and ``converged`` False.

@@ -139,10 +139,11 @@ class Metric:
     @classmethod
     def declare(cls, f, *, mass: str = "M", enthalpy=None, h=None, ads_radius: str = "L",
                 root: int | None = None, parameters=(), where: str = "metric",
-                asymptotics=None, entropy_reference=None) -> "Metric":
+                asymptotics=None, entropy_reference=None, text: str | None = None) -> "Metric":
         """A :class:`Metric` from expressions written with symbols *named* ``r`` (the radial
         coordinate), ``ads_radius``, ``mass``, ``d``, ``k`` and the parameter names
         (``parameters``: the family's Parameter objects or their canonical symbols).
+        ``text``: f as the paper writes it, for reports (default: sympy's form of f).
 
         Raises
         ------
@@ -190,7 +191,7 @@ class Metric:
             pt = {k: v for k, v in table.items() if k not in ("r", ads_radius, mass)}
             ref = (_canonical(r0, pt, f"{where} entropy_reference r0"),
                    _canonical(S0, pt, f"{where} entropy_reference S0"))
-        return cls(f=fc, mass_enthalpy=mc, h=hc, root=root, text=str(f), mass_name=mass,
+        return cls(f=fc, mass_enthalpy=mc, h=hc, root=root, text=text or str(f), mass_name=mass,
                    asymptotics=asym, entropy_reference=ref)
 
 

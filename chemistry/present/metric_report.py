@@ -75,7 +75,8 @@ def metric_text(th: Thermodynamics, diag: MetricDiagnosis, ps: PhotonSphere | No
     params = ", ".join(f"{k} = {v:g}" for k, v in th.values.items())
     conv = th.family.conventions
     out = [f"{th.family.name} ({params}): the metric route",
-           f"  metric: {conv.get('metric', th.family.metric.text)}",
+           f"  metric: {conv.get('metric', th.family.metric.text)}"
+           + (f" (d = {th.derivation.dimension})" if "d" in th.values else ""),
            f"  temperature: {conv.get('temperature', 'declared')}",
            f"  entropy: {conv.get('entropy', 'declared')}"]
     if conv.get("mass_root"):
