@@ -30,7 +30,7 @@ import sympy as sp
 from bhchem.core.compiled import compile_expression
 from bhchem.core.derive import Derivation
 from bhchem.declare import symbols as sy
-from bhchem.declare.metric import RHO, HorizonSolution, solve_horizon
+from bhchem.declare.metric import RHO, HorizonSolution, Metric, solve_horizon
 from bhchem.errors import MalformedFamilyError
 
 
@@ -88,6 +88,10 @@ def derive_metric(derivation: Derivation) -> MetricDerivation:
     if getattr(fam, "metric", None) is None:
         raise MalformedFamilyError(f"family {fam.name} declares no metric function; photon-"
                                    f"sphere quantities need one (see bhchem.declare.metric)")
+    if not isinstance(fam.metric, Metric):
+        raise MalformedFamilyError(f"family {fam.name}: metric must be a "
+                                   f"bhchem.declare.Metric (Metric.declare(...)), not "
+                                   f"{type(fam.metric).__name__}")
     key = id(derivation)
     with _LOCK:
         hit = _CACHE.get(key)

@@ -363,7 +363,7 @@ class _Loader:
                 # from_metric bounds its own work by counts (SOLVE_MAX_OPERATIONS,
                 # INTEGRATION_MAX_OPERATIONS in bhchem.declare.metric)
                 kwargs.pop("state")
-                family = from_metric(**kwargs, **metric)
+                family = from_metric(**kwargs, **metric, bounded=True)
             else:
                 with operation_limit(FAMILY_MAX_OPERATIONS, "the family",
                                      "FAMILY_MAX_OPERATIONS"):

@@ -121,6 +121,10 @@ class Metric:
     entropy_reference : tuple or None
         (r0, S0): the first-law entropy is S0 at r+ = r0 (expressions in the parameters);
         needed when the entropy integral has no closed form (certified quadrature).
+    bounded : bool
+        Solve f(r+) = 0 within :data:`SOLVE_MAX_OPERATIONS` counted operations (a file read
+        by the declarative loader, whose author may not be trusted; the count costs about a
+        factor 2 in speed, so a Python declaration, which runs code anyway, is not metered).
     text : str
         f as the author wrote it (for reports).
     mass_name : str
@@ -135,11 +139,13 @@ class Metric:
     mass_name: str = "M"
     asymptotics: tuple | None = None
     entropy_reference: tuple | None = None
+    bounded: bool = False
 
     @classmethod
     def declare(cls, f, *, mass: str = "M", enthalpy=None, h=None, ads_radius: str = "L",
                 root: int | None = None, parameters=(), where: str = "metric",
-                asymptotics=None, entropy_reference=None, text: str | None = None) -> "Metric":
+                asymptotics=None, entropy_reference=None, text: str | None = None,
+                bounded: bool = False) -> "Metric":
         """A :class:`Metric` from expressions written with symbols *named* ``r`` (the radial
         coordinate), ``ads_radius``, ``mass``, ``d``, ``k`` and the parameter names
         (``parameters``: the family's Parameter objects or their canonical symbols).
@@ -173,9 +179,8 @@ class Metric:
         if MASS not in mc.free_symbols:
             raise MalformedFamilyError(
                 f"{where}: the enthalpy must be written in the mass parameter {mass}")
-        for e, what in ((mc, "enthalpy"), (hc, "h")):
-            if e is not None and (RHO in e.free_symbols and what == "enthalpy"):
-                raise MalformedFamilyError(f"{where}: the enthalpy may not depend on r")
+        if RHO in mc.free_symbols:
+            raise MalformedFamilyError(f"{where}: the enthalpy may not depend on r")
         if root is not None and (isinstance(root, bool) or not isinstance(root, int) or root < 0):
             raise MalformedFamilyError(f"{where}: root must be a non-negative integer index")
         asym = None
@@ -192,7 +197,7 @@ class Metric:
             ref = (_canonical(r0, pt, f"{where} entropy_reference r0"),
                    _canonical(S0, pt, f"{where} entropy_reference S0"))
         return cls(f=fc, mass_enthalpy=mc, h=hc, root=root, text=text or str(f), mass_name=mass,
-                   asymptotics=asym, entropy_reference=ref)
+                   asymptotics=asym, entropy_reference=ref, bounded=bool(bounded))
 
 
 def _asymptotics(spec, table, where, mass):
@@ -298,6 +303,8 @@ def solve_horizon(metric: Metric, subs: dict | None = None, reference: dict | No
         When f(r+) = 0 has no usable root, or h does not vanish at the horizon.
     """
     def work():
+        if not metric.bounded:
+            return _solve_horizon(metric, subs, reference, where)
         try:
             with operation_limit(SOLVE_MAX_OPERATIONS, "solving f(r+) = 0 and the surface "
                                  "gravity", "SOLVE_MAX_OPERATIONS"):
@@ -480,6 +487,14 @@ def _first_law_entropy(metric, solution, subs, where, parameters):
     assumed = _assumed(parameters)
     back = {v: k for k, v in assumed.items()}
     integrand = first_law_integrand(metric, solution, subs).xreplace(assumed)
+    structural = sorted(s.name for s in integrand.free_symbols
+                        if s in (sy.d, sy.k) or any(p.discrete and p.symbol == s
+                                                    for p in parameters))
+    if structural:
+        raise MalformedFamilyError(
+            f"{where}: the first-law entropy is built at fixed structural parameters; "
+            f"{', '.join(structural)} must have a value (declare one family per value, e.g. "
+            f"dimension=5; bhchem metric --compare builds the routes at the bound values)")
     # sqrt((r^2 + 2a)^2) is r^2 + 2a for positive symbols, once the base is factored
     integrand = _small_simplify(integrand.replace(
         lambda e: isinstance(e, sp.Pow) and e.exp.is_Rational and not e.exp.is_Integer,
@@ -564,7 +579,7 @@ def area_entropy(dim):
 def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, parameters=(),
                 mass: str = "M", enthalpy=None, h=None, ads_radius: str = "L",
                 entropy="area", entropy_constant=0, root: int | None = None,
-                asymptotics=None, entropy_reference=None,
+                asymptotics=None, entropy_reference=None, bounded: bool = False,
                 temperature: str = "surface-gravity", **family) -> Family:
     """A :class:`Family` from a static metric function (see module docstring).
 
@@ -587,6 +602,9 @@ def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, para
     entropy_reference : (r0, S0), optional
         S = S0 at r+ = r0 (expressions in the parameters): used when the first-law entropy
         has no closed form (certified quadrature, :mod:`bhchem.declare.entropy_quadrature`).
+    bounded : bool
+        Solve f(r+) = 0 within a counted number of operations (the declarative loader sets
+        it; see :class:`Metric`).  The entropy integral is always bounded by a count.
     root : int, optional
         Which root of f(r+) = 0 to keep when there are several.
     asymptotics : str, optional
@@ -608,7 +626,7 @@ def from_metric(*, name: str, summary: str, reference: str, f, dimension=4, para
     params = tuple(parameters)
     metric = Metric.declare(f, mass=mass, enthalpy=enthalpy, h=h, ads_radius=ads_radius,
                             root=root, parameters=params, where=who, asymptotics=asymptotics,
-                            entropy_reference=entropy_reference)
+                            entropy_reference=entropy_reference, bounded=bounded)
     dim_sym = sy.d if isinstance(dimension, Parameter) else dimension
     subs = {} if isinstance(dimension, Parameter) else {sy.d: dimension}
     reference_values = {p.symbol: sp.nsimplify(p.default) for p in params if not p.discrete}
