@@ -35,6 +35,7 @@ from bhchem.errors import (BhchemError, BhchemWarning, DuplicateFamilyError, Fam
                            UnknownFamilyError, UnknownParameterError)
 from bhchem.declare.domain import Domain
 from bhchem.declare.family import Family, Parameter
+from bhchem.declare.metric import Metric, from_metric
 from bhchem.declare.registry import (available_families, get_family, load_family_file,
                                      register)
 from bhchem.core.derive import Derivation, derive
@@ -48,6 +49,10 @@ from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_
 from bhchem.analysis.isobar import IsobarResult, Transition, analyze_isobar
 from bhchem.analysis.coexistence_line import CoexistenceCurve, coexistence_curve
 from bhchem.analysis.phases import PhaseDiagram, PhaseLine, TriplePoint, phase_diagram
+from bhchem.analysis.metric_route import (MetricDiagnosis, PhotonJumps, PhotonSphere,
+                                          RouteComparison, compare_routes, diagnose_metric,
+                                          diagram_photon_jumps, photon_sphere,
+                                          photon_sphere_jumps)
 from bhchem.analysis.figure_data import (CpCurves, GtCurves, PtDiagram, PvCurves, TrCurves,
                                          cp_curves, gt_curves, pt_diagram, pv_curves, tr_curves)
 from bhchem.present.plots import (EmptyFigureError, PlotResult, plot_cp, plot_gt, plot_pt,
@@ -59,7 +64,7 @@ from bhchem.version import __version__
 __all__ = [
     # declaring families
     "Domain", "Family", "Parameter", "available_families", "get_family",
-    "load_family_file", "register",
+    "load_family_file", "register", "Metric", "from_metric",
     # derivation and checks
     "Derivation", "derive", "State", "Thermodynamics", "bind",
     "FirstLawResult", "SmarrResult", "check_first_law", "check_smarr",
@@ -71,6 +76,8 @@ __all__ = [
     "IsobarResult", "Transition", "analyze_isobar",
     "CoexistenceCurve", "coexistence_curve",
     "PhaseDiagram", "PhaseLine", "TriplePoint", "phase_diagram",
+    "MetricDiagnosis", "PhotonJumps", "PhotonSphere", "RouteComparison", "compare_routes",
+    "diagnose_metric", "diagram_photon_jumps", "photon_sphere", "photon_sphere_jumps",
     # figures: the data of each kind (analysis), drawing it (presentation), both at once
     "CpCurves", "GtCurves", "PtDiagram", "PvCurves", "TrCurves",
     "cp_curves", "gt_curves", "pt_diagram", "pv_curves", "tr_curves",
