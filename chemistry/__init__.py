@@ -36,6 +36,7 @@ from bhchem.errors import (BhchemError, BhchemWarning, DuplicateFamilyError, Fam
 from bhchem.declare.domain import Domain
 from bhchem.declare.family import Family, Parameter
 from bhchem.declare.conditions import Admissibility, Condition, ConditionSet
+from bhchem.declare.metric import Metric, from_metric
 from bhchem.declare.registry import (available_families, get_family, load_family_file,
                                      register)
 from bhchem.core.derive import Derivation, derive
@@ -51,6 +52,10 @@ from bhchem.analysis.admissibility import (ExcludedRange, Exclusions, ExclusionS
                                            excluded_states, exclusion_summary)
 from bhchem.analysis.coexistence_line import CoexistenceCurve, coexistence_curve
 from bhchem.analysis.phases import PhaseDiagram, PhaseLine, TriplePoint, phase_diagram
+from bhchem.analysis.metric_route import (MetricDiagnosis, PhotonJumps, PhotonSphere,
+                                          RouteComparison, compare_routes, diagnose_metric,
+                                          diagram_photon_jumps, photon_sphere,
+                                          photon_sphere_jumps)
 from bhchem.analysis.figure_data import (CpCurves, GtCurves, PtDiagram, PvCurves, TrCurves,
                                          cp_curves, gt_curves, pt_diagram, pv_curves, tr_curves)
 from bhchem.present.plots import (EmptyFigureError, PlotResult, plot_cp, plot_gt, plot_pt,
@@ -62,7 +67,7 @@ from bhchem.version import __version__
 __all__ = [
     # declaring families
     "Domain", "Family", "Parameter", "available_families", "get_family",
-    "load_family_file", "register",
+    "load_family_file", "register", "Metric", "from_metric",
     # which states count
     "Condition", "ConditionSet", "Admissibility",
     "ExcludedRange", "Exclusions", "ExclusionSummary", "excluded_states", "exclusion_summary",
@@ -77,6 +82,8 @@ __all__ = [
     "IsobarResult", "Transition", "analyze_isobar",
     "CoexistenceCurve", "coexistence_curve",
     "PhaseDiagram", "PhaseLine", "TriplePoint", "phase_diagram",
+    "MetricDiagnosis", "PhotonJumps", "PhotonSphere", "RouteComparison", "compare_routes",
+    "diagnose_metric", "diagram_photon_jumps", "photon_sphere", "photon_sphere_jumps",
     # figures: the data of each kind (analysis), drawing it (presentation), both at once
     "CpCurves", "GtCurves", "PtDiagram", "PvCurves", "TrCurves",
     "cp_curves", "gt_curves", "pt_diagram", "pv_curves", "tr_curves",

@@ -40,7 +40,7 @@ to rn-ads in 4D.
 """
 import sympy as sp
 
-from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare import Domain, Family, Metric, Parameter
 from bhchem.declare.symbols import P, parameter_symbol, pi, r
 
 b = parameter_symbol("b")
@@ -69,6 +69,15 @@ FAMILY = Family(
     temperature=1 / (4 * pi * r) + 2 * P * r + _bi / (2 * pi * r),
     # sampling scale: the RN extremal radius Q plus the BI radius sqrt(Q/b) (x = 1 there)
     typical_state=sp.Piecewise((Q + sp.sqrt(Q / b), Q > 0), (1 / b, True)),
+    # the metric function of the docstring (GKM 2012 Sec. 4); tests check M and T from it
+    metric=Metric.declare(
+        1 - 2 * sp.Symbol("M") / sp.Symbol("r") + sp.Symbol("r")**2 / sp.Symbol("L")**2
+        + 2 * b**2 * sp.Symbol("r")**2 / 3 * (1 - sp.sqrt(1 + Q**2 / (b**2 * sp.Symbol("r")**4)))
+        + 4 * Q**2 / (3 * sp.Symbol("r")**2) * sp.hyper(
+            [sp.Rational(1, 4), sp.Rational(1, 2)], [sp.Rational(5, 4)],
+            -Q**2 / (b**2 * sp.Symbol("r")**4)), parameters=(b, Q),
+        text="f = 1 - 2M/r + r^2/L^2 + (2 b^2 r^2/3)(1 - sqrt(1 + Q^2/(b^2 r^4))) "
+             "+ (4 Q^2/(3 r^2)) 2F1(1/4, 1/2; 5/4; -Q^2/(b^2 r^4))"),
     conventions={
         "charge": "Q as in GKM 2012 Sec. 4 (= the rn-ads charge in 4D)",
         "born_infeld": "Phi_b = (dM/db)_{S,P,Q} is the BI vacuum polarisation B of GKM 2012",

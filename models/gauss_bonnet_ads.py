@@ -49,7 +49,7 @@ they keep the square root positive for all r >= r+.  S > 0 and T >= 0 are added 
 """
 import sympy as sp
 
-from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare import Domain, Family, Metric, Parameter
 from bhchem.declare.conditions import Condition
 from bhchem.declare.symbols import P, d, k, omega, parameter_symbol, pi, r
 
@@ -60,6 +60,7 @@ _Om = omega(d)
 _at = (d - 3) * (d - 4) * alpha                                    # alpha~ (CCLY13)
 _q = 8 * pi * Q / (sp.sqrt(2 * (d - 2) * (d - 3)) * _Om)           # metric charge q(Q), as rn-ads
 _a0 = 16 * pi * P / ((d - 1) * (d - 2))                            # alpha~_0 = 1/L^2
+_rho, _m, _L = sp.symbols("r m L", positive=True)                 # radial coordinate, mass
 
 FAMILY = Family(
     name="gauss-bonnet-ads",
@@ -92,6 +93,15 @@ FAMILY = Family(
                   "condition it keeps the square root real for every r >= r+",
                   "Cai, Cao, Li & Yang, JHEP 09 (2013) 005, arXiv:1306.6233"),
     ),
+    # the metric function of the docstring (CCLY13); tests check it reproduces M and T
+    metric=Metric.declare(
+        k + _rho**2 / (2 * _at) * (1 - sp.sqrt(1 + 4 * _at * _m / _rho ** (d - 1)
+                                               - 4 * _at * _q**2 / _rho ** (2 * d - 4)
+                                               - 4 * _at / _L**2)),
+        mass="m", enthalpy=(d - 2) * _Om * _m / (16 * pi),
+        parameters=(alpha, Q),
+        text="f = k + r^2/(2 a)(1 - sqrt(1 + 4 a m/r^(d-1) - 4 a q^2/r^(2d-4) - 4 a/L^2)), "
+             "a = (d-3)(d-4) alpha, q as in rn-ads, M = (d-2) Omega_{d-2} m/(16 pi)"),
     conventions={
         "coupling": "alpha is the bare Gauss-Bonnet coupling of the action; CCLY13 and "
                     "Wei & Liu use alpha~ = (d-3)(d-4) alpha",

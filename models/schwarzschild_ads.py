@@ -12,7 +12,7 @@ Phys. 87 (1983) 577; d-dimensional form as in Kubiznak, Mann & Teo, CQG 34
 """
 import sympy as sp
 
-from bhchem.declare import Domain, Family, Parameter
+from bhchem.declare import Domain, Family, Metric, Parameter
 from bhchem.declare.symbols import P, d, omega, pi, r
 
 _Om = omega(d)
@@ -31,4 +31,9 @@ FAMILY = Family(
     temperature=((d - 3) + 16 * pi * P * r**2 / (d - 2)) / (4 * pi * r),
     background_gibbs=sp.Integer(0),
     background_name="thermal AdS",
+    # f = 1 - m/r^(d-3) + r^2/L^2, M = (d-2) Omega m/(16 pi); tests check M and T from it
+    metric=Metric.declare(1 - sp.Symbol("m") / sp.Symbol("r") ** (d - 3)
+                          + sp.Symbol("r")**2 / sp.Symbol("L")**2,
+                          mass="m", enthalpy=(d - 2) * _Om * sp.Symbol("m") / (16 * pi),
+                          text="f = 1 - m/r^(d-3) + r^2/L^2, M = (d-2) Omega_{d-2} m/(16 pi)"),
 )

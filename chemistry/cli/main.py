@@ -35,6 +35,7 @@ from bhchem.version import __version__
 from bhchem.workflows.figures import KINDS
 from bhchem.cli.analyses import register
 from bhchem.cli.topology import register as register_topology
+from bhchem.cli.metric import register as register_metric
 
 EXIT_USAGE = 2
 
@@ -428,6 +429,7 @@ def build_parser() -> argparse.ArgumentParser:
                "condition_args": add_condition_args}
     register(sub, common, helpers)
     register_topology(sub, common, helpers)
+    register_metric(sub, common, helpers)
     return parser
 
 

@@ -56,6 +56,23 @@ Format
     [conventions]                        # optional: text entries for the conventions record
     charge = "Q normalised as in ..."
 
+    [metric]                             # instead of M, S and T: the metric function
+    f = "1 - 2*M*r^2/(r^2 + g^2)^(3/2) + r^2/L^2"   # in r (radial), L, the mass parameter
+    h = "..."                            # optional: 1/g_rr when it is not f
+    mass = "M"                           # name of the mass parameter in f (default M)
+    enthalpy = "(d-2)*omega(d)*m/(16*pi)"   # M in terms of it (default: the parameter)
+    ads_radius = "L"                     # name of the AdS radius (default L)
+    entropy = "area"                     # "area" (default), "first-law" or a formula
+    entropy_constant = "0"               # added to the first-law entropy (default 0)
+    entropy_reference = ["g", "pi*g^2"]  # S = S0 at r+ = r0: a certified quadrature is used
+                                         # when the first-law entropy has no closed form
+    root = 0                             # which root of f(r+) = 0, when there are several
+    asymptotics = "a -> 0: r/2*(1 + r^2/L^2)"   # or: the root with this limit (NAME -> 0/oo)
+
+With ``[metric]`` the engine solves f(r+) = 0 for the mass parameter, takes T from the
+surface gravity and replaces L by P (:func:`bhchem.declare.metric.from_metric`); the
+``[expressions]`` table is then optional and may not give M, S or T.
+
 Formulas use the state variable, ``P``, ``d``, the parameters and the
 definitions; conditions may also use the temperature ``T``.  Operators, numbers,
 functions (sqrt, exp, log, sin, cos, tan, sinh, cosh, tanh, atan/arctan, abs,
@@ -110,6 +127,7 @@ from bhchem.errors import MalformedFamilyError
 from bhchem.declare.expression_parser import (CONSTANTS, FUNCTIONS, ExpressionError, ParsedExpression, parse,
                                 operation_limit)
 from bhchem.declare.family import Family, Parameter
+from bhchem.declare.metric import from_metric
 
 try:  # Python >= 3.11
     import tomllib as _toml
@@ -133,7 +151,10 @@ MAX_DIMENSION = 1000
 FAMILY_MAX_OPERATIONS = 2_000_000
 
 _TOP_KEYS = ("name", "summary", "reference", "dimension", "state", "state_description",
-             "parameters", "definitions", "expressions", "conventions", "condition_sets")
+             "parameters", "definitions", "expressions", "conventions", "condition_sets",
+             "metric")
+_METRIC_KEYS = ("f", "h", "mass", "enthalpy", "ads_radius", "entropy", "entropy_constant",
+                "root", "asymptotics", "entropy_reference")
 _DIMENSION_KEYS = ("default", "minimum", "maximum", "description")
 _PARAMETER_KEYS = ("default", "length_dimension", "domain", "description", "minimum", "maximum",
                    "exclusive_minimum", "exclusive_maximum", "integer", "choices")
@@ -334,7 +355,9 @@ class _Loader:
         for p in parameters:
             table[p.name] = p.symbol
         definitions = self.definitions(doc, table)
-        exprs, conditions = self.expressions(doc, table, definitions, parameters)
+        metric = self.metric(doc, table, definitions, parameters, state_name)
+        exprs, conditions = self.expressions(doc, table, definitions, parameters,
+                                             metric=metric is not None)
         conventions = self.conventions(doc)
         condition_sets = self.condition_sets(doc)
 
@@ -348,12 +371,81 @@ class _Loader:
             if k in exprs:
                 kwargs[attr] = exprs[k]
         try:
-            with operation_limit(FAMILY_MAX_OPERATIONS, "the family",
-                                 "FAMILY_MAX_OPERATIONS"):
-                family = Family(**kwargs)
+            if metric is not None:
+                # from_metric bounds its own work by counts (SOLVE_MAX_OPERATIONS,
+                # INTEGRATION_MAX_OPERATIONS in bhchem.declare.metric)
+                kwargs.pop("state")
+                family = from_metric(**kwargs, **metric, bounded=True)
+            else:
+                with operation_limit(FAMILY_MAX_OPERATIONS, "the family",
+                                     "FAMILY_MAX_OPERATIONS"):
+                    family = Family(**kwargs)
         except MalformedFamilyError as exc:
-            self.fail((), str(exc))
+            self.fail(("metric",) if metric is not None else (), str(exc))
         return [family]
+
+    def metric(self, doc, table, definitions, parameters, state_name):
+        """The [metric] table as keywords of from_metric (formulas parsed safely)."""
+        if "metric" not in doc:
+            return None
+        key = ("metric",)
+        t = self.table(doc, "metric", key)
+        self.unknown_keys(t, _METRIC_KEYS, key)
+        if state_name != "r":
+            self.fail(key, "a metric family has the horizon radius r as its state variable")
+        if "f" not in t:
+            self.fail(key, "the metric function f is missing (key 'f')")
+        names = {}
+        for k, default in (("mass", "M"), ("ads_radius", "L")):
+            nm = self.string(t, key + (k,), one_line=True, default=default)
+            taken = {n: "declared (a parameter, the state variable, P or d)" for n in table}
+            taken.update({n: "a definition" for n in definitions})
+            taken.update({v: f"the {w}" for w, v in names.items()})
+            self.check_name(nm, key + (k,), "the " + k.replace("_", " "), taken=taken)
+            names[k] = nm
+        symbols = {**table, **definitions, names["mass"]: sp.Symbol(names["mass"]),
+                   names["ads_radius"]: sp.Symbol(names["ads_radius"], positive=True)}
+        no_t = {"T": "the temperature is derived from the metric"}
+        out = {"mass": names["mass"], "ads_radius": names["ads_radius"]}
+        out["f"] = self.formula(t["f"], key + ("f",), symbols, no_t).expr
+        if "h" in t:
+            out["h"] = self.formula(t["h"], key + ("h",), symbols, no_t).expr
+        if "enthalpy" in t:
+            out["enthalpy"] = self.formula(t["enthalpy"], key + ("enthalpy",), symbols, no_t).expr
+        plain = {**table, **definitions}
+        if "entropy" in t:
+            e = t["entropy"]
+            if isinstance(e, str) and e.strip() in ("area", "first-law"):
+                out["entropy"] = e.strip()
+            else:
+                out["entropy"] = self.formula(e, key + ("entropy",), plain, no_t).expr
+        if "entropy_constant" in t:
+            out["entropy_constant"] = self.formula(t["entropy_constant"],
+                                                   key + ("entropy_constant",), plain, no_t).expr
+        if "entropy_reference" in t:
+            ref = t["entropy_reference"]
+            k = key + ("entropy_reference",)
+            if not isinstance(ref, list) or len(ref) != 2:
+                self.fail(k, "must be an array of two formulas [r0, S0] (S = S0 at r+ = r0)")
+            consts = {n: v for n, v in plain.items() if n not in (state_name, "P")}
+            only = {**no_t, state_name: "r0 and S0 may depend on the parameters only",
+                    "P": "r0 and S0 may depend on the parameters only"}
+            r0 = self.formula(ref[0], k, consts, only).expr
+            S0 = self.formula(ref[1], k, consts, only).expr
+            out["entropy_reference"] = (r0, S0)
+        if "asymptotics" in t:
+            text = self.string(t, key + ("asymptotics",), one_line=True)
+            limit, sep, expr = text.partition(":")
+            if not sep:
+                self.fail(key + ("asymptotics",), "must read 'NAME -> 0: FORMULA' or "
+                                                  "'NAME -> oo: FORMULA'")
+            out["asymptotics"] = (limit, self.formula(expr.strip(), key + ("asymptotics",),
+                                                      symbols, no_t).expr)
+        if "root" in t:
+            out["root"] = self.number(t["root"], key + ("root",), integer=True)
+            if out["root"] < 0:
+                self.fail(key + ("root",), "must be a non-negative index")
+        return out
 
     def read(self) -> dict:
         try:
@@ -557,11 +649,16 @@ class _Loader:
         except ExpressionError as exc:
             self.fail_formula(key, text, exc)
 
-    def expressions(self, doc, table, definitions, parameters):
-        exprs_t = self.table(doc, "expressions", ("expressions",), required=True)
+    def expressions(self, doc, table, definitions, parameters, metric=False):
+        exprs_t = self.table(doc, "expressions", ("expressions",), required=not metric)
         self.unknown_keys(exprs_t, _ALL_EXPRESSION_KEYS, ("expressions",))
+        for k in ("M", "S", "T"):
+            if metric and k in exprs_t:
+                self.fail(("expressions", k), "with a [metric] table, M, S and T come from the "
+                                              "metric (the entropy: [metric] entropy = ...); "
+                                              "remove it")
         for k in ("M", "S"):
-            if k not in exprs_t:
+            if not metric and k not in exprs_t:
                 what = "the enthalpy M" if k == "M" else "the entropy S"
                 self.fail(("expressions",), f"{what} is missing (key '{k}')")
         symbols = {**table, **definitions}

@@ -151,6 +151,9 @@ class Family:
         declared length dimensions).
     conventions : mapping
         Entries that override or add to the project's conventions record.
+    metric : bhchem.declare.metric.Metric, optional
+        The static metric function, when known (:func:`bhchem.declare.metric.from_metric`
+        builds a family from it); photon-sphere quantities are derived from it.
     """
 
     name: str
@@ -177,6 +180,7 @@ class Family:
     conventions: Mapping[str, str] = field(default_factory=dict)
     source: str = ""
     condition_sets: Sequence[ConditionSet] = ()
+    metric: object = None
 
     def __post_init__(self):
         object.__setattr__(self, "parameters", tuple(self.parameters))
