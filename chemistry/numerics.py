@@ -198,3 +198,23 @@ def state_range(th, P: float) -> tuple[float, float]:
     xP = x0 * (P0 / P) ** (power / 2) if power else x0
     lo, hi = min(x0, xP), max(x0, xP)
     return lo * 1e-4, hi * 1e5
+
+
+def true_runs(mask) -> list[tuple[int, int]]:
+    """The maximal runs of True in a boolean sequence, as inclusive index pairs (i, j).
+
+    >>> true_runs([False, True, True, False, True])
+    [(1, 2), (4, 4)]
+    """
+    mask = np.asarray(mask, dtype=bool)
+    runs, n, i = [], len(mask), 0
+    while i < n:
+        if not mask[i]:
+            i += 1
+            continue
+        j = i
+        while j + 1 < n and mask[j + 1]:
+            j += 1
+        runs.append((i, j))
+        i = j + 1
+    return runs

@@ -27,7 +27,7 @@ import numpy as np
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.core.results import Result
-from bhchem.numerics import state_range
+from bhchem.numerics import state_range, true_runs
 
 #: states sampled across the search range to find where each condition fails
 N_SAMPLES = 4000
@@ -178,14 +178,7 @@ def excluded_states(th: Thermodynamics, P: float, x_range=None,
                        th.condition_holds(c.name, xs, P)))
     for name, relation, reason, holds, mask in checks:
         bad = ~np.asarray(mask, dtype=bool)  # each condition on its own (ranges may overlap)
-        k = 0
-        while k < n:
-            if not bad[k]:
-                k += 1
-                continue
-            j = k
-            while j + 1 < n and bad[j + 1]:
-                j += 1
+        for k, j in true_runs(bad):
             a_end, b_end = k == 0, j == n - 1
             if a_end:
                 xa, ok_a = float(xs[0]), True
@@ -197,7 +190,6 @@ def excluded_states(th: Thermodynamics, P: float, x_range=None,
                 xb, ok_b = _edge(holds, float(xs[j]), float(xs[j + 1]), False)
             converged &= ok_a and ok_b
             ranges.append(_range(th, P, name, relation, reason, xa, xb, (a_end, b_end)))
-            k = j + 1
     adm = th.admissibility
     names = sorted({r.condition for r in ranges})
     msg = (f"{len(ranges)} excluded range(s) at P = {P:.6g} ({adm.label()})"

@@ -40,7 +40,7 @@ from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import StateDomainError
 from bhchem.analysis.critical import find_critical_points, resolve_pressure
 from bhchem.analysis.coexistence import coexistence_newton
-from bhchem.numerics import brentq, state_range
+from bhchem.numerics import brentq, state_range, true_runs
 from bhchem.analysis.admissibility import excluded_states
 from bhchem.analysis.consistency import emit, first_law_warnings
 
@@ -251,14 +251,7 @@ def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000,
     T_cap = POLE_T_FACTOR * float(np.median(T_grid)) if T_grid.size else math.inf
     fx = lambda z: float(th.d("T", "x", z, P))  # noqa: E731
     pieces = []
-    i = 0
-    while i < n:
-        if not phys[i]:
-            i += 1
-            continue
-        j = i
-        while j + 1 < n and phys[j + 1]:
-            j += 1
+    for i, j in true_runs(phys):
         a_end = "range" if i == 0 else "domain"
         b_end = "range" if j == n - 1 else "domain"
         a = xs[i] if i == 0 else _refine_boundary(th, P, xs[i], xs[i - 1], True)
@@ -286,7 +279,6 @@ def find_branches(th: Thermodynamics, P: float, x_range=None, n: int = 6000,
                 continue
             if xb > xa * (1 + 1e-13):
                 pieces.append((xa, xb, "pole" if ea == "pole (beyond)" else ea, eb))
-        i = j + 1
     branches = []
     # a domain edge where T reaches 0 (extremality, the condition T >= 0) is located to
     # 1e-14 in x, so T there is round-off of 0: it is set to 0 exactly, else two branches
