@@ -218,3 +218,20 @@ def true_runs(mask) -> list[tuple[int, int]]:
         runs.append((i, j))
         i = j + 1
     return runs
+
+
+def spinodal_pressure(th, x, P0, iters: int = 60, rtol: float = 1e-15) -> np.ndarray:
+    """P on the spinodal T_x(x, P) = 0 at every x (vectorised Newton in P from P0; ``th``
+    a :class:`~bhchem.core.compiled.Thermodynamics`).  Stops after ``iters`` steps or when
+    every step is below ``rtol`` relative; a step that is not finite is not taken."""
+    x = np.asarray(x, float)
+    P = np.broadcast_to(np.asarray(P0, float), x.shape).copy()
+    with np.errstate(all="ignore"):
+        for _ in range(iters):
+            f = th.d("T", "x", x, P)
+            fp = th.d("T", "xP", x, P)
+            step = np.where(np.isfinite(f / fp), f / fp, 0.0)
+            P = P - step
+            if np.all(np.abs(step) <= rtol * np.abs(P)):
+                break
+    return P

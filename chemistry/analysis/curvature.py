@@ -74,7 +74,7 @@ from bhchem.analysis.critical import loop_side
 from bhchem.errors import BhchemError
 from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.analysis.critical import find_critical_points
-from bhchem.numerics import isotherm_pressure
+from bhchem.numerics import isotherm_pressure, spinodal_pressure
 from bhchem.analysis.response import cv_vanishes, isotherm_guess
 from bhchem.analysis.coexistence_line import coexistence_curve
 
@@ -325,15 +325,8 @@ def _v_of(th, x, P):
 
 def spinodal_curve(th: Thermodynamics, xs) -> np.ndarray:
     """Rows (x, P, T) of states with T_x = 0 (Newton in P at each x), P > 0 only."""
-    P = np.full(np.shape(xs), isotherm_guess(th))
+    P = spinodal_pressure(th, xs, isotherm_guess(th), 60, 1e-14)
     with np.errstate(all="ignore"):
-        for _ in range(60):
-            f = th.d("T", "x", xs, P)
-            fp = th.d("T", "xP", xs, P)
-            step = np.where(np.isfinite(f / fp), f / fp, 0.0)
-            P = P - step
-            if np.all(np.abs(step) <= 1e-14 * np.abs(P)):
-                break
         T = th.T(xs, P)
         ok = (P > 0) & np.isfinite(T) & (np.abs(th.d("T", "x", xs, P) * xs) <= 1e-10 * np.abs(T))
         ok &= th.physical(xs, np.where(P > 0, P, 1.0))

@@ -63,6 +63,7 @@ import numpy as np
 from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
 from bhchem.errors import BhchemError
+from bhchem.numerics import spinodal_pressure
 from bhchem.analysis.isobar import Branch, branch_state_at, find_branches, state_range
 from bhchem.analysis.critical import CriticalPoint
 
@@ -564,17 +565,7 @@ class CriticalCharge:
 
 def _spinodal_pressure(th, x, P0, iters: int = 60):
     """P on the spinodal T_x(x, P) = 0 near P0, by Newton at every x (vectorised)."""
-    x = np.asarray(x, float)
-    P = np.full(x.shape, float(P0))
-    with np.errstate(all="ignore"):
-        for _ in range(iters):
-            f = th.d("T", "x", x, P)
-            fp = th.d("T", "xP", x, P)
-            step = np.where(np.isfinite(f / fp), f / fp, 0.0)
-            P = P - step
-            if np.all(np.abs(step) <= 1e-15 * np.abs(P)):
-                break
-    return P
+    return spinodal_pressure(th, x, float(P0), iters, 1e-15)
 
 
 def critical_field(th: Thermodynamics, P_c: float):
