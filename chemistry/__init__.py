@@ -50,6 +50,11 @@ from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_
 from bhchem.analysis.isobar import IsobarResult, Transition, analyze_isobar
 from bhchem.analysis.admissibility import (ExcludedRange, Exclusions, ExclusionSummary,
                                            excluded_states, exclusion_summary)
+from bhchem.analysis.topology import (CriticalCharge, TopologyResult, critical_point_charge,
+                                      thermodynamic_topology)
+from bhchem.analysis.landscape import FirstPassage, Landscape, first_passage, free_energy_landscape
+from bhchem.analysis.isoperimetric import (IsoperimetricSurvey, isoperimetric_ratio,
+                                           isoperimetric_survey)
 from bhchem.analysis.coexistence_line import CoexistenceCurve, coexistence_curve
 from bhchem.analysis.phases import PhaseDiagram, PhaseLine, TriplePoint, phase_diagram
 from bhchem.analysis.metric_route import (MetricDiagnosis, PhotonJumps, PhotonSphere,
@@ -71,6 +76,10 @@ __all__ = [
     # which states count
     "Condition", "ConditionSet", "Admissibility",
     "ExcludedRange", "Exclusions", "ExclusionSummary", "excluded_states", "exclusion_summary",
+    # thermodynamic topology, the free-energy landscape, the isoperimetric ratio
+    "CriticalCharge", "TopologyResult", "critical_point_charge", "thermodynamic_topology",
+    "FirstPassage", "Landscape", "first_passage", "free_energy_landscape",
+    "IsoperimetricSurvey", "isoperimetric_ratio", "isoperimetric_survey",
     # derivation and checks
     "Derivation", "derive", "State", "Thermodynamics", "bind",
     "FirstLawResult", "SmarrResult", "check_first_law", "check_smarr",
