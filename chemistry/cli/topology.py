@@ -42,7 +42,11 @@ def _pressure(args, th, parse_pressure) -> float:
     return parse_pressure(args.pressure, th)
 
 
-def _emit(args, doc, text, figures, family) -> int:
+def _emit(args, doc, text, figures, th) -> int:
+    doc = {**doc, "admissibility": th.admissibility.to_dict()}  # the states it rests on
+    if not th.admissibility.is_default:
+        text = f"{text}\nstates: {th.admissibility.label()}"
+    family = th.family
     for path, make in figures:
         if path:
             out = save(make(), path)
@@ -64,7 +68,7 @@ def register(sub, common, helpers: dict) -> None:
         res = thermodynamic_topology(th, P, taus=taus)
         crit = [(cp, critical_point_charge(th, cp)) for cp in find_critical_points(th).points]
         return _emit(args, topology_json(res, crit), topology_text(res, crit),
-                     [(args.output, lambda: plot_tau(res))], th.family)
+                     [(args.output, lambda: plot_tau(res))], th)
 
     def cmd_landscape(args) -> int:
         th = bound(args)
@@ -79,7 +83,7 @@ def register(sub, common, helpers: dict) -> None:
                                   "(no barrier between two wells)")
             figs.append((args.distribution, lambda: plot_first_passage(fp)))
         return _emit(args, landscape_json(ls, fp, run.note), landscape_text(ls, fp, run.note),
-                     figs, th.family)
+                     figs, th)
 
     def family_args(p, figure_help):
         p.add_argument("family", help="family name (see 'bhchem families')")
