@@ -14,8 +14,6 @@ Sources
 from __future__ import annotations
 
 import math
-import subprocess
-import sys
 import textwrap
 
 import mpmath as mp
@@ -280,16 +278,19 @@ def test_dkkm_exponents_under_the_thermodynamic_conditions():
     assert ex.exact == {"alpha": "0", "beta": "1", "gamma": "2", "delta": "3"}
 
 
-def test_cli_phases_json_carries_the_selection(tmp_path):
-    out = subprocess.run(
-        [sys.executable, "-m", "bhchem", "phases", "lovelock3-ads", "-p",
-         "d=7,k=-1,alpha2=1,alpha3=2,Q=0", "--conditions", "thermodynamic", "--json",
-         "--quiet"], capture_output=True, text=True, check=True)
+def test_cli_json_carries_the_selection_and_the_exclusions(capsys):
     import json
-    doc = json.loads(out.stdout)
-    assert doc["admissibility"]["set"] == "thermodynamic"
-    assert "excluded" in doc and doc["excluded"]["conditions"][0]["condition"] == \
-        "nonnegative-temperature"
+    from bhchem.cli.main import main
+    assert main(["isobar", "lovelock3-ads", "-p", "d=7,k=-1,alpha2=1,alpha3=2,Q=0",
+                 "--pressure", "0.02", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["admissibility"]["set"] == "default"
+    assert [e["condition"] for e in doc["excluded"]] == ["regular-exterior"]
+    assert main(["isobar", "lovelock3-ads", "-p", "d=7,k=-1,alpha2=1,alpha3=2,Q=0",
+                 "--pressure", "0.02", "--conditions", "thermodynamic", "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["admissibility"]["dropped"] == ["regular-exterior"]
+    assert [t["kind"] for t in doc["transitions"]] == ["first-order"]
 
 
 def test_scan_records_and_applies_the_selection(tmp_path):
