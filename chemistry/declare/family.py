@@ -177,6 +177,12 @@ class Family:
     conventions: Mapping[str, str] = field(default_factory=dict)
     source: str = ""
     condition_sets: Sequence[ConditionSet] = ()
+    #: the ensemble: potential name -> the charge it replaces (``{"Phi_Q": "Q"}``) for a family
+    #: derived by :func:`bhchem.core.ensemble.fixed_potential_family`; empty for a declared
+    #: family (its parameters themselves are held fixed)
+    ensemble: Mapping[str, str] = field(default_factory=dict)
+    #: the declared family an ensemble family was derived from (its name), else ""
+    parent: str = ""
 
     def __post_init__(self):
         object.__setattr__(self, "parameters", tuple(self.parameters))
@@ -187,6 +193,28 @@ class Family:
             for i, c in enumerate(self.conditions)))
         object.__setattr__(self, "condition_sets", tuple(self.condition_sets))
         validate_family(self)
+
+    # -- ensemble -----------------------------------------------------------------
+    @property
+    def held_fixed(self) -> tuple[str, ...]:
+        """What the analyses hold fixed besides the state: ``P`` and every parameter
+        (for a fixed-potential family the potentials, e.g. ``("P", "d", "Phi_Q")``)."""
+        return ("P",) + tuple(p.name for p in self.all_parameters)
+
+    def ensemble_label(self) -> str:
+        """One phrase naming the ensemble, e.g. ``fixed P, Q (the declared parameters)`` or
+        ``fixed P, Phi_Q (Phi_Q held fixed instead of Q; G = M - T S - Phi_Q Q)``."""
+        fixed = ", ".join(n for n in self.held_fixed if n != "d")
+        if not self.ensemble:
+            return f"fixed {fixed} (as declared)"
+        swaps = ", ".join(f"{pot} held fixed instead of {q}" for pot, q in self.ensemble.items())
+        g = " - ".join(["G = M - T S"] + [f"{pot} {q}" for pot, q in self.ensemble.items()])
+        return f"fixed {fixed} ({swaps}; {g})"
+
+    def ensemble_record(self) -> dict:
+        """JSON-ready ``{label, held_fixed, swapped, parent}``."""
+        return {"label": self.ensemble_label(), "held_fixed": list(self.held_fixed),
+                "swapped": dict(self.ensemble), "parent": self.parent or self.name}
 
     # -- admissibility ----------------------------------------------------------
     @property

@@ -74,6 +74,7 @@ def show_json(th: Thermodynamics) -> dict:
                                   "reference": cs.reference}
                            for name, cs in fam.condition_set_table().items()},
         "admissibility": th.admissibility.to_dict(),
+        "ensemble": fam.ensemble_record(),
     }
 
 
@@ -95,6 +96,10 @@ def show_text(th: Thermodynamics) -> str:
     conv = doc["convention"]
     lines.append(f"  conventions  {conv['units']}; {conv['pressure']}; {conv['mass']}; "
                  f"{conv['volume']}; {conv['specific_volume']}; {conv['charge']}")
+    lines.append(f"  ensemble     {th.family.ensemble_label()}")
+    for key, text in conv.items():
+        if key.startswith("inverse_") or key == "legendre_transform":
+            lines.append(f"               {text}")
     fixed = ", ".join(f"{k} = {v}" for k, v in der.discrete.items())
     free = ", ".join([der.state.name, "P"] + list(der.parameter_names))
     lines.append("")
