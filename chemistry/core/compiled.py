@@ -518,7 +518,7 @@ def bind(family, *, conditions: str | None = None, without=(), **values) -> Ther
     """
     if isinstance(family, str):
         family = get_family(family)
-    family, values = _ensemble(family, values)
+    family, values = resolve_ensemble(family, values)
     vals = validate_values(family, values)
     discrete = {p.name: vals[p.name] for p in family.discrete_parameters}
     derivation = derive(family, **discrete)
@@ -529,7 +529,7 @@ def bind(family, *, conditions: str | None = None, without=(), **values) -> Ther
     return th
 
 
-def _ensemble(family: Family, values: Mapping) -> tuple:
+def resolve_ensemble(family: Family, values: Mapping) -> tuple:
     """The family of the ensemble the values choose, and the values for it: a value for
     ``Phi_<q>`` (not itself a parameter) holds that potential fixed instead of q."""
     names = {p.name for p in family.all_parameters}

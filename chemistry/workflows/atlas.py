@@ -54,7 +54,7 @@ from concurrent.futures import as_completed as futures_as_completed
 
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.phases import phase_diagram
-from bhchem.core.compiled import bind, parse_number, validate_values
+from bhchem.core.compiled import bind, parse_number, resolve_ensemble, validate_values
 from bhchem.declare.registry import get_family, load_family_file
 from bhchem.errors import BhchemError, BhchemWarning
 from bhchem.fileio import atomic_write, fault_point
@@ -339,6 +339,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     """
     fixed = dict(fixed or {})
     fam = _family(family_name, family_file)
+    # a potential on the grid or fixed (Phi_Q) chooses the ensemble of every point
+    fam, _ = resolve_ensemble(fam, {**fixed, **{a.name: a.values[0] for a in axes}})
     without = tuple(without or ())
     adm = bind(fam, conditions=conditions, without=without, **fixed).admissibility
     admissible = (conditions, without)
