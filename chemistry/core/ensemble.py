@@ -302,11 +302,45 @@ def _build(family: Family, charges: tuple, vals: dict, scales, disc: dict) -> Fa
         root = _certify(cands, q, phis[q], der.quantities[potential_name(q.name)], der,
                         samples, ok) if not solved else \
             _certify_joint(cands, q, phis, solved, der, samples, ok)
+        root = _reciprocal_roots(root)
         root = sp.simplify(root) if sp.count_ops(root) < 80 else root
         solved = {k: v.xreplace({q: root}) for k, v in solved.items()}
         solved[q] = root
         how[q.name] = f"closed form from {method}: {q.name} = {sp.sstr(root)}"
     return _assemble(family, der, disc, vals, samples, ok, solved, phis, how)
+
+
+def _reciprocal_roots(expr):
+    """sqrt(1/X) -> 1/sqrt(X): equal wherever X > 0, and both are non-real (the state is
+    then not physical) where X < 0; the second form lets sympy cancel X against sqrt(X)."""
+    return expr.replace(
+        lambda e: isinstance(e, sp.Pow) and e.exp == sp.Rational(1, 2)
+        and isinstance(e.base, sp.Pow) and e.base.exp == -1,
+        lambda e: 1 / sp.sqrt(e.base.base))
+
+
+def _simpler(expr, args, pts):
+    """A shorter form of ``expr`` (radicands factored, perfect powers taken out, over a
+    common denominator), kept only when it agrees with ``expr`` to 1e-12 at every sample
+    state (``args``, ``pts``): the identities used assume positive radicands, which the
+    physical states have."""
+    try:
+        e = expr.replace(lambda a: isinstance(a, sp.Pow) and a.exp.is_Rational
+                         and a.exp.q == 2 and not a.base.is_Atom,
+                         lambda a: sp.Pow(sp.factor(sp.together(a.base)), a.exp))
+        e = sp.factor_terms(sp.together(sp.powdenest(e, force=True)))
+    except (sp.PolynomialError, NotImplementedError, ValueError, TypeError):
+        return expr
+    if sp.count_ops(e) >= sp.count_ops(expr):
+        return expr
+    with np.errstate(all="ignore"):
+        a = _lam(args, expr)(*pts)
+        b = _lam(args, e)(*pts)
+    fine = np.isfinite(a)
+    if not fine.any() or not np.all(np.abs(a[fine] - b[fine])
+                                    <= 1e-12 * np.maximum(np.abs(a[fine]), 1e-300)):
+        return expr
+    return e
 
 
 def _certify_joint(cands, q, phis, solved, der, samples, ok) -> sp.Expr:
@@ -347,19 +381,30 @@ def _assemble(family, der, disc, vals, samples, ok, solved, phis, how) -> Family
     def sub(e):
         return None if e is None else sp.sympify(e).xreplace(rep)
 
-    M = der.enthalpy_declared.xreplace(rep) - sum(phis[q] * solved[q] for q in solved)
-    S = der.entropy_declared.xreplace(rep)
-    T = der.quantities["T"].xreplace(rep)
+    # the sample states in the new variables (x, P, Phi, other parameters)
+    args = der.arguments
+    new_args = tuple(phis.get(a, a) for a in args)
+    with np.errstate(all="ignore"):
+        new_pts = [(_lam(args, der.quantities[potential_name(a.name)])(
+            *[samples[b][ok] for b in args])).real if a in phis else samples[a][ok]
+            for a in args]
+
+    def simpler(e):
+        return _simpler(e, new_args, new_pts)
+
+    M = simpler(der.enthalpy_declared.xreplace(rep)
+                - sum(phis[q] * solved[q] for q in solved))
+    S = simpler(der.entropy_declared.xreplace(rep))
+    T = simpler(der.quantities["T"].xreplace(rep))
     dim = der.dimension
     n_M = (dim - 3) if family.gravitational else 0
     params = []
+    pts = [samples[a][ok] for a in args]
     if isinstance(family.dimension, Parameter):
         params_dim = Parameter("d", dim, length_dimension=0, domain=Domain.integers(dim, dim),
                                description=family.dimension.description)
     else:
         params_dim = dim
-    args = der.arguments
-    pts = [samples[a][ok] for a in args]
     for p in family.parameters:
         if p.discrete:
             params.append(Parameter(p.name, disc[p.name], p.length_dimension,
