@@ -230,10 +230,10 @@ def test_every_output_names_the_ensemble(capsys, tmp_path):
         assert main([cmd[0], "rn-ads", "-p", "Phi_Q=0.5", "--json"] + cmd[1:]) == 0
         doc = strict_loads(capsys.readouterr().out)
         assert "Phi_Q held fixed instead of Q" in doc["convention"]["ensemble"]
-        assert doc["ensemble"]["held_fixed"] == ["P", "d", "Phi_Q"]
+        assert doc["ensemble"]["held_fixed"] == ["P", "Phi_Q"]
     assert main(["critical", "rn-ads", "-p", "Q=1", "--json"]) == 0
     doc = strict_loads(capsys.readouterr().out)
-    assert doc["ensemble"]["held_fixed"] == ["P", "d", "Q"] and doc["ensemble"]["swapped"] == {}
+    assert doc["ensemble"]["held_fixed"] == ["P", "Q"] and doc["ensemble"]["swapped"] == {}
 
 
 def test_compare_command_text_json_and_figure(capsys, tmp_path):

@@ -93,7 +93,7 @@ def _side(th: Thermodynamics, pressure: float) -> EnsembleSide:
 
 
 def _describe(side: EnsembleSide) -> str:
-    fixed = ", ".join(n for n in side.ensemble.get("held_fixed", ()) if n not in ("P", "d"))
+    fixed = ", ".join(n for n in side.ensemble.get("held_fixed", ()) if n != "P")
     cps = side.critical_points
     head = f"fixed {fixed}: {len(cps)} critical point(s)"
     if cps:

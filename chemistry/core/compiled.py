@@ -553,7 +553,7 @@ def resolve_ensemble(family: Family, values: Mapping) -> tuple:
     if family.ensemble:
         raise EnsembleError(f"family {family.name} already holds "
                             f"{', '.join(family.ensemble)} fixed")
-    derived = fixed_potential_family(family, tuple(charges), **discrete)
+    derived = fixed_potential_family(family, tuple(charges), values=base, **discrete)
     return derived, dict(values)
 
 

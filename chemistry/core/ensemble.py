@@ -214,8 +214,7 @@ _built: dict = {}
 _lock = threading.Lock()
 
 
-def fixed_potential_family(family: Family, charges, *, values=None, scales=None,
-                           **discrete) -> Family:
+def fixed_potential_family(family: Family, charges, *, values=None, **discrete) -> Family:
     """The family of the ensemble in which Phi_q is held fixed instead of each q in ``charges``.
 
     Parameters
@@ -225,9 +224,9 @@ def fixed_potential_family(family: Family, charges, *, values=None, scales=None,
     charges : sequence of str
         Continuous parameters whose conjugate potential is held fixed instead.
     values : mapping, optional
-        Parameter values around which the inverse is certified (default: the defaults).
-    scales : (float, float), optional
-        Typical state and pressure of the original family (default: from ``values``).
+        Parameter values of the original family at which the inverse is certified too
+        (it always is at the defaults, where the family is built; the family does not
+        depend on ``values``).
     **discrete
         The structural parameters (d, k, ...).
 
@@ -259,34 +258,70 @@ def fixed_potential_family(family: Family, charges, *, values=None, scales=None,
                                 f"potential, so {potential_name(name)} cannot be held fixed")
     if not charges:
         raise EnsembleError("no potential to hold fixed")
-    vals = family.defaults()
-    vals.update(values or {})
-    disc = {p.name: vals.get(p.name, p.default) for p in family.discrete_parameters}
+    disc = {p.name: p.default for p in family.discrete_parameters}
+    disc.update({k: v for k, v in (values or {}).items() if k in disc})
     disc.update(discrete)
-    key = (id(family), tuple(sorted(disc.items())), charges,
-           tuple(sorted((k, float(v)) for k, v in vals.items())), scales)
+    vals = family.defaults()
+    vals.update(disc)
+    key = (id(family), tuple(sorted(disc.items())), charges)
     with _lock:
         hit = _built.get(key)
-    if hit is not None and hit[0] is family:
-        return hit[1]
-    out = _build(family, charges, vals, scales, disc)
-    with _lock:
-        while len(_built) >= _ENTRIES:
-            _built.pop(next(iter(_built)))
-        _built[key] = (family, out)
-    return out
+    if hit is None or hit[0] is not family:
+        out, der, solved = _build(family, charges, vals, None, disc)
+        hit = (family, out, der, solved)
+        with _lock:
+            while len(_built) >= _ENTRIES:
+                _built.pop(next(iter(_built)))
+            _built[key] = hit
+    if values:
+        _verify(family, hit[2], hit[3], {**vals, **{k: float(v) for k, v in values.items()
+                                                     if k not in disc}})
+    return hit[1]
 
 
-def _build(family: Family, charges: tuple, vals: dict, scales, disc: dict) -> Family:
+def _verify(family: Family, der, solved: dict, vals: dict) -> None:
+    """The inverse, certified at the defaults, must give back every charge at sample states
+    of the original family at ``vals`` too (another root branch would be refused)."""
+    names = tuple(q.name for q in solved)
+    samples = _samples(der, vals, *_scales(der, vals), names)
+    ok = _physical_samples(der, family, samples, tuple(solved))
+    if not ok.any():
+        return
+    args = der.arguments
+    pts = [samples[a][ok] for a in args]
+    with np.errstate(all="ignore"):
+        pots = {q: _lam(args, der.quantities[potential_name(q.name)])(*pts).real
+                for q in solved}
+        new = [pots.get(a, p) for a, p in zip(args, pts)]
+        new_args = tuple(sy.parameter_symbol(potential_name(a.name)) if a in solved else a
+                         for a in args)
+        for q, root in solved.items():
+            got = _lam(new_args, root)(*new)
+            want = pts[args.index(q)]
+            fine = np.isfinite(pots[q])
+            bad = fine & ~(np.abs(got - want) <= 1e-6 * np.maximum(np.abs(want), 1e-300))
+            if bad.any():
+                raise EnsembleError(
+                    f"the closed-form inverse {q.name}({potential_name(q.name)}) of "
+                    f"{family.name}, certified at its default parameters, does not give back "
+                    f"{q.name} at these values (another root branch): holding "
+                    f"{potential_name(q.name)} fixed is not supported here")
+
+
+def _scales(der, vals: dict) -> tuple:
+    ell = [abs(float(vals[s.name])) ** (1 / n) for s in der.parameters
+           if (n := der.length_dimensions[s.name]) != 0 and vals[s.name] != 0]
+    ell = math.exp(sum(math.log(e) for e in ell) / len(ell)) if ell else 1.0
+    x0 = ell ** (der.dimension - 2) if der.state.name == "S" else ell
+    return x0, 0.1 / (8 * math.pi * ell**2)
+
+
+def _build(family: Family, charges: tuple, vals: dict, scales, disc: dict) -> tuple:
     der = derive(family, **disc)
     q_syms = tuple(s for s in der.parameters if s.name in charges)
     phis = {q: sy.parameter_symbol(potential_name(q.name)) for q in q_syms}
     if scales is None:
-        ell = [abs(float(vals[s.name])) ** (1 / n) for s in der.parameters
-               if (n := der.length_dimensions[s.name]) != 0 and vals[s.name] != 0]
-        ell = math.exp(sum(math.log(e) for e in ell) / len(ell)) if ell else 1.0
-        x0 = ell ** (der.dimension - 2) if der.state.name == "S" else ell
-        scales = (x0, 0.1 / (8 * math.pi * ell**2))
+        scales = _scales(der, vals)
     samples = _samples(der, vals, float(scales[0]), float(scales[1]), charges)
     ok = _physical_samples(der, family, samples, q_syms)
     if not ok.any():
@@ -307,7 +342,7 @@ def _build(family: Family, charges: tuple, vals: dict, scales, disc: dict) -> Fa
         solved = {k: v.xreplace({q: root}) for k, v in solved.items()}
         solved[q] = root
         how[q.name] = f"closed form from {method}: {q.name} = {sp.sstr(root)}"
-    return _assemble(family, der, disc, vals, samples, ok, solved, phis, how)
+    return _assemble(family, der, disc, vals, samples, ok, solved, phis, how), der, solved
 
 
 def _reciprocal_roots(expr):

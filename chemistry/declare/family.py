@@ -197,14 +197,15 @@ class Family:
     # -- ensemble -----------------------------------------------------------------
     @property
     def held_fixed(self) -> tuple[str, ...]:
-        """What the analyses hold fixed besides the state: ``P`` and every parameter
-        (for a fixed-potential family the potentials, e.g. ``("P", "d", "Phi_Q")``)."""
-        return ("P",) + tuple(p.name for p in self.all_parameters)
+        """The thermodynamic variables the analyses hold fixed besides the state: ``P`` and
+        every continuous parameter (for a fixed-potential family the potentials, e.g.
+        ``("P", "Phi_Q")``); the structural ones (d, k) are not variables."""
+        return ("P",) + tuple(p.name for p in self.continuous_parameters)
 
     def ensemble_label(self) -> str:
         """One phrase naming the ensemble, e.g. ``fixed P, Q (the declared parameters)`` or
         ``fixed P, Phi_Q (Phi_Q held fixed instead of Q; G = M - T S - Phi_Q Q)``."""
-        fixed = ", ".join(n for n in self.held_fixed if n != "d")
+        fixed = ", ".join(self.held_fixed)
         if not self.ensemble:
             return f"fixed {fixed} (as declared)"
         swaps = ", ".join(f"{pot} held fixed instead of {q}" for pot, q in self.ensemble.items())
