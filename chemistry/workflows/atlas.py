@@ -639,6 +639,7 @@ def _assemble(family_name, fam, axes, fixed, rows, boundaries):
             "scale_invariance": note, "rows": rows, "boundaries": boundaries,
             "structures": sorted(named),
             "errors": sum(1 for r in rows if r["error"]),
+            "ensemble": ex.family.ensemble_record(),
             "version": __version__}
 
 
@@ -718,6 +719,8 @@ def _figure(out_dir, doc, axes):
                 ax.set_xscale("log")
             if a1.spacing == "log":
                 ax.set_yscale("log")
-        ax.set_title(f"{doc['family']}: structure signature")
+        swapped = ", ".join((doc.get("ensemble") or {}).get("swapped") or ())
+        where = f" at fixed {swapped}" if swapped else ""
+        ax.set_title(f"{doc['family']}{where}: structure signature")
         ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0))
         save(PlotResult(fig, "atlas"), os.path.join(out_dir, "atlas.png"))
