@@ -255,3 +255,17 @@ def test_compare_command_text_json_and_figure(capsys, tmp_path):
 def test_compare_api_refuses_unrelated_bindings():
     with pytest.raises(BhchemError):
         compare_ensembles(bind("rn-ads"), bind("kerr-ads", Phi_J=0.1), 0.01)
+
+
+def test_figure_title_and_scan_name_the_ensemble(tmp_path):
+    """A figure of the fixed-Phi family is titled by it; a scan may take the potential as
+    its grid axis, and its atlas records the ensemble (CEJM 1999: Hawking-Page below
+    Phi = 1, no transition above)."""
+    from bhchem import make_figure
+    from bhchem.workflows.atlas import parse_grid, scan
+    res = make_figure(bind("rn-ads", Phi_Q=0.5), "gt", pressures=[0.01])
+    assert "rn-ads-fixed-phi-q" in res.figure._suptitle.get_text()
+    doc = scan("rn-ads", [parse_grid("Phi_Q=0.5:1.5:2")], {}, str(tmp_path / "atlas"),
+               refine=0)
+    assert [r["structure"] for r in doc["rows"]] == ["hawking-page", "no-transition"]
+    assert doc["ensemble"]["swapped"] == {"Phi_Q": "Q"}

@@ -341,7 +341,7 @@ def _build(family: Family, charges: tuple, vals: dict, scales, disc: dict) -> tu
         root = sp.simplify(root) if sp.count_ops(root) < 80 else root
         solved = {k: v.xreplace({q: root}) for k, v in solved.items()}
         solved[q] = root
-        how[q.name] = f"closed form from {method}: {q.name} = {sp.sstr(root)}"
+        how[q.name] = f"closed form from {method}"
     return _assemble(family, der, disc, vals, samples, ok, solved, phis, how), der, solved
 
 
@@ -497,7 +497,7 @@ def _assemble(family, der, disc, vals, samples, ok, solved, phis, how) -> Family
                                + f"; background {bg_name}" if bg is not None else
                                f"{swaps} held fixed")
     for q in solved:
-        conventions[f"inverse_{q.name}"] = how[q.name]
+        conventions[f"inverse_{q.name}"] = f"{how[q.name]}: {q.name} = {sp.sstr(solved[q])}"
     name = f"{family.name}-fixed-" + "-".join(_family_slug(p) for p in ens)
     return Family(
         name=name,
