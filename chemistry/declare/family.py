@@ -151,6 +151,12 @@ class Family:
         declared length dimensions).
     conventions : mapping
         Entries that override or add to the project's conventions record.
+    ensemble : mapping
+        Set by the engine only (:func:`bhchem.core.ensemble.fixed_potential_family`): for a
+        family derived by a Legendre transform, potential name -> the charge it replaces
+        (``{"Phi_Q": "Q"}``); empty for a declared family.
+    parent : str
+        Set by the engine only: the declared family an ensemble family comes from.
     """
 
     name: str
