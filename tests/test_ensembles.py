@@ -173,20 +173,18 @@ def test_both_ensembles_agree_at_the_same_state(family, discrete, q):
         checked += 1
     assert checked >= 2
     fl, sm = check_first_law(tp), check_smarr(tp)
-    assert fl.max_residual <= 1e-9 and sm.holds, (fl.message, sm.message)
-    if family != "lovelock3-ads":
-        assert fl.holds, fl.message
+    assert fl.holds and fl.max_residual <= 1e-9 and sm.holds, (fl.message, sm.message)
     assert check_first_law(th).holds and check_smarr(th).holds
 
 
-def test_lovelock_fixed_phi_first_law_is_exact_where_finite_differences_struggle():
-    """Known limitation, stated: at fixed Phi the Lovelock hole has T > 0 states at r+ much
-    below sqrt(alpha2), where M is dominated by a constant (15 pi^2 alpha3/2 in d = 7) and
-    the finite-difference cross-check of the P direction loses digits (~1e-6); the exact
-    residual stays at rounding level."""
+def test_lovelock_fixed_phi_first_law_where_finite_differences_are_rounding_limited():
+    """At fixed Phi the Lovelock hole has T > 0 states at r+ much below sqrt(alpha2), where
+    M is dominated by a constant (15 pi^2 alpha3/2 in d = 7) and (dM/d log P) ~ 1e-10 M: the
+    finite-difference cross-check there sees only rounding of M (~1e-14 M), which is not a
+    violation; the exact residual stays at rounding level."""
     fl = check_first_law(bind("lovelock3-ads", Phi_Q=0.3))
+    assert fl.holds, fl.message
     assert fl.max_residual <= 1e-14
-    assert fl.finite_difference_residual <= 1e-5
 
 
 @pytest.mark.parametrize("family,q,why", REFUSED)
