@@ -267,7 +267,17 @@ def fixed_potential_family(family: Family, charges, *, values=None, **discrete) 
     with _lock:
         hit = _built.get(key)
     if hit is None or hit[0] is not family:
-        out, der, solved = _build(family, charges, vals, None, disc)
+        try:
+            out, der, solved = _build(family, charges, vals, None, disc)
+        except BhchemError:
+            raise
+        except (sp.PolynomialError, NotImplementedError, ValueError, TypeError,
+                ZeroDivisionError, ArithmeticError) as exc:
+            raise EnsembleError(
+                f"{', '.join(map(potential_name, charges))} cannot be held fixed in "
+                f"{family.name}: the Legendre transform failed "
+                f"({type(exc).__name__}: {str(exc).splitlines()[0] if str(exc) else ''})"
+            ) from None
         hit = (family, out, der, solved)
         with _lock:
             while len(_built) >= _ENTRIES:
