@@ -41,6 +41,7 @@ from bhchem.declare.registry import (available_families, get_family, load_family
                                      register)
 from bhchem.core.derive import Derivation, derive
 from bhchem.core.compiled import State, Thermodynamics, bind
+from bhchem.core.ensemble import EnsembleError, fixed_potential_family
 from bhchem.core.checks import FirstLawResult, SmarrResult, check_first_law, check_smarr
 from bhchem.analysis.critical import (CriticalPoint, CriticalSearch, find_critical_points,
                                       resolve_pressure)
@@ -65,7 +66,8 @@ from bhchem.analysis.figure_data import (CpCurves, GtCurves, PtDiagram, PvCurves
                                          cp_curves, gt_curves, pt_diagram, pv_curves, tr_curves)
 from bhchem.present.plots import (EmptyFigureError, PlotResult, plot_cp, plot_gt, plot_pt,
                                   plot_pv, plot_tr, save)
-from bhchem.workflows.figures import make_figure
+from bhchem.analysis.ensembles import EnsembleComparison, EnsembleSide, compare_ensembles
+from bhchem.workflows.figures import compare_figure, make_figure
 
 from bhchem.version import __version__
 
@@ -82,6 +84,9 @@ __all__ = [
     "IsoperimetricSurvey", "isoperimetric_ratio", "isoperimetric_survey",
     # derivation and checks
     "Derivation", "derive", "State", "Thermodynamics", "bind",
+    # ensembles: a potential held fixed instead of its charge (bind(..., Phi_Q=0.5))
+    "fixed_potential_family", "EnsembleError",
+    "EnsembleComparison", "EnsembleSide", "compare_ensembles", "compare_figure",
     "FirstLawResult", "SmarrResult", "check_first_law", "check_smarr",
     # analyses and their results
     "CriticalPoint", "CriticalSearch", "find_critical_points", "find_critical_points_on_branches",

@@ -25,5 +25,8 @@ def convention_record(family=None) -> dict:
         "charge": CHARGE,
     }
     if family is not None:
+        label = getattr(family, "ensemble_label", None)
+        if label is not None:
+            record["ensemble"] = label()
         record.update(dict(family.conventions))
     return record

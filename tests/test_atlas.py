@@ -264,11 +264,11 @@ def test_failed_midpoint_is_an_unlocated_boundary(tmp_path, monkeypatch):
     import bhchem.workflows.atlas as atlas
     real = atlas.analyse_point
 
-    def failing(family_name, family_file, params, admissible=(None, ())):
+    def failing(family_name, family_file, params, *rest):
         if 0.0 < params["Q"] < 1.0:
             return {"error": "RuntimeError: simulated failure", "n_critical": None,
                     "structure": "error"}
-        return real(family_name, family_file, params, admissible)
+        return real(family_name, family_file, params, *rest)
     monkeypatch.setattr(atlas, "analyse_point", failing)
     doc = scan("rn-ads", [parse_grid("Q=0:1:2")], {}, tmp_path / "f", refine=3)
     (b,) = doc["boundaries"]

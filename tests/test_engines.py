@@ -170,7 +170,8 @@ def test_cli_engine_json_and_figure(capsys, tmp_path):
     assert args.func(args) == 0
     out, err = capsys.readouterr()
     doc = json.loads(out)
-    assert set(doc) - {"convention"} == {"work", "heat_in", "heat_out", "efficiency", "carnot", "T_hot", "T_cold", "admissibility"}
+    assert set(doc) - {"convention", "admissibility", "ensemble"} == {
+        "work", "heat_in", "heat_out", "efficiency", "carnot", "T_hot", "T_cold"}
     assert doc["work"] == pytest.approx(0.002 * (V2 - V1), rel=1e-12)
     assert doc["efficiency"] < doc["carnot"]
     assert fig.stat().st_size > 10_000 and "wrote" in err

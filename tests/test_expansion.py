@@ -142,7 +142,8 @@ def test_cli_expansion_json_and_figure(capsys, tmp_path):
     assert args.func(args) == 0
     out, err = capsys.readouterr()
     doc = json.loads(out)
-    assert set(doc) - {"convention"} == {"inversion", "isenthalps", "notes", "admissibility"}
+    assert set(doc) - {"convention", "admissibility", "ensemble"} == {"inversion", "isenthalps",
+                                                                   "notes"}
     assert set(doc["inversion"]) == {"points", "T_min", "ratio_to_Tc", "T_c", "P_at_min",
                                      "x_at_min", "at_low_pressure_end", "residual",
                                      "why_no_T_min", "pressure_range", "headline_branch",

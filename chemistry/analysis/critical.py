@@ -183,6 +183,8 @@ class CriticalSearch(Result):
     warnings: tuple = ()
     #: the binding's admissibility selection, which decides the ``physical`` flags
     admissibility: dict = field(default_factory=dict)
+    #: which variables are held fixed (``Family.ensemble_record()``)
+    ensemble: dict = field(default_factory=dict)
 
     @property
     def physical(self) -> tuple:
@@ -408,7 +410,8 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
                           points=tuple(points), completeness=completeness,
                           method=method_text, scanned_range=scanned, converged=converged,
                           message=msg, convention=convention_record(th.family),
-                          admissibility=th.admissibility.to_dict())
+                          admissibility=th.admissibility.to_dict(),
+                          ensemble=th.family.ensemble_record())
 
 
 def _same(a: CriticalPoint, b: CriticalPoint) -> bool:

@@ -135,6 +135,8 @@ class IsobarResult(Result):
     #: the states this isobar leaves out, by condition (an ``Exclusions``), or None when not
     #: asked for (``report_excluded=False``)
     excluded: object = None
+    #: which variables are held fixed (``Family.ensemble_record()``)
+    ensemble: dict = field(default_factory=dict)
 
     def phase_at(self, T: float) -> str | None:
         for lo, hi, ph in self.preferred:
@@ -559,6 +561,7 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
                         preferred=tuple(segments), background=bg_name,
                         state_range=tuple(xr), message=msg, warnings=tuple(warnings),
                         admissibility=th.admissibility.to_dict(),
+                        ensemble=th.family.ensemble_record(),
                         excluded=excluded_states(th, P, xr) if report_excluded else None)
 
 

@@ -208,6 +208,8 @@ class PhaseDiagram(Result):
     admissibility: dict = field(default_factory=dict)
     #: what each active condition leaves out across the pressure range (ExclusionSummary)
     exclusions: object = None
+    #: which variables are held fixed (``Family.ensemble_record()``)
+    ensemble: dict = field(default_factory=dict)
 
     @property
     def n_distinct_phases(self) -> int:
@@ -1138,6 +1140,7 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
                         structure=structure, structure_hash=h, message=msg, warnings=warnings,
                         events=[e for e in events if e.relevant],
                         admissibility=th.admissibility.to_dict(),
+                        ensemble=th.family.ensemble_record(),
                         exclusions=exclusion_summary(th, np.geomspace(lo, hi, N_EXCLUSION_PRESSURES)))
 
 

@@ -95,15 +95,18 @@ def parse_cycle(text: str, parse_pressure=None, th=None) -> list:
 
 def _finish(args, doc: dict, text: str, figure, th=None) -> int:
     if th is not None:  # the selection of states the result rests on
-        doc = {**doc, "admissibility": th.admissibility.to_dict()}
+        doc = {**doc, "admissibility": th.admissibility.to_dict(),
+               "ensemble": th.family.ensemble_record()}
         if not th.admissibility.is_default:
             text = f"{text}\nstates: {th.admissibility.label()}"
+        if th.family.ensemble:
+            text = f"{text}\nensemble: {th.family.ensemble_label()}"
     if args.output:
         path = save(figure(), args.output)
         print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     if args.json:
         # one serializer: non-finite -> null, sorted keys, the family's conventions added
-        print(to_json(doc, family=get_family(args.family)))
+        print(to_json(doc, family=th.family if th is not None else get_family(args.family)))
     else:
         print(text)
     return 0

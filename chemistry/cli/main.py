@@ -27,7 +27,10 @@ from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
 from bhchem.present.plots import save
-from bhchem.workflows.figures import make_figure
+from bhchem.workflows.figures import compare_figure, make_figure
+from bhchem.analysis.ensembles import compare_ensembles
+from bhchem.present.ensemble_report import compare_json, compare_text
+from bhchem.core.ensemble import charge_of
 from bhchem.workflows.report import write_report
 from bhchem.demo import FAMILY_FILE
 from bhchem.workflows.atlas import parse_grid, scan
@@ -161,6 +164,38 @@ def cmd_isobar(args) -> int:
     with _warnings_in_output():
         res = analyze_isobar(th, P, critical_points=find_critical_points(th).physical)
     print(to_json(isobar_json(res), family=th.family) if args.json else isobar_text(res))
+    return 0
+
+
+def cmd_compare(args) -> int:
+    if args.output:
+        _check_plot_output(args.output)
+    family = get_family(args.family)
+    values = parse_assignments(args.param)
+    names = {p.name for p in family.all_parameters}
+    potentials = [n for n in values if n not in names and charge_of(n) is not None]
+    if not potentials:
+        raise BhchemError("compare needs the potential to hold fixed, e.g. -p Q=1 -p Phi_Q=0.5 "
+                          "(Phi_J for the angular velocity)")
+    charges = {charge_of(n) for n in potentials}
+    cond = dict(conditions=getattr(args, "conditions", None), without=_without(args))
+    th_q = bind(family, **cond, **{k: v for k, v in values.items() if k not in potentials})
+    th_phi = bind(family, **cond, **{k: v for k, v in values.items() if k not in charges})
+    if args.pressure:
+        P = parse_pressure(args.pressure, th_q)
+    else:
+        cps = find_critical_points(th_q).physical
+        P = 0.5 * cps[0].P if cps else th_q.typical_pressure()
+    with _warnings_in_output():
+        cmp = compare_ensembles(th_q, th_phi, P)
+    print(to_json(compare_json(cmp), family=th_phi.family) if args.json else compare_text(cmp))
+    if args.output:
+        res = compare_figure(th_q, th_phi, P)
+        with output_lock(args.output):
+            for note in clean_stale(args.output):
+                _note(f"{note} (left by an interrupted run)")
+            path = save(res, args.output)
+        print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     return 0
 
 
@@ -364,6 +399,18 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--pressure", required=True, metavar="P",
                    help="pressure, absolute (0.002) or relative to a critical point (0.5Pc)")
     p.set_defaults(func=cmd_isobar)
+
+    p = sub.add_parser("compare", parents=[common],
+                       help="both ensembles side by side: fixed charge (-p Q=1) and fixed "
+                            "potential (-p Phi_Q=0.5) at one pressure")
+    _add_family_args(p)
+    p.add_argument("--pressure", metavar="P",
+                   help="pressure, absolute or relative to a critical point of the "
+                        "fixed-charge ensemble (0.5Pc); default 0.5Pc, or the family's "
+                        "typical pressure when it has no critical point")
+    p.add_argument("-o", "--output", metavar="FILE",
+                   help="also draw the two-panel G-T figure (.png, .pdf or .svg)")
+    p.set_defaults(func=cmd_compare)
 
     p = sub.add_parser("phases", parents=[common],
                        help="phase diagram: lines, critical and triple points, phase graph")

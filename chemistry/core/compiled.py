@@ -27,6 +27,7 @@ from bhchem.declare.family import canonical_symbols, canonicalise
 from bhchem.declare import symbols as sy
 from bhchem.declare.registry import get_family
 from bhchem.declare.conditions import Admissibility, select
+from bhchem.core.ensemble import EnsembleError, charge_of, fixed_potential_family
 
 
 def _special_functions() -> dict:
@@ -500,7 +501,11 @@ def bind(family, *, conditions: str | None = None, without=(), **values) -> Ther
     without : iterable of str or comma-separated str
         Conditions to drop in addition (e.g. ``without="regular-exterior"``).
     **values
-        Parameter values; missing ones take their defaults.
+        Parameter values; missing ones take their defaults.  A potential given in place of
+        its charge (``Phi_Q=0.5`` instead of ``Q=1``; ``Phi_J`` is the angular velocity
+        Omega) chooses the ensemble in which that potential is held fixed: the family is
+        then the Legendre-transformed one of :func:`bhchem.core.ensemble.fixed_potential_family`
+        (named ``<family>-fixed-phi-q``).
 
     Returns
     -------
@@ -513,6 +518,7 @@ def bind(family, *, conditions: str | None = None, without=(), **values) -> Ther
     """
     if isinstance(family, str):
         family = get_family(family)
+    family, values = resolve_ensemble(family, values)
     vals = validate_values(family, values)
     discrete = {p.name: vals[p.name] for p in family.discrete_parameters}
     derivation = derive(family, **discrete)
@@ -521,6 +527,34 @@ def bind(family, *, conditions: str | None = None, without=(), **values) -> Ther
     th = Thermodynamics(family, vals, derivation, adm)
     _check_representable(th)
     return th
+
+
+def resolve_ensemble(family: Family, values: Mapping) -> tuple:
+    """The family of the ensemble the values choose, and the values for it: a value for
+    ``Phi_<q>`` (not itself a parameter) holds that potential fixed instead of q."""
+    names = {p.name for p in family.all_parameters}
+    swapped = [n for n in values if n not in names and charge_of(n) is not None]
+    if not swapped:
+        return family, values
+    charges = []
+    for pot in swapped:
+        q = charge_of(pot)
+        if q not in names:
+            raise UnknownParameterError(
+                f"family {family.name} has no parameter {pot!r} and no parameter {q!r} whose "
+                f"potential it could be; its parameters are: {', '.join(sorted(names)) or 'none'}")
+        if q in values:
+            raise EnsembleError(f"give {q} or {pot}, not both: holding {pot} fixed replaces {q} "
+                                f"(bhchem compare shows both ensembles side by side)")
+        charges.append(q)
+    rest = {k: v for k, v in values.items() if k not in swapped}
+    base = validate_values(family, rest)
+    discrete = {p.name: base[p.name] for p in family.discrete_parameters}
+    if family.ensemble:
+        raise EnsembleError(f"family {family.name} already holds "
+                            f"{', '.join(family.ensemble)} fixed")
+    derived = fixed_potential_family(family, tuple(charges), values=base, **discrete)
+    return derived, dict(values)
 
 
 def _check_representable(th: "Thermodynamics") -> None:

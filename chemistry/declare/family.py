@@ -154,6 +154,12 @@ class Family:
     metric : bhchem.declare.metric.Metric, optional
         The static metric function, when known (:func:`bhchem.declare.metric.from_metric`
         builds a family from it); photon-sphere quantities are derived from it.
+    ensemble : mapping
+        Set by the engine only (:func:`bhchem.core.ensemble.fixed_potential_family`): for a
+        family derived by a Legendre transform, potential name -> the charge it replaces
+        (``{"Phi_Q": "Q"}``); empty for a declared family.
+    parent : str
+        Set by the engine only: the declared family an ensemble family comes from.
     """
 
     name: str
@@ -181,6 +187,12 @@ class Family:
     source: str = ""
     condition_sets: Sequence[ConditionSet] = ()
     metric: object = None
+    #: the ensemble: potential name -> the charge it replaces (``{"Phi_Q": "Q"}``) for a family
+    #: derived by :func:`bhchem.core.ensemble.fixed_potential_family`; empty for a declared
+    #: family (its parameters themselves are held fixed)
+    ensemble: Mapping[str, str] = field(default_factory=dict)
+    #: the declared family an ensemble family was derived from (its name), else ""
+    parent: str = ""
 
     def __post_init__(self):
         object.__setattr__(self, "parameters", tuple(self.parameters))
@@ -191,6 +203,29 @@ class Family:
             for i, c in enumerate(self.conditions)))
         object.__setattr__(self, "condition_sets", tuple(self.condition_sets))
         validate_family(self)
+
+    # -- ensemble -----------------------------------------------------------------
+    @property
+    def held_fixed(self) -> tuple[str, ...]:
+        """The thermodynamic variables the analyses hold fixed besides the state: ``P`` and
+        every continuous parameter (for a fixed-potential family the potentials, e.g.
+        ``("P", "Phi_Q")``); the structural ones (d, k) are not variables."""
+        return ("P",) + tuple(p.name for p in self.continuous_parameters)
+
+    def ensemble_label(self) -> str:
+        """One phrase naming the ensemble, e.g. ``fixed P, Q (the declared parameters)`` or
+        ``fixed P, Phi_Q (Phi_Q held fixed instead of Q; G = M - T S - Phi_Q Q)``."""
+        fixed = ", ".join(self.held_fixed)
+        if not self.ensemble:
+            return f"fixed {fixed} (as declared)"
+        swaps = ", ".join(f"{pot} held fixed instead of {q}" for pot, q in self.ensemble.items())
+        g = " - ".join(["G = M - T S"] + [f"{pot} {q}" for pot, q in self.ensemble.items()])
+        return f"fixed {fixed} ({swaps}; {g})"
+
+    def ensemble_record(self) -> dict:
+        """JSON-ready ``{label, held_fixed, swapped, parent}``."""
+        return {"label": self.ensemble_label(), "held_fixed": list(self.held_fixed),
+                "swapped": dict(self.ensemble), "parent": self.parent or self.name}
 
     # -- admissibility ----------------------------------------------------------
     @property

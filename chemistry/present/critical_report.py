@@ -30,6 +30,12 @@ def admissibility_line(record: dict) -> str:
     return f"states: {adm.label()} ({len(adm.active)} applied)"
 
 
+def ensemble_line(record: dict) -> str:
+    """``ensemble: fixed P, Q (as declared)`` (the variables the analysis holds fixed)."""
+    return f"ensemble: {record.get('label', 'as declared')}" if record else \
+        "ensemble: as declared"
+
+
 def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
     """The JSON document of ``bhchem critical`` / ``exponents``.
 
@@ -68,7 +74,7 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
             "method": search.method, "scanned_range": search.scanned_range,
             "converged": search.converged, "message": search.message,
             "critical_points": points, "warnings": list(search.warnings),
-            "admissibility": search.admissibility}
+            "admissibility": search.admissibility, "ensemble": search.ensemble}
 
 
 def _finite(v) -> bool:
@@ -82,7 +88,8 @@ def _g(v) -> str:
 def critical_text(doc: dict) -> str:
     params = ", ".join(f"{k} = {v:g}" for k, v in doc["parameters"].items())
     lines = [f"{doc['family']} ({params})", f"  {doc['message']}", f"  method: {doc['method']}",
-             f"  {admissibility_line(doc.get('admissibility') or {})}"]
+             f"  {admissibility_line(doc.get('admissibility') or {})}",
+             f"  {ensemble_line(doc.get('ensemble') or {})}"]
     if not doc["critical_points"]:
         lines.append("  no critical point")
     for i, cp in enumerate(doc["critical_points"], 1):

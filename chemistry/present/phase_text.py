@@ -7,7 +7,7 @@ import math
 from bhchem.analysis.admissibility import describe_range
 from bhchem.analysis.isobar import IsobarResult, StateData
 from bhchem.analysis.phases import PhaseDiagram
-from bhchem.present.critical_report import admissibility_line
+from bhchem.present.critical_report import admissibility_line, ensemble_line
 
 
 def _excluded_lines(res: IsobarResult, state: str) -> list:
@@ -41,6 +41,7 @@ def isobar_json(res: IsobarResult) -> dict:
         "message": res.message,
         "warnings": list(res.warnings),
         "admissibility": res.admissibility,
+        "ensemble": res.ensemble,
         "excluded": None if res.excluded is None else
         [r.to_dict() for r in res.excluded.ranges],
     }
@@ -50,7 +51,8 @@ def isobar_text(res: IsobarResult) -> str:
     """Plain-text report of ``bhchem isobar``."""
     params = ", ".join(f"{k} = {v:g}" for k, v in res.parameters.items())
     lines = [f"isobar P = {res.pressure:.12g} ({params})", f"  {res.message}",
-             f"  {admissibility_line(res.admissibility)}", "  branches:"]
+             f"  {admissibility_line(res.admissibility)}", f"  {ensemble_line(res.ensemble)}",
+             "  branches:"]
     for b in res.branches:
         lines.append(f"    [{b.index}] {b.label:<28} x in [{b.x_min:.6g}, {b.x_max:.6g}]  "
                      f"T in [{b.T_min:.6g}, {b.T_max:.6g}]  ends: {b.ends[0]}/{b.ends[1]}")
@@ -97,6 +99,7 @@ def diagram_json(pd: PhaseDiagram) -> dict:
         "message": pd.message,
         "warnings": pd.warnings,
         "admissibility": pd.admissibility,
+        "ensemble": pd.ensemble,
         "excluded": None if pd.exclusions is None else {
             "pressures": list(pd.exclusions.pressures),
             "conditions": [dict(e) for e in pd.exclusions.conditions]},
@@ -118,7 +121,8 @@ def diagram_text(pd: PhaseDiagram) -> str:
     """Plain-text report of ``bhchem phases``."""
     params = ", ".join(f"{k} = {v:g}" for k, v in pd.parameters.items())
     out = [f"{pd.family} ({params}), P in [{pd.pressure_range[0]:.4g}, {pd.pressure_range[1]:.4g}]",
-           f"  {pd.message}", f"  {admissibility_line(pd.admissibility)}"]
+           f"  {pd.message}", f"  {admissibility_line(pd.admissibility)}",
+           f"  {ensemble_line(pd.ensemble)}"]
     for cp in pd.critical_points:
         out.append(f"  critical point ({cp.kind}): T = {cp.T:.12g}, P = {cp.P:.12g}")
     for tp in pd.triple_points:

@@ -81,6 +81,7 @@ def show_json(th: Thermodynamics) -> dict:
         "isoperimetric": {"R_min": iso.R_min, "R_max": iso.R_max, "n_states": iso.n_states,
                           "super_entropic": iso.super_entropic, "worst": iso.worst,
                           "message": iso.message, "convention": iso.convention},
+        "ensemble": fam.ensemble_record(),
     }
 
 
@@ -102,6 +103,10 @@ def show_text(th: Thermodynamics) -> str:
     conv = doc["convention"]
     lines.append(f"  conventions  {conv['units']}; {conv['pressure']}; {conv['mass']}; "
                  f"{conv['volume']}; {conv['specific_volume']}; {conv['charge']}")
+    lines.append(f"  ensemble     {th.family.ensemble_label()}")
+    for key, text in conv.items():
+        if key.startswith("inverse_") or key == "legendre_transform":
+            lines.append(f"               {text}")
     fixed = ", ".join(f"{k} = {v}" for k, v in der.discrete.items())
     free = ", ".join([der.state.name, "P"] + list(der.parameter_names))
     lines.append("")

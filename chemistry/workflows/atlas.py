@@ -54,7 +54,7 @@ from concurrent.futures import as_completed as futures_as_completed
 
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.phases import phase_diagram
-from bhchem.core.compiled import bind, parse_number, validate_values
+from bhchem.core.compiled import bind, parse_number, resolve_ensemble, validate_values
 from bhchem.declare.registry import get_family, load_family_file
 from bhchem.errors import BhchemError, BhchemWarning
 from bhchem.fileio import atomic_write, fault_point
@@ -339,6 +339,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     """
     fixed = dict(fixed or {})
     fam = _family(family_name, family_file)
+    # a potential on the grid or fixed (Phi_Q) chooses the ensemble of every point
+    fam, _ = resolve_ensemble(fam, {**fixed, **{a.name: a.values[0] for a in axes}})
     without = tuple(without or ())
     adm = bind(fam, conditions=conditions, without=without, **fixed).admissibility
     admissible = (conditions, without)
@@ -637,6 +639,7 @@ def _assemble(family_name, fam, axes, fixed, rows, boundaries):
             "scale_invariance": note, "rows": rows, "boundaries": boundaries,
             "structures": sorted(named),
             "errors": sum(1 for r in rows if r["error"]),
+            "ensemble": ex.family.ensemble_record(),
             "version": __version__}
 
 
@@ -716,6 +719,8 @@ def _figure(out_dir, doc, axes):
                 ax.set_xscale("log")
             if a1.spacing == "log":
                 ax.set_yscale("log")
-        ax.set_title(f"{doc['family']}: structure signature")
+        swapped = ", ".join((doc.get("ensemble") or {}).get("swapped") or ())
+        where = f" at fixed {swapped}" if swapped else ""
+        ax.set_title(f"{doc['family']}{where}: structure signature")
         ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0))
         save(PlotResult(fig, "atlas"), os.path.join(out_dir, "atlas.png"))

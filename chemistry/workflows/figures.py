@@ -11,6 +11,8 @@ from __future__ import annotations
 
 from bhchem.errors import BhchemError
 from bhchem.analysis.figure_data import FIGURE_DATA, FIGURE_KINDS
+from bhchem.analysis.figure_data import gt_curves
+from bhchem.present.ensemble_report import plot_compare
 from bhchem.present.plots import PLOTTERS, PlotResult
 
 KINDS = FIGURE_KINDS
@@ -44,3 +46,12 @@ def make_figure(th, kind: str, ax=None, **options) -> PlotResult:
     if kind not in FIGURE_DATA:
         raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(KINDS)}")
     return PLOTTERS[kind](FIGURE_DATA[kind](th, **options), ax=ax)
+
+
+
+def compare_figure(charge_bound, potential_bound, pressure: float) -> PlotResult:
+    """Two G-T panels at one pressure, the fixed-charge ensemble left and the
+    fixed-potential one right (:func:`~bhchem.analysis.figure_data.gt_curves` for each, then
+    :func:`~bhchem.present.ensemble_report.plot_compare`)."""
+    return plot_compare(gt_curves(charge_bound, pressures=[pressure]),
+                        gt_curves(potential_bound, pressures=[pressure]))
