@@ -102,7 +102,7 @@ def test_cli_scan_bad_input(capsys, tmp_path, argv, match):
 def test_cli_scan_unreachable_scheduler(capsys, tmp_path):
     pytest.importorskip("distributed")
     assert main(["scan", "rn-ads", "--grid", "Q=1:2:2", "-o", str(tmp_path / "s"),
-                 "--scheduler", "tcp://127.0.0.1:9"]) == 2
+                 "--scheduler", "tcp://127.0.0.1:9", "--scheduler-timeout", "1s"]) == 2
     assert "cannot reach the Dask scheduler" in capsys.readouterr().err
 
 

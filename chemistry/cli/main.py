@@ -313,7 +313,7 @@ def cmd_scan(args) -> int:
         except ImportError:
             raise BhchemError("--scheduler needs Dask: pip install 'bhchem[dask]'") from None
         try:
-            client = executor = Client(args.scheduler, timeout="10s")
+            client = executor = Client(args.scheduler, timeout=args.scheduler_timeout)
         except (OSError, TimeoutError) as exc:
             raise BhchemError(f"cannot reach the Dask scheduler at {args.scheduler}: {exc}") from None
     try:
@@ -460,6 +460,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="output folder (rerun the same command to resume)")
     p.add_argument("--workers", type=int, default=1, help="local worker processes (1)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster (tcp://...)")
+    p.add_argument("--scheduler-timeout", metavar="DURATION", default="10s",
+                   help="how long to try to reach the Dask scheduler (network I/O; 10s)")
     add_condition_args(p)
     p.add_argument("--refine", type=int, default=8,
                    help="bisection steps per boundary (8; 0: bracket by the grid only)")
