@@ -298,3 +298,110 @@ def test_plot_gt_draws_one_panel_per_given_axes(figure_inputs):
     for i, ax in enumerate(axes):
         assert ax.get_xlim() == pytest.approx(data.panels[i].T_window)
     assert axes[-1].get_legend() is not None
+
+
+# -- the data of every figure, beside it as CSV -------------------------------------------------
+def _read_table(text):
+    """CSV text of a figure table -> (comments, header, {curve: rows array})."""
+    import csv
+    import io
+    lines = text.splitlines()
+    comments = [ln[2:] for ln in lines if ln.startswith("# ")]
+    reader = csv.reader(io.StringIO("\n".join(ln for ln in lines if not ln.startswith("#"))))
+    header = next(reader)
+    curves = {}
+    for row in reader:
+        curves.setdefault(row[0], []).append([float(v) for v in row[1:]])
+    return comments, header, {k: np.array(v) for k, v in curves.items()}
+
+
+def _drawn_figures(figure_inputs, rn):
+    from bhchem.present.analysis_plots import plot_curvature, plot_cycle
+    from bhchem.present.plots import PLOTTERS
+    for kind in ("pv", "gt", "pt", "tr", "cp"):
+        yield PLOTTERS[kind](figure_inputs[kind])
+    yield plot_cycle(figure_inputs["cycle"])
+    yield plot_curvature(figure_inputs["curvature"], rn)
+
+
+def test_every_figure_table_holds_exactly_the_drawn_curves(figure_inputs, rn):
+    """Each (n, 2) array a plot drew is in its table, bit for bit after a CSV round trip,
+    under its own name, with the columns named by the kind's conventions."""
+    for res in _drawn_figures(figure_inputs, rn):
+        comments, header, curves = _read_table(res.table.csv())
+        assert header[0] == "curve" and len(header) >= 3, res.kind
+        assert "units: G = c = hbar = k_B = 1" in comments
+        assert any(c.startswith(f"bhchem figure {res.kind}: rn-ads") for c in comments)
+        source = res.data if res.table_data is None else res.table_data
+        for name, arr in source.items():
+            a = np.asarray(arr, float)
+            if a.size == 0 or (a.ndim == 2 and a.shape[1] != len(header) - 1):
+                continue
+            a = a.reshape(-1, len(header) - 1)
+            np.testing.assert_array_equal(curves[name], a, err_msg=f"{res.kind} {name}")
+    pv = next(_drawn_figures(figure_inputs, rn))
+    assert pv.kind == "pv" and pv.table.columns == ("curve", "v", "P")
+    T0 = figure_inputs["pv"].temperatures[0]
+    assert f"curve isotherm_0: T = {T0:.10g}" in " ".join(pv.table.comments)
+
+
+def test_curvature_table_is_the_grid_and_the_curves(figure_inputs, rn):
+    from bhchem.present.analysis_plots import plot_curvature
+    cmap = figure_inputs["curvature"]
+    t = plot_curvature(cmap, rn).table
+    assert t.columns == ("curve", "v", "T", "R_N")
+    grid = np.array([r[1:] for r in t.rows if r[0] == "R_N"])
+    assert len(grid) == cmap.R_N.size
+    j, i = 7, 11  # R_N[j, i] is at T[j], v[i]
+    row = grid[j * len(cmap.v) + i]
+    assert row[0] == cmap.v[i] and row[1] == cmap.T[j]
+    assert row[2] == cmap.R_N[j, i] or (np.isnan(row[2]) and np.isnan(cmap.R_N[j, i]))
+
+
+def test_save_with_table_writes_both_or_neither(figure_inputs, tmp_path):
+    from bhchem.present.plots import PLOTTERS, table_path
+    res = PLOTTERS["tr"](figure_inputs["tr"])
+    path = save(res, tmp_path / "tr.svg", table=True)
+    assert table_path(path) == str(tmp_path / "tr.csv")
+    assert (tmp_path / "tr.csv").read_text() == res.table.csv()
+    assert sorted(os.listdir(tmp_path)) == ["tr.csv", "tr.svg"]
+
+    class Broken(RuntimeError):
+        pass
+
+    def fail(*a, **k):
+        raise Broken("disk full")
+    res.figure.savefig = fail  # the figure fails half-way: no table, no figure, no temporary
+    with pytest.raises(Broken):
+        save(res, tmp_path / "again.png", table=True)
+    assert sorted(os.listdir(tmp_path)) == ["tr.csv", "tr.svg"]
+
+
+def test_to_frame_without_pandas_is_one_clear_line(figure_inputs, monkeypatch):
+    import sys
+    from bhchem.errors import BhchemError
+    from bhchem.present.plots import PLOTTERS
+    res = PLOTTERS["cp"](figure_inputs["cp"])
+    monkeypatch.setitem(sys.modules, "pandas", None)
+    with pytest.raises(BhchemError, match=r"needs pandas: pip install 'bhchem\[notebook\]'"):
+        res.to_frame()
+
+
+def test_bundle_and_cli_figures_come_with_their_data(bundle, tmp_path, capsys):
+    for kind in ("pv", "gt", "pt", "tr", "cp"):
+        comments, header, curves = _read_table((bundle / f"{kind}.csv").read_text())
+        assert curves and header[0] == "curve", kind
+        assert not (bundle / f"{kind}.pdf.csv").exists()
+    _, header, curves = _read_table((bundle / "pt.csv").read_text())
+    assert header == ["curve", "T", "P"]
+    line = curves["line0_first-order"]
+    assert np.all(np.diff(line[:, 0]) > 0) and line[-1, 1] == pytest.approx(PC, rel=1e-6)
+    out = tmp_path / "cp.png"
+    assert main(["plot", "cp", "rn-ads", "-p", "Q=1", "--pressure", "0.5Pc", "-o", str(out)]) == 0
+    assert f"its data {tmp_path / 'cp.csv'}" in capsys.readouterr().out
+    _, header, curves = _read_table((tmp_path / "cp.csv").read_text())
+    assert header == ["curve", "r_plus", "C_P"] and len(curves) >= 2
+    (tmp_path / "x.csv").mkdir()  # the data file would replace a folder: refused first
+    assert main(["plot", "cp", "rn-ads", "-o", str(tmp_path / "x.png")]) == 2
+    assert "would replace a folder" in capsys.readouterr().err
+    assert not (tmp_path / "x.png").exists()

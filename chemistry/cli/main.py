@@ -26,7 +26,7 @@ from bhchem.analysis.critical import find_critical_points, resolve_pressure
 from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
-from bhchem.present.plots import save
+from bhchem.present.plots import save, table_path
 from bhchem.workflows.figures import make_figure
 from bhchem.workflows.report import write_report
 from bhchem.demo import FAMILY_FILE
@@ -207,6 +207,9 @@ def _check_plot_output(path: str) -> str:
         raise BhchemError(f"output {path}: use a .png, .pdf or .svg file name")
     if os.path.isdir(path):
         raise BhchemError(f"output {path} is a folder; give a file name")
+    if os.path.isdir(table_path(path)):
+        raise BhchemError(f"output {path}: its data file {table_path(path)} would replace "
+                          f"a folder; give another name")
     check_writable_folder(os.path.dirname(path), f"output {path}")
     return path
 
@@ -231,8 +234,8 @@ def cmd_plot(args) -> int:
     with output_lock(args.output):
         for note in clean_stale(args.output):
             _note(f"{note} (left by an interrupted run)")
-        path = save(res, args.output)
-    print(f"wrote {path}")
+        path = save(res, args.output, table=True)
+    print(f"wrote {path} and its data {table_path(path)}")
     return 0
 
 

@@ -16,6 +16,8 @@ blank.  The look (palette, line conventions, rc style) is :mod:`bhchem.present.s
 """
 from __future__ import annotations
 
+import csv
+import io
 import math
 import os
 from contextlib import contextmanager
@@ -34,7 +36,8 @@ from bhchem.present.style import (LINE_COLOR, LINE_STYLE, PALETTE, STABLE_GREY, 
 
 KINDS = FIGURE_KINDS
 
-__all__ = ["KINDS", "PLOTTERS", "EmptyFigureError", "PlotResult", "save", "canvas", "figure_of",
+__all__ = ["KINDS", "PLOTTERS", "EmptyFigureError", "PlotResult", "FigureTable", "COLUMNS",
+           "figure_table", "table_path", "save", "canvas", "figure_of",
            "plot_pv", "plot_gt", "plot_pt", "plot_tr", "plot_cp",
            # the style, re-exported for the callers of this module
            "figure_title", "styled", "FigureFactory", "PALETTE", "STYLE", "STABLE_GREY",
@@ -69,9 +72,149 @@ class PlotResult(Result):
     kind: str
     data: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
+    #: names of the table's coordinate columns (default: :data:`COLUMNS` of ``kind``)
+    columns: tuple = ()
+    #: curve name -> what it is (its temperature, pressure, parameter value), for the table
+    labels: dict = field(default_factory=dict)
+    #: name -> rows in the order of ``columns``, when ``data`` is not already in that form
+    table_data: dict | None = None
+
+    @property
+    def table(self) -> "FigureTable":
+        """The curves drawn, as one table (see :class:`FigureTable`)."""
+        return figure_table(self)
+
+    def to_csv(self, path) -> str:
+        """Write :attr:`table` as CSV to ``path`` atomically; returns the path."""
+        path = os.fspath(path)
+        with atomic_file(path, "w") as fh:
+            fh.write(self.table.csv())
+        return path
+
+    def to_frame(self):
+        """:attr:`table` as a :class:`pandas.DataFrame` (needs pandas: ``bhchem[notebook]``)."""
+        return self.table.to_frame()
 
 
-def save(result: PlotResult, path) -> str:
+#: units of every figure table
+UNITS = "G = c = hbar = k_B = 1"
+
+#: column name -> what it holds (the conventions of the README)
+COLUMN_MEANING = {
+    "v": "specific volume (4 r_+/(d-2) unless the family states otherwise)",
+    "P": "pressure P = -Lambda/(8 pi)",
+    "T": "Hawking temperature",
+    "G": "Gibbs free energy G = M - T S (M the enthalpy)",
+    "C_P": "heat capacity at constant pressure T (dS/dT)_P",
+    "V": "thermodynamic volume (dM/dP) at fixed S and charges",
+    "r_plus": "horizon radius r_+",
+    "R_N": "normalised Ruppeiner curvature",
+    "tau": "tau = 1/T (inverse temperature of the off-shell free energy)",
+    "G_L": "landscape free energy G_L = M - T_E S",
+    "t": "time in units of the friction zeta",
+    "F": "first-passage-time distribution F(t)",
+    "T/T_c": "temperature over the critical temperature",
+    "P/P_c": "pressure over the critical pressure",
+    "v/v_c": "specific volume over the critical one",
+    "jump_scaled": "jump (large minus small) divided by its largest magnitude",
+}
+
+#: coordinate columns of each figure kind (a state variable other than r_+ keeps its name)
+COLUMNS = {"pv": ("v", "P"), "gt": ("T", "G"), "pt": ("T", "P"), "tr": ("r_plus", "T"),
+           "cp": ("r_plus", "C_P"), "engine": ("V", "P"), "expansion": ("P", "T"),
+           "curvature": ("v", "T", "R_N"), "tau": ("r_plus", "tau"),
+           "landscape": ("r_plus", "G_L"), "first-passage": ("t", "F"),
+           "photon-jumps": ("T/T_c", "jump_scaled")}
+
+
+@dataclass(frozen=True, eq=False, repr=False)
+class FigureTable(Result):
+    """The data of one figure as a long table: one row per drawn point.
+
+    Attributes
+    ----------
+    columns : tuple of str
+        ``("curve", x, y, ...)``: the curve's name (a key of ``PlotResult.data``) and the
+        coordinates; a NaN row value is a gap in a drawn line.
+    rows : list of tuple
+    comments : list of str
+        Written as ``# `` lines before the header: the figure's title, the units, what each
+        column means, what each curve is, and what was drawn but is not a curve.
+    """
+
+    columns: tuple
+    rows: list
+    comments: list
+
+    def csv(self) -> str:
+        """The table as CSV text (``#`` comment lines, then the header, then the rows;
+        ``pandas.read_csv(path, comment="#")`` and ``numpy.genfromtxt`` read it)."""
+        buf = io.StringIO()
+        for c in self.comments:
+            buf.write(f"# {c}\n")
+        w = csv.writer(buf, lineterminator="\n")
+        w.writerow(self.columns)
+        for row in self.rows:
+            w.writerow([row[0]] + [repr(float(v)) for v in row[1:]])
+        return buf.getvalue()
+
+    def to_frame(self):
+        """The table as a :class:`pandas.DataFrame` (needs pandas)."""
+        try:
+            import pandas as pd  # lazy: pandas is optional (bhchem[notebook]), only when asked
+        except ImportError:
+            raise BhchemError("to_frame() needs pandas: pip install 'bhchem[notebook]' "
+                              "(or pip install pandas)") from None
+        return pd.DataFrame(self.rows, columns=list(self.columns))
+
+    def summary(self) -> str:
+        curves = len({r[0] for r in self.rows})
+        return f"{len(self.rows)} rows, {curves} curves, columns {', '.join(self.columns)}"
+
+
+def figure_table(result: PlotResult) -> FigureTable:
+    """The table of a :class:`PlotResult`: every array of ``table_data`` (else ``data``)
+    whose rows have as many values as there are coordinate columns (a single point: one
+    row); other arrays (a zoom box, a grid) are named in the comments, not tabulated."""
+    cols = tuple(result.columns) or COLUMNS.get(result.kind, ("x", "y"))
+    source = result.data if result.table_data is None else result.table_data
+    rows, skipped = [], []
+    for name, value in source.items():
+        a = np.asarray(value, dtype=float)
+        if a.size == 0:
+            continue
+        if a.ndim == 1 and a.size == len(cols):
+            a = a[None, :]
+        if a.ndim != 2 or a.shape[1] != len(cols):
+            skipped.append(name)
+            continue
+        rows.extend((name, *map(float, r)) for r in a)
+    comments = [f"bhchem figure {result.kind}: {t}" for t in _titles(result.figure)]
+    comments.append(f"units: {UNITS}")
+    comments += [f"column {c}: {COLUMN_MEANING.get(c, c)}" for c in cols]
+    comments += [f"curve {k}: {v}" for k, v in result.labels.items()]
+    if skipped:
+        comments.append(f"drawn but not tabulated here: {', '.join(skipped)}")
+    return FigureTable(("curve",) + cols, rows, comments)
+
+
+def _titles(figure) -> list:
+    if figure is None:
+        return []
+    titles = []
+    sup = getattr(figure, "get_suptitle", None)
+    if sup is not None and sup():
+        titles.append(sup())
+    titles += [ax.get_title() for ax in figure.axes if ax.get_title()]
+    return [" ".join(t.split()) for t in titles[:1]] or [""]
+
+
+def table_path(path) -> str:
+    """The CSV written beside the figure ``path``: same stem, ``.csv``."""
+    return os.path.splitext(os.fspath(path))[0] + ".csv"
+
+
+def save(result: PlotResult, path, table: bool = False) -> str:
     """Write the figure atomically (format from the extension: png, pdf, svg).
 
     Written through :func:`bhchem.fileio.atomic_file`, so the file ends with
@@ -81,6 +224,10 @@ def save(result: PlotResult, path) -> str:
     ----------
     result : PlotResult
     path : str or os.PathLike
+    table : bool
+        Also write the curves drawn (:attr:`PlotResult.table`) beside the figure, same
+        stem, ``.csv`` (:func:`table_path`).  Both files are renamed into place only
+        after both were written; a failure leaves neither.
 
     Returns
     -------
@@ -95,6 +242,13 @@ def save(result: PlotResult, path) -> str:
     directory = os.path.dirname(os.path.abspath(path))
     if not os.path.isdir(directory):
         raise BhchemError(f"output {path}: directory {directory} does not exist")
+    if table:
+        text = result.table.csv()
+        with atomic_file(table_path(path), "w") as tf, atomic_file(path, "wb") as fh, \
+                matplotlib.rc_context(rc_style()):
+            result.figure.savefig(fh, format=ext, metadata=_metadata(ext))
+            tf.write(text)
+        return path
     with atomic_file(path, "wb") as fh, matplotlib.rc_context(rc_style()):
         result.figure.savefig(fh, format=ext, metadata=_metadata(ext))
     return path
@@ -144,6 +298,19 @@ def canvas(ax=None, figsize=(5.2, 3.8)):
             yield mk.subplots(figsize=figsize)
         else:
             yield figure_of(ax), ax
+
+
+def _column(state: str) -> str:
+    """The table column of a state variable (``r`` is the horizon radius ``r_plus``)."""
+    return "r_plus" if state == "r" else state
+
+
+def _value_label(name: str, value, critical) -> str:
+    """'T = 0.0425 (T/T_c = 0.9)' for a table's curve."""
+    text = f"{name} = {value:.10g}"
+    if critical is not None:
+        text += f" ({name}/{name}_c = {value / critical:.6g})"
+    return text
 
 
 def _state_label(state: str) -> str:
@@ -200,7 +367,9 @@ def plot_pv(data: PvCurves, ax=None) -> PlotResult:
         ax.set_ylabel(r"pressure $P$")
         ax.set_title(figure_title(data))
         ax.legend(loc="upper right", ncol=1)
-    return PlotResult(fig, "pv", drawn, list(data.notes))
+    labels = {f"isotherm_{i}": _value_label("T", T, data.T_c)
+              for i, T in enumerate(data.temperatures)}
+    return PlotResult(fig, "pv", drawn, list(data.notes), labels=labels)
 
 
 # -- G-T isobars -----------------------------------------------------------------------------
@@ -281,7 +450,9 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
             fig.tight_layout(rect=(0, 0.05, 1, 1))
         else:
             grid[n - 1].legend(handles=handles, loc="best")
-    return PlotResult(fig, "gt", drawn, list(data.notes))
+    labels = {f"P{i}_preferred": _value_label("P", p.pressure, data.P_c)
+              for i, p in enumerate(panels)}
+    return PlotResult(fig, "gt", drawn, list(data.notes), labels=labels)
 
 
 # -- P-T phase diagram -----------------------------------------------------------------------
@@ -435,7 +606,10 @@ def plot_tr(data: TrCurves, ax=None) -> PlotResult:
                                   + ("; x: super-entropic" if len(low) else "")
                                   + _selection(data)))
         ax.legend(loc="lower right")
-    return PlotResult(fig, "tr", drawn, list(data.notes))
+    labels = {f"P{i}_branch{b.index}": _value_label("P", P, data.P_c)
+              for i, (P, iso) in enumerate(zip(data.pressures, data.isobars)) for b in iso}
+    return PlotResult(fig, "tr", drawn, list(data.notes), columns=(_column(data.state), "T"),
+                      labels=labels)
 
 
 def plot_cp(data: CpCurves, ax=None) -> PlotResult:
@@ -469,7 +643,8 @@ def plot_cp(data: CpCurves, ax=None) -> PlotResult:
         P = data.pressure
         lbl = f"$P/P_c={P / data.P_c:.3g}$" if data.P_c is not None else f"$P={P:.3g}$"
         ax.set_title(figure_title(data, f", {lbl}; dashed: spinodals"))
-    return PlotResult(fig, "cp", drawn, list(data.notes))
+    return PlotResult(fig, "cp", drawn, list(data.notes), columns=(_column(data.state), "C_P"),
+                      labels={k: _value_label("P", data.pressure, data.P_c) for k in drawn})
 
 
 PLOTTERS = {"pv": plot_pv, "gt": plot_gt, "pt": plot_pt, "tr": plot_tr, "cp": plot_cp}
