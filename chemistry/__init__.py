@@ -43,7 +43,7 @@ from bhchem.core.derive import Derivation, derive
 from bhchem.core.compiled import State, Thermodynamics, bind
 from bhchem.core.checks import FirstLawResult, SmarrResult, check_first_law, check_smarr
 from bhchem.analysis.critical import (CriticalPoint, CriticalSearch, find_critical_points,
-                                      resolve_pressure)
+                                      resolve_pressure, resolve_temperature)
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.critical_scan import CriticalScan, critical_scan
 from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_exponents
@@ -85,7 +85,7 @@ __all__ = [
     "FirstLawResult", "SmarrResult", "check_first_law", "check_smarr",
     # analyses and their results
     "CriticalPoint", "CriticalSearch", "find_critical_points", "find_critical_points_on_branches",
-    "resolve_pressure",
+    "resolve_pressure", "resolve_temperature",
     "CriticalScan", "critical_scan",
     "ExponentResult", "critical_exponents", "exact_exponents",
     "IsobarResult", "Transition", "analyze_isobar",

@@ -405,3 +405,62 @@ def test_bundle_and_cli_figures_come_with_their_data(bundle, tmp_path, capsys):
     assert main(["plot", "cp", "rn-ads", "-o", str(tmp_path / "x.png")]) == 2
     assert "would replace a folder" in capsys.readouterr().err
     assert not (tmp_path / "x.png").exists()
+
+
+# -- control over what is drawn ------------------------------------------------------------------
+def test_pv_temperatures_absolute_or_relative_to_tc(rn):
+    import bhchem
+    from bhchem.errors import BhchemError
+    assert bhchem.resolve_temperature(rn, "0.9Tc") == pytest.approx(0.9 * TC, rel=1e-12)
+    assert bhchem.resolve_temperature(rn, 0.045) == 0.045
+    for bad in ("0.9Tq", "Tc2", "-1", None):
+        with pytest.raises(BhchemError):
+            bhchem.resolve_temperature(rn, bad)
+    res = make_figure(rn, "pv", temperatures=["1.02Tc", 0.045])  # above T_c: no equal area
+    lines = [ln for ln in res.table.comments if ln.startswith("curve isotherm")]
+    assert len(lines) == 2 and "T/T_c = 1.02)" in lines[0] and "T = 0.045 " in lines[1]
+    v, P = res.data["isotherm_1"].T  # the drawn isotherm is the equation of state at T
+    ok = np.isfinite(P)
+    T = rn.T(v[ok] / 2, P[ok])  # v = 2 r+ in 4D
+    np.testing.assert_allclose(T, 0.045, rtol=1e-10)
+
+
+def test_axis_ranges_and_journal_width(figure_inputs, tmp_path):
+    import matplotlib.image as mpimg
+    from bhchem.present.plots import PLOTTERS, adjust
+    res = adjust(PLOTTERS["pt"](figure_inputs["pt"]), xlim="0:0.05", ylim=(0, 0.004),
+                 width="column")
+    ax = res.figure.axes[0]
+    assert ax.get_xlim() == (0.0, 0.05) and ax.get_ylim() == (0.0, 0.004)
+    save(res, tmp_path / "pt.png")
+    assert mpimg.imread(tmp_path / "pt.png").shape[1] == round(3.4 * 200)  # savefig.dpi 200
+    res = adjust(PLOTTERS["gt"](figure_inputs["gt"]), width=7.0)
+    save(res, tmp_path / "gt.png")
+    assert mpimg.imread(tmp_path / "gt.png").shape[1] == 1400
+    _nonblank(tmp_path / "gt.png")
+
+
+def test_one_gt_pressure_gets_one_full_panel(rn):
+    res = make_figure(rn, "gt", pressures=[0.5 * PC])
+    visible = [a for a in res.figure.axes if a.get_visible()]
+    assert len(visible) == 1 and not res.figure.legends
+    assert visible[0].get_legend() is not None and "P/P_c=0.5" in visible[0].get_title()
+    assert tuple(res.figure.get_size_inches()) == (5.2, 3.8)
+
+
+@pytest.mark.parametrize("extra, message", [
+    (["--width", "wide"], "use column, page or a number of inches"),
+    (["--xlim", "1:0"], "needs finite A < B"),
+    (["--ylim", "a:b"], "give two numbers"),
+    (["--temperature", "0.9Tc", "--kind-check"], None),
+])
+def test_cli_plot_view_options_refused_in_one_line(extra, message, capsys, tmp_path):
+    if message is None:  # --temperature on a figure without isotherms
+        args = ["plot", "gt", "rn-ads", "--temperature", "0.9Tc", "-o", str(tmp_path / "f.png")]
+        message = "--temperature applies to pv plots"
+    else:
+        args = ["plot", "pv", "rn-ads", *extra, "-o", str(tmp_path / "f.png")]
+    assert main(args) == 2
+    err = capsys.readouterr().err
+    assert message in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
+    assert not list(tmp_path.iterdir())

@@ -33,7 +33,7 @@ import numpy as np
 
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError
-from bhchem.analysis.critical import loop_side
+from bhchem.analysis.critical import loop_side, resolve_temperature
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.numerics import brentq, isotherm_pressure
@@ -388,14 +388,18 @@ def pv_curves(th, temperatures=None) -> PvCurves:
     Parameters
     ----------
     th : Thermodynamics
-    temperatures : sequence of float, optional
-        Default 0.85, 0.92, 0.97, 1, 1.05, 1.12 T_c (without a critical point: 0.7, 1,
-        1.5, 2.2 times the family's typical temperature).
+    temperatures : sequence of float or str, optional
+        Absolute, or relative to a critical point like pressures (``'0.9Tc'``, see
+        :func:`bhchem.analysis.critical.resolve_temperature`).  Default 0.85, 0.92, 0.97, 1,
+        1.05, 1.12 T_c (without a critical point: 0.7, 1, 1.5, 2.2 times the family's
+        typical temperature).
 
     Returns
     -------
     PvCurves
     """
+    if temperatures is not None:
+        temperatures = [resolve_temperature(th, T) for T in temperatures]
     cp = scale_point(th)
     if cp is not None:
         Ts = temperatures or [f * cp.T for f in (0.85, 0.92, 0.97, 1.0, 1.05, 1.12)]

@@ -22,12 +22,12 @@ from bhchem.declare.registry import available_families
 from bhchem.conventions import convention_record
 from bhchem.present.summary import show_json, show_text
 from bhchem.present.critical_report import critical_json, critical_text
-from bhchem.analysis.critical import find_critical_points, resolve_pressure
+from bhchem.analysis.critical import find_critical_points, resolve_pressure, resolve_temperature
 from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
 from bhchem.present.plots import save, table_path
-from bhchem.workflows.figures import make_figure
+from bhchem.workflows.figures import adjust_check, make_figure
 from bhchem.workflows.report import write_report
 from bhchem.demo import FAMILY_FILE
 from bhchem.workflows.atlas import parse_grid, scan
@@ -216,6 +216,7 @@ def _check_plot_output(path: str) -> str:
 
 def cmd_plot(args) -> int:
     _check_plot_output(args.output)
+    adjust_check(args.xlim, args.ylim, args.width)
     th = _bound(args)
     kw = {}
     if args.pressure:
@@ -226,11 +227,15 @@ def cmd_plot(args) -> int:
             kw["pressures"] = P
         else:
             raise BhchemError(f"--pressure does not apply to a '{args.kind}' plot")
+    if args.temperature:
+        if args.kind != "pv":
+            raise BhchemError(f"--temperature applies to pv plots, not '{args.kind}'")
+        kw["temperatures"] = [resolve_temperature(th, T) for T in args.temperature]
     if args.show_excluded:
         if args.kind not in ("gt", "tr"):
             raise BhchemError(f"--show-excluded applies to gt and tr plots, not '{args.kind}'")
         kw["show_excluded"] = True
-    res = make_figure(th, args.kind, **kw)
+    res = make_figure(th, args.kind, xlim=args.xlim, ylim=args.ylim, width=args.width, **kw)
     with output_lock(args.output):
         for note in clean_stale(args.output):
             _note(f"{note} (left by an interrupted run)")
@@ -385,9 +390,15 @@ def build_parser() -> argparse.ArgumentParser:
                    help="output file (.png, .pdf or .svg)")
     p.add_argument("--pressure", action="append", metavar="P",
                    help="pressure(s) for gt/tr/cp (absolute or like 0.5Pc; repeatable)")
+    p.add_argument("--temperature", action="append", metavar="T",
+                   help="isotherm temperature(s) for pv (absolute or like 0.9Tc; repeatable)")
     p.add_argument("--show-excluded", action="store_true",
                    help="gt, tr: draw the states the conditions exclude, faintly, labelled by "
                         "the condition")
+    p.add_argument("--xlim", metavar="A:B", help="x-axis range of every panel")
+    p.add_argument("--ylim", metavar="A:B", help="y-axis range of every panel")
+    p.add_argument("--width", metavar="column|page|INCHES",
+                   help="figure width: a journal column (3.4 in), a page (7.0 in) or inches")
     p.set_defaults(func=cmd_plot)
 
     p = sub.add_parser("report", parents=[common],

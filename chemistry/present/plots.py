@@ -37,7 +37,7 @@ from bhchem.present.style import (LINE_COLOR, LINE_STYLE, PALETTE, STABLE_GREY, 
 KINDS = FIGURE_KINDS
 
 __all__ = ["KINDS", "PLOTTERS", "EmptyFigureError", "PlotResult", "FigureTable", "COLUMNS",
-           "figure_table", "table_path", "save", "canvas", "figure_of",
+           "figure_table", "table_path", "save", "adjust", "parse_width", "parse_range", "WIDTHS", "canvas", "figure_of",
            "plot_pv", "plot_gt", "plot_pt", "plot_tr", "plot_cp",
            # the style, re-exported for the callers of this module
            "figure_title", "styled", "FigureFactory", "PALETTE", "STYLE", "STABLE_GREY",
@@ -78,6 +78,8 @@ class PlotResult(Result):
     labels: dict = field(default_factory=dict)
     #: name -> rows in the order of ``columns``, when ``data`` is not already in that form
     table_data: dict | None = None
+    #: the width asked for (inches); the file is then exactly this wide (see :func:`adjust`)
+    width: float | None = None
 
     @property
     def table(self) -> "FigureTable":
@@ -242,16 +244,98 @@ def save(result: PlotResult, path, table: bool = False) -> str:
     directory = os.path.dirname(os.path.abspath(path))
     if not os.path.isdir(directory):
         raise BhchemError(f"output {path}: directory {directory} does not exist")
+    # a width asked for is the width of the file: no tight bounding box (the layout fits)
+    rc = rc_style()
+    if result.width is not None:
+        rc["savefig.bbox"] = "standard"
     if table:
         text = result.table.csv()
         with atomic_file(table_path(path), "w") as tf, atomic_file(path, "wb") as fh, \
-                matplotlib.rc_context(rc_style()):
+                matplotlib.rc_context(rc):
             result.figure.savefig(fh, format=ext, metadata=_metadata(ext))
             tf.write(text)
         return path
-    with atomic_file(path, "wb") as fh, matplotlib.rc_context(rc_style()):
+    with atomic_file(path, "wb") as fh, matplotlib.rc_context(rc):
         result.figure.savefig(fh, format=ext, metadata=_metadata(ext))
     return path
+
+
+#: figure widths of a journal page, inches (one column, the full two-column page)
+WIDTHS = {"column": 3.4, "page": 7.0}
+
+
+def parse_width(value) -> float:
+    """``'column'`` (3.4 in), ``'page'`` (7.0 in) or a number of inches (1 to 20)."""
+    if isinstance(value, str) and value.strip().lower() in WIDTHS:
+        return WIDTHS[value.strip().lower()]
+    try:
+        w = float(value)
+    except (TypeError, ValueError):
+        raise BhchemError(f"width {value!r}: use column, page or a number of inches") from None
+    if not 1.0 <= w <= 20.0:
+        raise BhchemError(f"width {value!r}: give between 1 and 20 inches (or column, page)")
+    return w
+
+
+def parse_range(value, what: str = "range") -> tuple:
+    """``'A:B'`` or ``(A, B)`` with finite A < B, as a pair of floats."""
+    parts = value.split(":") if isinstance(value, str) else list(value)
+    try:
+        lo, hi = (float(v) for v in parts)
+    except (TypeError, ValueError):
+        raise BhchemError(f"{what} {value!r}: give two numbers, like 0.01:0.05") from None
+    if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
+        raise BhchemError(f"{what} {value!r}: needs finite A < B")
+    return lo, hi
+
+
+def adjust(result: PlotResult, xlim=None, ylim=None, width=None) -> PlotResult:
+    """Axis ranges and the figure width of a drawn figure.
+
+    Parameters
+    ----------
+    result : PlotResult
+    xlim, ylim : (float, float) or 'A:B', optional
+        Applied to every panel (not to a zoom inset).
+    width : 'column', 'page' or float, optional
+        Inches (:data:`WIDTHS`); the height keeps the figure's proportions (at least 0.62
+        of the width for one panel), and the saved file is exactly this wide.
+
+    Returns
+    -------
+    PlotResult
+        A new result over the same (adjusted) figure.
+    """
+    import dataclasses
+    fig = result.figure
+    panels = [a for a in fig.axes if a.get_visible()]
+    if xlim is not None:
+        lo, hi = parse_range(xlim, "x range")
+        for a in panels:
+            a.set_xlim(lo, hi)
+    if ylim is not None:
+        lo, hi = parse_range(ylim, "y range")
+        for a in panels:
+            a.set_ylim(lo, hi)
+    if width is None:
+        return result
+    w = parse_width(width)
+    W0, H0 = fig.get_size_inches()
+    h = H0 * w / W0
+    if len(panels) == 1:
+        h = max(h, 0.62 * w)
+    fig.set_size_inches(w, h)
+    with styled():
+        fig.set_layout_engine("constrained")
+        for leg in list(fig.legends):  # a figure legend goes below the panels, in the layout
+            handles, labels = leg.legend_handles, [t.get_text() for t in leg.get_texts()]
+            leg.remove()
+            fig.legend(handles, labels, loc="outside lower center", ncol=len(labels))
+        title = fig.get_suptitle() if hasattr(fig, "get_suptitle") else ""
+        if title:
+            fig.suptitle(title)  # at its automatic place, above the panels' titles
+    return dataclasses.replace(result, width=w)
+
 
 
 def _metadata(ext):
@@ -411,8 +495,8 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
     from matplotlib.ticker import MaxNLocator  # lazy: as above
     with styled() as mk:
         if ax is None:
-            fig, axes = mk.subplots(rows, cols, figsize=(3.3 * cols, 2.7 * rows),
-                                    squeeze=False)
+            size = (5.2, 3.8) if n == 1 else (3.3 * cols, 2.7 * rows)  # one: full-size panel
+            fig, axes = mk.subplots(rows, cols, figsize=size, squeeze=False)
             grid = [axes[j // cols][j % cols] for j in range(rows * cols)]
         else:
             grid = list(np.ravel(np.asarray(ax, dtype=object)))
@@ -442,7 +526,11 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
         handles = [Line2D([], [], color=PALETTE[0], lw=2.4, label="globally preferred"),
                    Line2D([], [], color=STABLE_GREY, ls="--", lw=0.9, label="metastable"),
                    Line2D([], [], color=UNSTABLE_GREY, ls=":", label="unstable ($C_P<0$)")]
-        if ax is None:
+        if ax is None and n == 1:
+            a = grid[0]
+            a.set_title(figure_title(data, _selection(data)) + ", " + a.get_title())
+            a.legend(handles=handles, loc="best")
+        elif ax is None:
             for j in range(n, rows * cols):
                 grid[j].set_visible(False)
             fig.legend(handles=handles, loc="lower center", ncol=3, bbox_to_anchor=(0.5, -0.02))

@@ -11,12 +11,23 @@ from __future__ import annotations
 
 from bhchem.errors import BhchemError
 from bhchem.analysis.figure_data import FIGURE_DATA, FIGURE_KINDS
-from bhchem.present.plots import PLOTTERS, PlotResult
+from bhchem.present.plots import PLOTTERS, PlotResult, adjust, parse_range, parse_width
 
 KINDS = FIGURE_KINDS
 
 
-def make_figure(th, kind: str, ax=None, **options) -> PlotResult:
+def adjust_check(xlim=None, ylim=None, width=None) -> None:
+    """Raise :class:`BhchemError` for a bad axis range or width (before any computing)."""
+    if xlim is not None:
+        parse_range(xlim, "x range")
+    if ylim is not None:
+        parse_range(ylim, "y range")
+    if width is not None:
+        parse_width(width)
+
+
+def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None,
+                **options) -> PlotResult:
     """Compute and draw the figure ``kind`` for the bound family ``th``.
 
     Parameters
@@ -27,9 +38,14 @@ def make_figure(th, kind: str, ax=None, **options) -> PlotResult:
     ax : matplotlib.axes.Axes, optional
         Draw into these axes (for ``gt``: a sequence of axes, one per pressure); default
         a new figure.
+    xlim, ylim : (float, float) or 'A:B', optional
+        Axis ranges of every panel.
+    width : 'column', 'page' or float, optional
+        Figure width in inches (a journal column 3.4, a page 7.0); see
+        :func:`bhchem.present.plots.adjust`.
     **options
-        For the data: ``temperatures`` (pv), ``pressures`` (gt, tr), ``pressure`` (cp),
-        ``diagram`` (pt: a phase diagram already computed).
+        For the data: ``temperatures`` (pv; absolute or like ``'0.9Tc'``), ``pressures``
+        (gt, tr), ``pressure`` (cp), ``diagram`` (pt: a phase diagram already computed).
 
     Returns
     -------
@@ -43,4 +59,6 @@ def make_figure(th, kind: str, ax=None, **options) -> PlotResult:
     """
     if kind not in FIGURE_DATA:
         raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(KINDS)}")
-    return PLOTTERS[kind](FIGURE_DATA[kind](th, **options), ax=ax)
+    adjust_check(xlim, ylim, width)  # a bad range or width is refused before computing
+    res = PLOTTERS[kind](FIGURE_DATA[kind](th, **options), ax=ax)
+    return adjust(res, xlim=xlim, ylim=ylim, width=width)
