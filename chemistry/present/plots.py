@@ -21,7 +21,7 @@ import io
 import math
 import os
 from contextlib import contextmanager
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -306,7 +306,6 @@ def adjust(result: PlotResult, xlim=None, ylim=None, width=None) -> PlotResult:
     PlotResult
         A new result over the same (adjusted) figure.
     """
-    import dataclasses
     fig = result.figure
     panels = [a for a in fig.axes if a.get_visible()]
     if xlim is not None:
@@ -334,7 +333,7 @@ def adjust(result: PlotResult, xlim=None, ylim=None, width=None) -> PlotResult:
         title = fig.get_suptitle() if hasattr(fig, "get_suptitle") else ""
         if title:
             fig.suptitle(title)  # at its automatic place, above the panels' titles
-    return dataclasses.replace(result, width=w)
+    return replace(result, width=w)
 
 
 
