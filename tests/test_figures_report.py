@@ -464,3 +464,94 @@ def test_cli_plot_view_options_refused_in_one_line(extra, message, capsys, tmp_p
     err = capsys.readouterr().err
     assert message in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
     assert not list(tmp_path.iterdir())
+
+
+# -- overlays over a parameter ---------------------------------------------------------------------
+@pytest.fixture(scope="module")
+def overlays(rn):
+    """tr and pv overlays of rn-ads over Q, computed once."""
+    return {kind: make_figure(rn, kind, vary="Q=0.5,1", **opts) for kind, opts in
+            (("tr", {"pressures": ["0.8Pc"]}), ("pv", {"temperatures": ["0.9Tc"]}))}
+
+
+def _line_data(fig):
+    return [np.column_stack(l.get_data()).astype(float) for a in fig.axes for l in a.get_lines()]
+
+
+def test_overlay_draws_each_values_own_curves(overlays):
+    """Each drawn curve equals the one computed for its value alone, at that value's own
+    P_c = 1/(96 pi Q^2) and T_c = sqrt(6)/(18 pi Q) (Kubiznak & Mann 2012)."""
+    from bhchem.analysis.figure_data import tr_curves
+    tr, pv = overlays["tr"], overlays["pv"]
+    lines = _line_data(tr.figure)
+    for Q in (0.5, 1.0):
+        th = bind("rn-ads", Q=Q)
+        alone = tr_curves(th, pressures=[0.8 * PC / Q**2])
+        branches = alone.isobars[0]
+        assert alone.pressures[0] == pytest.approx(0.8 / (96 * math.pi * Q**2), rel=1e-12)
+        for b in branches:
+            key = f"Q={Q:g}/branch{b.index}"
+            np.testing.assert_allclose(tr.data[key], b.curve, rtol=1e-12)
+            assert any(l.shape == b.curve.shape and np.allclose(l, b.curve, equal_nan=True)
+                       for l in lines), key
+        iso = pv.data[f"Q={Q:g}/isotherm_0"]
+        ok = np.isfinite(iso[:, 1])
+        np.testing.assert_allclose(th.T(iso[ok, 0] / 2, iso[ok, 1]), 0.9 * TC / Q, rtol=1e-10)
+        np.testing.assert_allclose(pv.data[f"Q={Q:g}/critical_point"],
+                                   [2 * math.sqrt(6) * Q, PC / Q**2], rtol=1e-9)
+    legend = [t.get_text() for t in tr.figure.axes[0].get_legend().get_texts()]
+    assert legend[:2] == ["$Q = 0.5$, $P/P_c=0.8$", "$Q = 1$, $P/P_c=0.8$"]
+    assert "rn-ads (d=4, Q varied)" == tr.figure.axes[0].get_title()
+
+
+@pytest.mark.parametrize("kind", ["gt", "pt", "cp"])
+def test_overlay_of_every_kind_draws_its_members(figure_inputs, kind):
+    """Drawing only (the data per value is tested above): every member curve is drawn."""
+    from bhchem.analysis.figure_data import OverlayData
+    from bhchem.present.plots import plot_overlay
+    m = figure_inputs[kind]
+    res = plot_overlay(OverlayData("rn-ads", {"d": 4}, kind, "Q", (1.0, 1.5), (m, m)))
+    lines = _line_data(res.figure)
+    for key, arr in res.data.items():
+        a = np.asarray(arr, float)
+        if key.endswith(("critical_points", "triple_points")) or a.ndim != 2 or len(a) < 2:
+            continue
+        assert any(l.shape == a.shape and np.allclose(l, a, equal_nan=True) for l in lines), key
+    assert {k.split("/")[0] for k in res.data} == {"Q=1", "Q=1.5"}
+    assert len(res.table.rows) == sum(len(np.atleast_2d(v)) for v in res.data.values()
+                                      if np.size(v))
+
+
+def test_overlay_styles_are_per_value_and_the_same_in_every_kind(overlays):
+    from matplotlib.colors import to_hex
+    from bhchem.present.plots import value_style
+    for res in overlays.values():
+        handles = res.figure.axes[0].get_legend().legend_handles
+        for j in range(2):
+            assert to_hex(handles[j].get_color()) == to_hex(value_style(j)["color"])
+    assert value_style(0) != value_style(1)
+
+
+def test_overlay_table_names_each_curve_by_its_value(overlays):
+    _, header, curves = _read_table(overlays["tr"].table.csv())
+    assert header == ["curve", "r_plus", "T"]
+    assert {k.split("/")[0] for k in curves} == {"Q=0.5", "Q=1"}
+    assert "curve Q=1/branch0: Q = 1.0" in overlays["tr"].table.comments
+
+
+@pytest.mark.parametrize("spec, message", [
+    ("Q", "must look like NAME=V1,V2"), ("Q=a,b", "must look like NAME=V1,V2"),
+    ("Q=0:1:20", "N from 1 to 8"), ("nope=1,2", "has no parameter 'nope'"),
+])
+def test_cli_vary_refused_in_one_line(spec, message, capsys, tmp_path):
+    assert main(["plot", "tr", "rn-ads", "--vary", spec, "-o", str(tmp_path / "f.png")]) == 2
+    err = capsys.readouterr().err
+    assert message in err and len(err.strip().splitlines()) == 1
+    assert not list(tmp_path.iterdir())
+
+
+def test_vary_grid_spec():
+    from bhchem.workflows.figures import parse_vary
+    assert parse_vary("a=0:1:3") == ("a", (0.0, 0.5, 1.0))
+    assert parse_vary("b=log:0.1:10:3") == ("b", pytest.approx((0.1, 1.0, 10.0)))
+    assert parse_vary(("Q", [1, 2])) == ("Q", (1.0, 2.0))

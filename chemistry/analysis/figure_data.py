@@ -31,9 +31,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from bhchem.core.compiled import bind
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError
-from bhchem.analysis.critical import loop_side, resolve_temperature
+from bhchem.analysis.critical import loop_side, resolve_pressure, resolve_temperature
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.numerics import brentq, isotherm_pressure
@@ -815,3 +816,99 @@ def figure_data(th, kind: str, **options):
     if kind not in FIGURE_DATA:
         raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(FIGURE_KINDS)}")
     return FIGURE_DATA[kind](th, **options)
+
+
+# -- overlays over a parameter -------------------------------------------------------------------
+@dataclass(frozen=True, eq=False, repr=False)
+class OverlayData(Result):
+    """The data of one figure kind at several values of one parameter (one curve family
+    per value, drawn on the same axes by :func:`bhchem.present.plots.plot_overlay`).
+
+    Attributes
+    ----------
+    family : str
+    parameters : dict
+        The parameters held fixed (the varied one is left out).
+    kind : str
+    name : str
+        The varied parameter.
+    values : tuple of float
+    members : tuple
+        The figure data (:class:`PvCurves`, ...) at each value, in the order of ``values``.
+    notes : tuple of str
+    """
+
+    family: str
+    parameters: dict
+    kind: str
+    name: str
+    values: tuple
+    members: tuple
+    notes: tuple = ()
+
+
+def overlay_data(th, kind: str, name: str, values, **options) -> OverlayData:
+    """The data of the figure ``kind`` at each value of the parameter ``name``.
+
+    Relative temperatures and pressures (``'0.9Tc'``, ``'0.5Pc'``) are resolved at each
+    value against that value's own critical point, so the curves compare corresponding
+    states.  Defaults: ``pv`` one isotherm at 0.9 T_c; ``gt``, ``tr``, ``cp`` one pressure,
+    0.5 P_c (without a critical point: the family's first default pressure).
+
+    Parameters
+    ----------
+    th : Thermodynamics
+        The binding whose other parameters and condition selection are kept.
+    kind : str
+    name : str
+    values : sequence of float
+    **options
+        ``temperatures`` (pv), ``pressures`` (gt, tr; one each), ``pressure`` (cp).
+
+    Returns
+    -------
+    OverlayData
+
+    Raises
+    ------
+    BhchemError
+        An unknown kind or parameter, fewer than one or more than 8 values, or more than
+        one pressure for gt, tr.
+    """
+    if kind not in FIGURE_DATA:
+        raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(FIGURE_KINDS)}")
+    if name not in th.values:
+        raise BhchemError(f"--vary {name}: {th.family.name} has no parameter {name!r} "
+                          f"(it has {', '.join(th.values) or 'none'})")
+    values = tuple(float(v) for v in values)
+    if not 1 <= len(values) <= 8:
+        raise BhchemError(f"--vary {name}: give 1 to 8 values, not {len(values)}")
+    adm = th.admissibility
+    members = []
+    for value in values:
+        member = bind(th.family, conditions=adm.set_name, without=adm.removed,
+                      **{**th.values, name: value})
+        members.append(FIGURE_DATA[kind](member, **_member_options(member, kind, options)))
+    fixed = {k: v for k, v in th.values.items() if k != name}
+    return OverlayData(th.family.name, fixed, kind, name, values, tuple(members),
+                       _selection_notes(th))
+
+
+def _member_options(th, kind: str, options: dict) -> dict:
+    """The options of one member of an overlay, relative values resolved for ``th``."""
+    opts = dict(options)
+    if kind == "pv":
+        opts["temperatures"] = list(opts.get("temperatures") or ["0.9Tc"]) \
+            if scale_point(th) is not None or opts.get("temperatures") else None
+    elif kind in ("gt", "tr"):
+        given = opts.get("pressures")
+        if given is not None and len(given) != 1:
+            raise BhchemError(f"an overlay of {kind} figures draws one pressure per value, "
+                              f"not {len(given)}")
+        opts["pressures"] = [resolve_pressure(th, given[0]) if given else
+                             default_pressures(th, scale_point(th))[0]]
+    elif kind == "cp":
+        given = opts.get("pressure")
+        opts["pressure"] = resolve_pressure(th, given) if given is not None else \
+            default_pressures(th, scale_point(th))[0]
+    return opts

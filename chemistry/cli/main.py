@@ -27,7 +27,7 @@ from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
 from bhchem.present.plots import save, table_path
-from bhchem.workflows.figures import adjust_check, make_figure
+from bhchem.workflows.figures import adjust_check, make_figure, parse_vary
 from bhchem.workflows.report import write_report
 from bhchem.demo import FAMILY_FILE
 from bhchem.workflows.atlas import parse_grid, scan
@@ -220,7 +220,8 @@ def cmd_plot(args) -> int:
     th = _bound(args)
     kw = {}
     if args.pressure:
-        P = [parse_pressure(v, th) for v in args.pressure]
+        # with --vary, relative pressures are resolved at each value's own critical point
+        P = list(args.pressure) if args.vary else [parse_pressure(v, th) for v in args.pressure]
         if args.kind == "cp":
             kw["pressure"] = P[0]
         elif args.kind in ("gt", "tr"):
@@ -230,12 +231,17 @@ def cmd_plot(args) -> int:
     if args.temperature:
         if args.kind != "pv":
             raise BhchemError(f"--temperature applies to pv plots, not '{args.kind}'")
-        kw["temperatures"] = [resolve_temperature(th, T) for T in args.temperature]
+        kw["temperatures"] = list(args.temperature) if args.vary else \
+            [resolve_temperature(th, T) for T in args.temperature]
     if args.show_excluded:
         if args.kind not in ("gt", "tr"):
             raise BhchemError(f"--show-excluded applies to gt and tr plots, not '{args.kind}'")
         kw["show_excluded"] = True
-    res = make_figure(th, args.kind, xlim=args.xlim, ylim=args.ylim, width=args.width, **kw)
+    vary = parse_vary(args.vary) if args.vary else None
+    if vary and args.show_excluded:
+        raise BhchemError("--show-excluded draws one family's excluded states; not with --vary")
+    res = make_figure(th, args.kind, xlim=args.xlim, ylim=args.ylim, width=args.width,
+                      vary=vary, **kw)
     with output_lock(args.output):
         for note in clean_stale(args.output):
             _note(f"{note} (left by an interrupted run)")
@@ -395,6 +401,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--show-excluded", action="store_true",
                    help="gt, tr: draw the states the conditions exclude, faintly, labelled by "
                         "the condition")
+    p.add_argument("--vary", metavar="NAME=V1,V2,...",
+                   help="one curve family per value of a parameter, on one axes (or a grid "
+                        "NAME=START:STOP:N); relative T and P (0.9Tc, 0.5Pc) at each value's "
+                        "own critical point")
     p.add_argument("--xlim", metavar="A:B", help="x-axis range of every panel")
     p.add_argument("--ylim", metavar="A:B", help="y-axis range of every panel")
     p.add_argument("--width", metavar="column|page|INCHES",

@@ -28,8 +28,8 @@ import numpy as np
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError
 from bhchem.fileio import atomic_file
-from bhchem.analysis.figure_data import (FIGURE_KINDS, CpCurves, GtCurves, PtDiagram,
-                                         PvCurves, TrCurves)
+from bhchem.analysis.figure_data import (FIGURE_KINDS, CpCurves, GtCurves, OverlayData,
+                                         PtDiagram, PvCurves, TrCurves)
 from bhchem.present.style import (LINE_COLOR, LINE_STYLE, PALETTE, STABLE_GREY, STYLE,
                                   UNSTABLE_GREY, FigureFactory, figure_title, rc_style,
                                   styled)
@@ -38,7 +38,8 @@ KINDS = FIGURE_KINDS
 
 __all__ = ["KINDS", "PLOTTERS", "EmptyFigureError", "PlotResult", "FigureTable", "COLUMNS",
            "figure_table", "table_path", "save", "adjust", "parse_width", "parse_range", "WIDTHS", "canvas", "figure_of",
-           "plot_pv", "plot_gt", "plot_pt", "plot_tr", "plot_cp",
+           "plot_pv", "plot_gt", "plot_pt", "plot_tr", "plot_cp", "plot_overlay",
+           "value_style",
            # the style, re-exported for the callers of this module
            "figure_title", "styled", "FigureFactory", "PALETTE", "STYLE", "STABLE_GREY",
            "UNSTABLE_GREY", "LINE_STYLE", "LINE_COLOR"]
@@ -732,6 +733,169 @@ def plot_cp(data: CpCurves, ax=None) -> PlotResult:
         ax.set_title(figure_title(data, f", {lbl}; dashed: spinodals"))
     return PlotResult(fig, "cp", drawn, list(data.notes), columns=(_column(data.state), "C_P"),
                       labels={k: _value_label("P", data.pressure, data.P_c) for k in drawn})
+
+
+# -- overlays over a parameter -------------------------------------------------------------------
+#: dash patterns of the values of an overlay, with the colours of PALETTE (grey print stays legible)
+VALUE_DASHES = ["-", (0, (5, 2)), (0, (1, 1.5)), (0, (6, 2, 1, 2)), (0, (3, 1, 1, 1, 1, 1))]
+
+
+def value_style(j: int) -> dict:
+    """Colour and dash pattern of the j-th value of an overlay: the same value index has the
+    same style in every figure kind."""
+    return {"color": PALETTE[j % len(PALETTE)], "ls": VALUE_DASHES[j % len(VALUE_DASHES)]}
+
+
+def _reduced(value, critical, name):
+    return f"${name}/{name}_c={value / critical:.3g}$" if critical is not None else \
+        f"${name}={value:.3g}$"
+
+
+def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
+    """One curve family per value of a parameter, on one axes, with a legend of values.
+
+    Each value has one colour and dash pattern (:func:`value_style`); what the kind's own
+    figure tells by line style (stable or not, line kind) is told here by line width and
+    markers: the globally preferred or stable states thick, the others thin.
+
+    Parameters
+    ----------
+    data : OverlayData
+        From :func:`bhchem.analysis.figure_data.overlay_data`.
+    ax : matplotlib.axes.Axes, optional
+
+    Returns
+    -------
+    PlotResult
+        ``data`` holds ``NAME=VALUE/KEY`` for every curve ``KEY`` the kind's own plot would
+        draw at that value (rows as there).
+    """
+    if not isinstance(data, OverlayData):
+        raise TypeError(f"plot_overlay draws OverlayData (bhchem.analysis.figure_data."
+                        f"overlay_data), not {type(data).__name__}")
+    from matplotlib.lines import Line2D  # lazy: matplotlib only when a figure is drawn
+    kind, drawn, labels, handles = data.kind, {}, {}, []
+    fixed = ", ".join(f"{k}={v:g}" for k, v in data.parameters.items())
+    with canvas(ax, figsize=(5.2, 3.8)) as (fig, ax):
+        lims = []
+        for j, (value, m) in enumerate(zip(data.values, data.members)):
+            st = value_style(j)
+            tag = f"{data.name}={value:g}"
+            text = f"${data.name} = {value:g}$"
+
+            def put(key, arr, what=""):
+                drawn[f"{tag}/{key}"] = arr
+                labels[f"{tag}/{key}"] = f"{data.name} = {value!r}{what}"
+            if kind == "pv":
+                for i, (T, iso, seg) in enumerate(zip(m.temperatures, m.isotherms,
+                                                      m.equal_area)):
+                    put(f"isotherm_{i}", iso, f", {_value_label('T', T, m.T_c)}")
+                    vv, PP = iso[:, 0], iso[:, 1]
+                    if seg is not None:
+                        put(f"equal_area_{i}", seg)
+                        (v1, Pco), (v2, _) = seg
+                        inside = (vv > v1) & (vv < v2)
+                        ax.plot(np.where(inside, np.nan, vv), np.where(inside, np.nan, PP),
+                                lw=1.5, **st)
+                        ax.plot([v1, v2], [Pco, Pco], color=st["color"], lw=0.9)
+                    else:
+                        ax.plot(vv, PP, lw=1.5, **st)
+                if m.critical_point is not None:
+                    put("critical_point", m.critical_point)
+                    ax.plot(*m.critical_point, "o", color=st["color"], ms=4.5, zorder=5)
+                    lims.append(2.0 * m.critical_point[1])
+                if m.temperatures and m.T_c is not None:
+                    text += ", $T/T_c$ = " + ", ".join(f"{T / m.T_c:.3g}" for T in m.temperatures)
+                elif m.temperatures:
+                    text += ", $T$ = " + ", ".join(f"{T:.3g}" for T in m.temperatures)
+            elif kind == "gt":
+                p = m.panels[0]
+                for b in p.branches:
+                    curve = b.curve[np.isfinite(b.curve[:, 0])]
+                    put(f"branch{b.index}", curve)
+                    ax.plot(curve[:, 0], curve[:, 1], color=st["color"], lw=0.7,
+                            ls=st["ls"] if b.stable else ":")
+                for k, seg in enumerate(p.preferred):
+                    put(f"preferred_{k}", seg)
+                    ax.plot(seg[:, 0], seg[:, 1], lw=2.2, solid_capstyle="butt", **st)
+                for T, G in p.transitions:
+                    ax.plot([T], [G], "o", ms=3.5, color=st["color"], zorder=5)
+                text += ", " + _reduced(p.pressure, m.P_c, "P")
+                lims.append(p.G_window)
+            elif kind == "pt":
+                for i, line in enumerate(m.lines):
+                    if line.points.size:
+                        put(f"line{i}_{line.kind}", line.points)
+                        ax.plot(line.points[:, 0], line.points[:, 1], lw=1.6, **st)
+                if len(m.critical_points):
+                    put("critical_points", m.critical_points)
+                    ax.plot(m.critical_points[:, 0], m.critical_points[:, 1], "o", ms=5,
+                            color=st["color"], zorder=6)
+                if len(m.triple_points):
+                    put("triple_points", m.triple_points)
+                    ax.plot(m.triple_points[:, 0], m.triple_points[:, 1], "^", ms=6,
+                            color=st["color"], zorder=6)
+                lims.append(m.limits)
+            elif kind == "tr":
+                P = m.pressures[0]
+                for b in m.isobars[0]:
+                    put(f"branch{b.index}", b.curve)
+                    ax.plot(b.curve[:, 0], b.curve[:, 1], color=st["color"],
+                            lw=1.6 if b.stable else 0.8, ls=st["ls"] if b.stable else ":")
+                if m.critical_point is not None:
+                    lims.append(2.2 * m.critical_point[1])
+                text += ", " + _reduced(P, m.P_c, "P")
+            elif kind == "cp":
+                for b in m.branches:
+                    put(f"branch{b.index}", b.curve)
+                    ax.plot(b.curve[:, 0], b.curve[:, 1], color=st["color"],
+                            lw=1.6 if b.stable else 0.8, ls=st["ls"] if b.stable else ":")
+                lims.append(m.linthresh)
+                text += ", " + _reduced(m.pressure, m.P_c, "P")
+            handles.append(Line2D([], [], lw=1.8, label=text, **st))
+        _check_nonempty({k: np.asarray(v, float).ravel() for k, v in drawn.items()}
+                        or {"none": []}, f"{kind} overlay")
+        state = getattr(data.members[0], "state", "r")
+        if kind == "pv":
+            if lims:
+                ax.set_ylim(0, max(lims))
+            ax.set_xlabel(r"specific volume $v$")
+            ax.set_ylabel(r"pressure $P$")
+        elif kind == "gt":
+            win = [w for w in lims if w is not None]
+            if win:
+                ax.set_ylim(min(w[0] for w in win), max(w[1] for w in win))
+            ax.set_xlabel(r"temperature $T$")
+            ax.set_ylabel(r"Gibbs free energy $G$")
+            handles += [Line2D([], [], color="0.3", lw=2.2, label="globally preferred"),
+                        Line2D([], [], color="0.3", lw=0.7, ls=":", label="unstable ($C_P<0$)")]
+        elif kind == "pt":
+            ok = [li for li in lims if li is not None]
+            if ok:
+                ax.set_xlim(0, max(li[0] for li in ok))
+                ax.set_ylim(0, max(li[1] for li in ok))
+            ax.set_xlabel(r"temperature $T$")
+            ax.set_ylabel(r"pressure $P$")
+            handles.append(Line2D([], [], color="0.3", marker="o", ls="", ms=5,
+                                  label="critical point"))
+        elif kind == "tr":
+            if lims:
+                ax.set_ylim(0, max(lims))
+            ax.set_xlabel(rf"${_state_label(state)}$")
+            ax.set_ylabel(r"temperature $T$")
+            handles.append(Line2D([], [], color="0.3", lw=0.8, ls=":",
+                                  label="unstable ($C_P<0$)"))
+        elif kind == "cp":
+            th_ = [t for t in lims if t]
+            ax.set_yscale("symlog", linthresh=min(th_) if th_ else 1.0)
+            ax.axhline(0, color="black", lw=0.5)
+            ax.set_xlabel(rf"${_state_label(state)}$")
+            ax.set_ylabel(r"$C_P$")
+        sel = "".join(f"; {n}" for n in data.notes if n.startswith("states:"))
+        ax.set_title(f"{data.family} ({fixed}{', ' if fixed else ''}{data.name} varied){sel}")
+        ax.legend(handles=handles, loc="best")  # inside, where the curves leave room
+    columns = {"tr": (_column(state), "T"), "cp": (_column(state), "C_P")}.get(kind, ())
+    return PlotResult(fig, kind, drawn, list(data.notes), columns=columns, labels=labels)
 
 
 PLOTTERS = {"pv": plot_pv, "gt": plot_gt, "pt": plot_pt, "tr": plot_tr, "cp": plot_cp}

@@ -9,9 +9,14 @@ is :func:`bhchem.analysis.figure_data.tr_curves` followed by
 """
 from __future__ import annotations
 
+import math
+
+import numpy as np
+
 from bhchem.errors import BhchemError
-from bhchem.analysis.figure_data import FIGURE_DATA, FIGURE_KINDS
-from bhchem.present.plots import PLOTTERS, PlotResult, adjust, parse_range, parse_width
+from bhchem.analysis.figure_data import FIGURE_DATA, FIGURE_KINDS, overlay_data
+from bhchem.present.plots import (PLOTTERS, PlotResult, adjust, parse_range, parse_width,
+                                  plot_overlay)
 
 KINDS = FIGURE_KINDS
 
@@ -26,7 +31,35 @@ def adjust_check(xlim=None, ylim=None, width=None) -> None:
         parse_width(width)
 
 
-def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None,
+def parse_vary(spec) -> tuple:
+    """``'a=0,0.5,1'``, a grid ``'a=0:1:3'`` / ``'a=log:0.1:10:3'``, or ``('a', [0, 0.5])``,
+    as ``(name, values)``."""
+    if not isinstance(spec, str):
+        name, values = spec
+        return str(name), tuple(float(v) for v in values)
+    name, sep, rest = spec.partition("=")
+    if not sep or not name.strip() or not rest.strip():
+        raise BhchemError(f"--vary {spec!r} must look like NAME=V1,V2,... or NAME=START:STOP:N")
+    log = rest.startswith("log:")
+    parts = (rest[4:] if log else rest).split(":" if ":" in rest else ",")
+    try:
+        nums = [float(v) for v in parts]
+        if ":" in rest:
+            lo, hi, n = nums
+            if n != int(n) or not 1 <= n <= 8 or (log and min(lo, hi) <= 0):
+                raise ValueError
+            values = np.geomspace(lo, hi, int(n)) if log else np.linspace(lo, hi, int(n))
+        else:
+            values = nums
+    except ValueError:
+        raise BhchemError(f"--vary {spec!r} must look like NAME=V1,V2,... or NAME=START:STOP:N "
+                          f"(N from 1 to 8; log: with positive ends)") from None
+    if not all(math.isfinite(v) for v in values):
+        raise BhchemError(f"--vary {spec!r}: the values must be finite")
+    return name.strip(), tuple(float(v) for v in values)
+
+
+def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None, vary=None,
                 **options) -> PlotResult:
     """Compute and draw the figure ``kind`` for the bound family ``th``.
 
@@ -40,6 +73,10 @@ def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None,
         a new figure.
     xlim, ylim : (float, float) or 'A:B', optional
         Axis ranges of every panel.
+    vary : str or (str, sequence of float), optional
+        One curve family per value of a parameter, on one axes (``'a=0,0.5,1'`` or a grid
+        ``'a=0:1:3'``; see :func:`bhchem.analysis.figure_data.overlay_data` for what each
+        kind draws per value).
     width : 'column', 'page' or float, optional
         Figure width in inches (a journal column 3.4, a page 7.0); see
         :func:`bhchem.present.plots.adjust`.
@@ -60,5 +97,9 @@ def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None,
     if kind not in FIGURE_DATA:
         raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(KINDS)}")
     adjust_check(xlim, ylim, width)  # a bad range or width is refused before computing
-    res = PLOTTERS[kind](FIGURE_DATA[kind](th, **options), ax=ax)
+    if vary is not None:
+        name, values = parse_vary(vary)
+        res = plot_overlay(overlay_data(th, kind, name, values, **options), ax=ax)
+    else:
+        res = PLOTTERS[kind](FIGURE_DATA[kind](th, **options), ax=ax)
     return adjust(res, xlim=xlim, ylim=ylim, width=width)
