@@ -44,6 +44,11 @@ def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
     assert res.data["critical_points"][0] == pytest.approx([TC, PC], rel=1e-12)
     save(res, tmp_path / "pt.png")
     _nonblank(tmp_path / "pt.png")
+    # the notebook view of the same diagram: one row per line, its ends
+    columns, rows = pd.table_rows()
+    assert len(rows) == 1 and rows[0][0] == "first-order" and rows[0][2] == len(drawn)
+    assert rows[0][6:8] == pytest.approx(tuple(drawn[-1])) and rows[0][8] == "critical point"
+    assert "<table>" in pd._repr_html_() and len(repr(pd)) < 200
 
 
 def test_pv_isotherms_are_the_equation_of_state(rn, tmp_path):

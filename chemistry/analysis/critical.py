@@ -189,6 +189,13 @@ class CriticalSearch(Result):
         """Physical, non-degenerate, converged critical points (the ones the message counts)."""
         return tuple(p for p in self.points if counts_as_critical_point(p))
 
+    def table_rows(self):
+        """One row per critical point: kind, T, P, v, x, physical, on the preferred
+        branch, converged."""
+        return (("kind", "T", "P", "v", "x", "physical", "on_preferred_branch", "converged"),
+                [(c.kind, c.T, c.P, c.v, c.x, c.physical, c.on_preferred_branch, c.converged)
+                 for c in self.points])
+
 
 def counts_as_critical_point(cp: CriticalPoint) -> bool:
     """Whether a solution of the critical conditions is a physical critical point: in the

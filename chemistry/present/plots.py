@@ -16,7 +16,9 @@ blank.  The look (palette, line conventions, rc style) is :mod:`bhchem.present.s
 """
 from __future__ import annotations
 
+import base64
 import csv
+import html
 import io
 import math
 import os
@@ -97,6 +99,19 @@ class PlotResult(Result):
     def to_frame(self):
         """:attr:`table` as a :class:`pandas.DataFrame` (needs pandas: ``bhchem[notebook]``)."""
         return self.table.to_frame()
+
+    def table_rows(self):
+        return self.table.columns, self.table.rows
+
+    def _repr_html_(self) -> str:
+        """The figure itself (PNG) and its notes: what a notebook shows."""
+        buf = io.BytesIO()
+        import matplotlib  # lazy: matplotlib only when a figure is shown
+        with matplotlib.rc_context(rc_style()):
+            self.figure.savefig(buf, format="png", dpi=100)
+        img = base64.b64encode(buf.getvalue()).decode("ascii")
+        notes = "".join(f"<br>{html.escape(n)}" for n in self.notes)
+        return f"<div><img src='data:image/png;base64,{img}'>{notes}</div>"
 
 
 #: units of every figure table
