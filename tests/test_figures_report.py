@@ -10,6 +10,8 @@ import pytest
 from bhchem import bind
 from bhchem.cli.main import main
 from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.figure_data import pt_diagram
+from bhchem.analysis.isobar import analyze_isobar as bhchem_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.plots import EmptyFigureError, save
 from bhchem.workflows.figures import make_figure
@@ -44,6 +46,17 @@ def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
     assert res.data["critical_points"][0] == pytest.approx([TC, PC], rel=1e-12)
     save(res, tmp_path / "pt.png")
     _nonblank(tmp_path / "pt.png")
+    # every region holding a phase is named, the one above P_c as what it is
+    assert {t.get_text() for t in res.figure.axes[0].texts} == {"small", "large", "supercritical"}
+    data = pt_diagram(rn, diagram=pd)
+    (Tsc, Psc, _), = [r for r in data.regions if r[2] == "supercritical"]
+    assert Psc > PC and Tsc < data.limits[0]
+    for T, P, name in data.regions:  # each name is written where that phase is preferred
+        if name != "supercritical":
+            assert [ph for lo, hi, ph in bhchem_isobar(rn, P).preferred if lo <= T <= hi] == [name]
+    # the legend sits below the plane, not beside it
+    legend = res.figure.axes[0].get_legend()
+    assert legend.get_bbox_to_anchor().y0 < res.figure.axes[0].bbox.y0
     # the notebook view of the same diagram: one row per line, its ends
     columns, rows = pd.table_rows()
     assert len(rows) == 1 and rows[0][0] == "first-order" and rows[0][2] == len(drawn)

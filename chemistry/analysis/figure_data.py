@@ -233,11 +233,17 @@ class PtDiagram(Result):
     limits : (float, float) or None
         (T_max, P_max) of the axes (None when no line has a point).
     regions : tuple of (float, float, str)
-        (T, P, phase name) where each preferred phase's name is written.
+        (T, P, name) where the name of each region holding a preferred phase is written:
+        the phase's name, or ``supercritical`` for a phase that no line separates from
+        another and that lies above a critical point (the continuation of the phases that
+        meet there).  Never inside the inset (:data:`INSET_AXES`).
     inset_box : (float, float, float, float) or None
         (T_lo, T_hi, P_lo, P_hi) of a zoom inset around small features (zeroth-order
         lines, triple and terminal points), or None when they are readable as they are.
     notes : tuple of str
+    pointers : tuple of (float, float, str, float, float)
+        (T, P, name, T_text, P_text): a region too narrow for its name, named from
+        (T_text, P_text) with an arrow to (T, P).
     """
 
     family: str
@@ -251,6 +257,11 @@ class PtDiagram(Result):
     regions: tuple
     inset_box: tuple | None
     notes: tuple = ()
+    pointers: tuple = ()
+
+
+#: where the zoom inset of a P-T figure sits, in axes fractions (x0, y0, width, height)
+INSET_AXES = (0.17, 0.56, 0.34, 0.36)
 
 
 @dataclass(frozen=True, eq=False)
@@ -620,18 +631,18 @@ def pt_diagram(th, diagram=None) -> PtDiagram:
                          for cp in pd.critical_points)
     drawn = [ln.points for ln in lines if ln.points.size]
     allpts = np.vstack(drawn) if drawn else np.zeros((0, 2))
-    limits, regions, box = None, (), None
+    limits, regions, box, pointers = None, (), None, ()
     if np.any(np.isfinite(allpts)):
         Tmax = float(np.nanmax(allpts[:, 0])) * 1.25
         Pmax = float(np.nanmax(allpts[:, 1])) * 1.25
         limits = (Tmax, Pmax)
-        regions = _regions(th, Tmax, Pmax)
         box = _inset_box(pd, Tmax, Pmax)
+        regions, pointers = _regions(th, pd, Tmax, Pmax, box is not None)
     return PtDiagram(**_identity(th), lines=tuple(lines),
                      critical_points=np.array([[cp.T, cp.P] for cp in pd.critical_points]),
                      critical_on_preferred=on_preferred,
                      triple_points=np.array([[tp.T, tp.P] for tp in pd.triple_points]),
-                     limits=limits, regions=regions, inset_box=box)
+                     limits=limits, regions=regions, inset_box=box, pointers=pointers)
 
 
 def _inset_box(pd, Tmax, Pmax):
@@ -657,22 +668,74 @@ def _inset_box(pd, Tmax, Pmax):
     return (t0 - 0.6 * dt, t1 + 0.6 * dt, p0 - 0.6 * dp, p1 + 0.6 * dp)
 
 
-def _regions(th, Tmax, Pmax):
-    """(T, P, name): a point inside each preferred phase's region, on three isobars."""
-    placed, out = set(), []
-    for fy in (0.15, 0.45, 0.85):
-        P = fy * Pmax
-        try:
-            res = analyze_isobar(th, P)
-        except BhchemError:
+def _regions(th, pd, Tmax, Pmax, inset: bool):
+    """Where to name each region that holds a preferred phase: ``(regions, pointers)``.
+
+    For every phase of ``pd.regions``, isobars across its pressure range give the widest
+    T interval where it is preferred (clipped to the axes, outside the inset); a name is
+    written there when the interval is at least a tenth of the T axis, else pointed at
+    from free space.  A phase no line separates from another, above a critical point, is
+    named ``supercritical``."""
+    separated = {ph for line in pd.lines for ph in line.between}
+    P_crit = [cp.P for cp in pd.critical_points]
+    cache = {}
+
+    def preferred(P):
+        if P not in cache:
+            try:
+                cache[P] = analyze_isobar(th, P).preferred
+            except BhchemError:
+                cache[P] = ()
+        return cache[P]
+
+    def in_inset(T, P):
+        x0, y0, w, h = INSET_AXES
+        return inset and x0 - 0.05 <= T / Tmax <= x0 + w + 0.05 and \
+            y0 - 0.05 <= P / Pmax <= y0 + h + 0.05
+
+    regions, pointers, placed = [], [], []
+    for reg in pd.regions:
+        ph = reg["phase"]
+        lo, hi = max(reg["P_range"][0], 0.04 * Pmax), min(reg["P_range"][1], 0.96 * Pmax)
+        if not lo < hi:
             continue
-        for lo, hi, ph in res.preferred:
-            hi = min(hi, Tmax)
-            if ph in placed or hi - lo < 0.12 * Tmax:
-                continue
-            out.append((0.5 * (lo + hi), P, ph))
-            placed.add(ph)
-    return tuple(out)
+        name = ph
+        if ph not in separated and P_crit and reg["P_range"][0] >= min(P_crit) * (1 - 1e-6):
+            name = "supercritical"
+        best = None
+        for f in (0.5, 0.3, 0.7, 0.12, 0.88):  # ties keep the middle
+            P = lo + f * (hi - lo)
+            for a, b, p in preferred(P):
+                a, b = max(a, 0.0), min(b, Tmax)
+                if p != ph or b <= a:
+                    continue
+                for u in (0.5, 0.75, 0.25):  # the middle, else beside the inset or a label
+                    T = a + u * (b - a)
+                    if in_inset(T, P) or any(abs(T - t) < 0.12 * Tmax and abs(P - q) < 0.08 * Pmax
+                                             for t, q in placed):
+                        continue
+                    if best is None or b - a > best[0]:
+                        best = (b - a, T, P)
+                    break
+        if best is None:
+            continue
+        width, T, P = best
+        placed.append((T, P))
+        if width >= 0.1 * Tmax:
+            regions.append((T, P, name))
+        else:  # too narrow for its name: written away from it, with an arrow
+            spots = [(T + dx * Tmax, P + dy * Pmax) for dx, dy in
+                     ((0.14, -0.25), (-0.2, -0.25), (0.14, 0.2), (-0.2, 0.2), (-0.3, -0.4),
+                      (0.14, -0.12), (-0.2, -0.12))]
+            free = [(tx, ty) for tx, ty in spots
+                    if 0.12 * Tmax <= tx <= 0.88 * Tmax and 0.05 * Pmax <= ty <= 0.95 * Pmax
+                    and not in_inset(tx, ty)
+                    and all(abs(tx - t) >= 0.2 * Tmax or abs(ty - q) >= 0.1 * Pmax
+                            for t, q in placed[:-1])]
+            tx, ty = free[0] if free else spots[0]
+            placed.append((tx, ty))
+            pointers.append((T, P, name, tx, ty))
+    return tuple(regions), tuple(pointers)
 
 
 # -- T-r+ isobars and C_P --------------------------------------------------------------------

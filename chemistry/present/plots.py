@@ -30,8 +30,8 @@ import numpy as np
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError
 from bhchem.fileio import atomic_file
-from bhchem.analysis.figure_data import (FIGURE_KINDS, CpCurves, GtCurves, OverlayData,
-                                         PtDiagram, PvCurves, TrCurves)
+from bhchem.analysis.figure_data import (FIGURE_KINDS, INSET_AXES, CpCurves, GtCurves,
+                                         OverlayData, PtDiagram, PvCurves, TrCurves)
 from bhchem.present.style import (LINE_COLOR, LINE_STYLE, PALETTE, STABLE_GREY, STYLE,
                                   UNSTABLE_GREY, FigureFactory, figure_title, rc_style,
                                   styled)
@@ -612,12 +612,17 @@ def plot_pt(data: PtDiagram, ax=None) -> PlotResult:
         for T, P, name in data.regions:
             ax.text(T, P, name, ha="center", va="center", fontsize=8, style="italic",
                     color="#404040")
+        for T, P, name, tx, ty in getattr(data, "pointers", ()):
+            ax.annotate(name, (T, P), xytext=(tx, ty), fontsize=8, style="italic",
+                        color="#404040", ha="center", va="center",
+                        arrowprops=dict(arrowstyle="-", color="#707070", lw=0.6))
         if data.inset_box is not None:
             _draw_inset(ax, data)
         ax.set_xlabel(r"temperature $T$")
         ax.set_ylabel(r"pressure $P$")
         ax.set_title(figure_title(data))
-        ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0))
+        n = len(ax.get_legend_handles_labels()[1])  # below the axes: the plane keeps its width
+        ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.16), ncol=n if n <= 3 else 2)
     return PlotResult(fig, "pt", drawn, list(data.notes))
 
 
@@ -625,7 +630,7 @@ def _draw_inset(ax, data: PtDiagram):
     """The zoom inset of :func:`plot_pt` over ``data.inset_box``."""
     from matplotlib.ticker import MaxNLocator  # lazy: matplotlib only when a figure is drawn
     box = data.inset_box
-    ins = ax.inset_axes([0.17, 0.56, 0.34, 0.36])
+    ins = ax.inset_axes(list(INSET_AXES))
     for line in data.lines:
         pts = line.points
         if pts.size:
