@@ -573,3 +573,18 @@ def test_vary_grid_spec():
     assert parse_vary("a=0:1:3") == ("a", (0.0, 0.5, 1.0))
     assert parse_vary("b=log:0.1:10:3") == ("b", pytest.approx((0.1, 1.0, 10.0)))
     assert parse_vary(("Q", [1, 2])) == ("Q", (1.0, 2.0))
+
+
+def test_cp_axis_has_no_kink(figure_inputs):
+    """The C_P axis is asinh (smooth): its slope is continuous where symlog's jumps."""
+    from bhchem.present.plots import PLOTTERS
+    data = figure_inputs["cp"]
+    ax = PLOTTERS["cp"](data).figure.axes[0]
+    assert ax.get_yscale() == "asinh"
+    tr = ax.yaxis.get_transform()
+    w, h = data.linthresh, 1e-6 * data.linthresh
+    slope = [float((tr.transform([[y + h]]) - tr.transform([[y - h]]))[0, 0]) / (2 * h)
+             for y in (w * 0.999, w * 1.001)]
+    assert slope[0] == pytest.approx(slope[1], rel=1e-2)
+    ticks = [t for t in ax.get_yticks() if t != 0]
+    assert all(abs(t) >= 3 * w for t in ticks)  # no tick labels crowding the linear part

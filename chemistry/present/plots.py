@@ -720,8 +720,23 @@ def plot_tr(data: TrCurves, ax=None) -> PlotResult:
                       labels=labels)
 
 
+def _asinh_axis(ax, width, values) -> None:
+    """A y axis linear near 0 and logarithmic far away, smooth in between (asinh; the
+    symmetric-log scale has a visible kink where it changes), ticked at 0 and at the
+    powers of ten clear of the linear part (their labels would collide there)."""
+    from matplotlib.ticker import FixedLocator  # lazy: matplotlib only when a figure is drawn
+    width = float(width) if width and math.isfinite(width) and width > 0 else 1.0
+    ax.set_yscale("asinh", linear_width=width)
+    finite = np.concatenate([np.ravel(v)[np.isfinite(np.ravel(v))] for v in values] or [[]])
+    top = float(np.max(np.abs(finite))) if finite.size else 10 * width
+    k0 = math.ceil(math.log10(3 * width))
+    k1 = max(math.ceil(math.log10(max(top, 10 * width))), k0)
+    ticks = [0.0] + [s * 10.0 ** k for k in range(k0, k1 + 1) for s in (1, -1)]
+    ax.yaxis.set_major_locator(FixedLocator(sorted(ticks)))
+
+
 def plot_cp(data: CpCurves, ax=None) -> PlotResult:
-    """C_P along one isobar (symmetric-log scale), spinodals marked.
+    """C_P along one isobar (asinh scale: linear near 0, logarithmic beyond), spinodals marked.
 
     Parameters
     ----------
@@ -744,7 +759,7 @@ def plot_cp(data: CpCurves, ax=None) -> PlotResult:
                     color=STABLE_GREY if b.stable else UNSTABLE_GREY)
             for x in b.spinodals:
                 ax.axvline(x, color=PALETTE[1], lw=0.7, ls="--")
-        ax.set_yscale("symlog", linthresh=data.linthresh)
+        _asinh_axis(ax, data.linthresh, [b.curve[:, 1] for b in data.branches])
         ax.axhline(0, color="black", lw=0.5)
         ax.set_xlabel(r"$r_+$" if data.state == "r" else data.state)
         ax.set_ylabel(r"$C_P$")
@@ -907,7 +922,8 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
                                   label="unstable ($C_P<0$)"))
         elif kind == "cp":
             th_ = [t for t in lims if t]
-            ax.set_yscale("symlog", linthresh=min(th_) if th_ else 1.0)
+            _asinh_axis(ax, min(th_) if th_ else 1.0,
+                        [np.asarray(v, float)[:, 1] for v in drawn.values()])
             ax.axhline(0, color="black", lw=0.5)
             ax.set_xlabel(rf"${_state_label(state)}$")
             ax.set_ylabel(r"$C_P$")
