@@ -588,3 +588,39 @@ def test_cp_axis_has_no_kink(figure_inputs):
     assert slope[0] == pytest.approx(slope[1], rel=1e-2)
     ticks = [t for t in ax.get_yticks() if t != 0]
     assert all(abs(t) >= 3 * w for t in ticks)  # no tick labels crowding the linear part
+
+
+# -- reduced variables ---------------------------------------------------------------------------
+def test_reduced_variables_divide_by_the_critical_point(figure_inputs, rn):
+    from bhchem.analysis.figure_data import reduced
+    from bhchem.present.plots import PLOTTERS
+    pv = figure_inputs["pv"]
+    vc, Pc = pv.critical_point
+    assert vc == pytest.approx(2 * math.sqrt(6)) and Pc == pytest.approx(PC)
+    red = reduced(pv)
+    np.testing.assert_array_equal(red.isotherms[0], pv.isotherms[0] / np.array([vc, Pc]))
+    assert red.temperatures[0] == pytest.approx(0.85)
+    res = PLOTTERS["pv"](red)
+    ax = res.figure.axes[0]
+    assert (ax.get_xlabel(), ax.get_ylabel()) == ("$v/v_c$", "$P/P_c$")
+    assert res.table.columns == ("curve", "v/v_c", "P/P_c")
+    tr = reduced(figure_inputs["tr"])
+    assert tr.critical_point.tolist() == [1.0, 1.0] and tr.pressures[2] == pytest.approx(1.0)
+    pt = PLOTTERS["pt"](reduced(figure_inputs["pt"], rn))
+    assert pt.data["critical_points"][0] == pytest.approx([1.0, 1.0], rel=1e-12)
+    assert pt.table.columns == ("curve", "T/T_c", "P/P_c")
+    from bhchem.errors import BhchemError
+    with pytest.raises(BhchemError, match="not CpCurves"):
+        reduced(figure_inputs["cp"])
+
+
+def test_reduced_overlay_over_a_pure_scale_is_one_curve(rn):
+    """Q only sets the scale of 4D charged AdS: in reduced variables the isobars at the same
+    P/P_c coincide (scale invariance, Kubiznak & Mann 2012)."""
+    from bhchem.analysis.figure_data import overlay_data
+    ov = overlay_data(rn, "tr", "Q", [0.5, 2.0], reduced_units=True, pressures=["0.6Pc"])
+    a, b = (m.isobars[0] for m in ov.members)
+    assert len(a) == len(b)
+    for ba, bb in zip(a, b):
+        np.testing.assert_allclose(ba.curve, bb.curve, rtol=1e-9, atol=1e-12)
+    assert "the curves coincide" in " ".join(ov.notes)

@@ -27,7 +27,7 @@ hold NaN there (a gap when drawn).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -78,6 +78,8 @@ class PvCurves(Result):
     T_c: float | None
     critical_point: np.ndarray | None
     notes: tuple = ()
+    #: in units of the critical point (v/v_c, P/P_c, T/T_c): see :func:`reduced`
+    reduced: bool = False
 
 
 @dataclass(frozen=True, eq=False)
@@ -258,6 +260,8 @@ class PtDiagram(Result):
     inset_box: tuple | None
     notes: tuple = ()
     pointers: tuple = ()
+    #: in units of a critical point (T/T_c, P/P_c): see :func:`reduced`
+    reduced: bool = False
 
 
 #: where the zoom inset of a P-T figure sits, in axes fractions (x0, y0, width, height)
@@ -319,6 +323,8 @@ class TrCurves(Result):
     #: states excluded by a condition (ExcludedCurve, rows x, T), when asked for
     excluded: tuple = ()
     super_entropic: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
+    #: in units of the critical point (x/x_c, T/T_c, P/P_c): see :func:`reduced`
+    reduced: bool = False
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -910,7 +916,8 @@ class OverlayData(Result):
     notes: tuple = ()
 
 
-def overlay_data(th, kind: str, name: str, values, **options) -> OverlayData:
+def overlay_data(th, kind: str, name: str, values, reduced_units: bool = False,
+                 **options) -> OverlayData:
     """The data of the figure ``kind`` at each value of the parameter ``name``.
 
     Relative temperatures and pressures (``'0.9Tc'``, ``'0.5Pc'``) are resolved at each
@@ -925,6 +932,9 @@ def overlay_data(th, kind: str, name: str, values, **options) -> OverlayData:
     kind : str
     name : str
     values : sequence of float
+    reduced_units : bool
+        Each member in units of its own critical point (:func:`reduced`; pv, tr, pt): values
+        that only set the scale then give one curve.
     **options
         ``temperatures`` (pv), ``pressures`` (gt, tr; one each), ``pressure`` (cp).
 
@@ -951,10 +961,36 @@ def overlay_data(th, kind: str, name: str, values, **options) -> OverlayData:
     for value in values:
         member = bind(th.family, conditions=adm.set_name, without=adm.removed,
                       **{**th.values, name: value})
-        members.append(FIGURE_DATA[kind](member, **_member_options(member, kind, options)))
+        data = FIGURE_DATA[kind](member, **_member_options(member, kind, options))
+        members.append(reduced(data, member) if reduced_units else data)
     fixed = {k: v for k, v in th.values.items() if k != name}
-    return OverlayData(th.family.name, fixed, kind, name, values, tuple(members),
-                       _selection_notes(th))
+    notes = _selection_notes(th)
+    if reduced_units and len(members) > 1 and _coincide(members):
+        notes += (f"the curves coincide in reduced variables: {name} only sets the scale",)
+    return OverlayData(th.family.name, fixed, kind, name, values, tuple(members), notes)
+
+
+def _curves(data) -> list:
+    if isinstance(data, PvCurves):
+        return list(data.isotherms)
+    if isinstance(data, TrCurves):
+        return [b.curve for iso in data.isobars for b in iso]
+    if isinstance(data, PtDiagram):
+        return [ln.points for ln in data.lines]
+    return []
+
+
+def _coincide(members) -> bool:
+    """Every reduced curve of every member equals the first member's (to 1e-7, 1e-9 near 0)."""
+    first = _curves(members[0])
+    for m in members[1:]:
+        other = _curves(m)
+        if len(other) != len(first) or not first:
+            return False
+        for a, b in zip(first, other):
+            if a.shape != b.shape or not np.allclose(a, b, rtol=1e-7, atol=1e-9, equal_nan=True):
+                return False
+    return True
 
 
 def _member_options(th, kind: str, options: dict) -> dict:
@@ -975,3 +1011,71 @@ def _member_options(th, kind: str, options: dict) -> dict:
         opts["pressure"] = resolve_pressure(th, given) if given is not None else \
             default_pressures(th, scale_point(th))[0]
     return opts
+
+
+# -- reduced variables -----------------------------------------------------------------------------
+def reduced(data, th=None):
+    """The same figure data in units of the critical point: v/v_c, P/P_c, T/T_c (and
+    x/x_c for T-r+ curves).  For ``pv`` and ``tr`` the critical point is the data's own;
+    for ``pt`` the scale critical point of ``th`` (see :func:`scale_point`).
+
+    Parameters
+    ----------
+    data : PvCurves, TrCurves or PtDiagram
+    th : Thermodynamics, optional
+        Needed for a PtDiagram.
+
+    Returns
+    -------
+    The same type, with ``reduced=True``.
+
+    Raises
+    ------
+    BhchemError
+        Without a critical point to reduce by, or for another kind of data.
+    """
+    if isinstance(data, PvCurves):
+        if data.critical_point is None or data.T_c is None:
+            raise BhchemError("reduced variables need a critical point; this family has "
+                              "none at these parameters")
+        sc = np.array(data.critical_point, float)
+        return replace(data, temperatures=tuple(T / data.T_c for T in data.temperatures),
+                       isotherms=tuple(i / sc for i in data.isotherms),
+                       equal_area=tuple(None if e is None else e / sc for e in data.equal_area),
+                       T_c=1.0, critical_point=np.ones(2), reduced=True)
+    if isinstance(data, TrCurves):
+        if data.critical_point is None or data.P_c is None:
+            raise BhchemError("reduced variables need a critical point; this family has "
+                              "none at these parameters")
+        sc = np.array(data.critical_point, float)
+        isobars = tuple(tuple(replace(b, curve=b.curve / sc,
+                                      spinodals=tuple(x / sc[0] for x in b.spinodals))
+                              for b in iso) for iso in data.isobars)
+        return replace(data, pressures=tuple(P / data.P_c for P in data.pressures),
+                       isobars=isobars, P_c=1.0, critical_point=np.ones(2),
+                       excluded=tuple(replace(e, curve=e.curve / sc) for e in data.excluded),
+                       super_entropic=np.asarray(data.super_entropic, float).reshape(-1, 2) / sc,
+                       reduced=True)
+    if isinstance(data, PtDiagram):
+        cp = scale_point(th) if th is not None else None
+        if cp is None:
+            raise BhchemError("reduced variables need a critical point; this family has "
+                              "none at these parameters")
+        Tc, Pc = cp.T, cp.P
+        sc = np.array([Tc, Pc])
+        box = data.inset_box
+        return replace(
+            data, lines=tuple(replace(ln, points=ln.points / sc,
+                                      terminal_points=ln.terminal_points / sc)
+                              for ln in data.lines),
+            critical_points=np.asarray(data.critical_points, float).reshape(-1, 2) / sc,
+            triple_points=np.asarray(data.triple_points, float).reshape(-1, 2) / sc,
+            limits=None if data.limits is None else (data.limits[0] / Tc, data.limits[1] / Pc),
+            regions=tuple((T / Tc, P / Pc, n) for T, P, n in data.regions),
+            pointers=tuple((T / Tc, P / Pc, n, a / Tc, b / Pc)
+                           for T, P, n, a, b in data.pointers),
+            inset_box=None if box is None else (box[0] / Tc, box[1] / Tc, box[2] / Pc,
+                                                box[3] / Pc),
+            reduced=True)
+    raise BhchemError(f"reduced variables are drawn for pv, tr and pt figures, not "
+                      f"{type(data).__name__}")

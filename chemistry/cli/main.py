@@ -241,7 +241,7 @@ def cmd_plot(args) -> int:
     if vary and args.show_excluded:
         raise BhchemError("--show-excluded draws one family's excluded states; not with --vary")
     res = make_figure(th, args.kind, xlim=args.xlim, ylim=args.ylim, width=args.width,
-                      vary=vary, **kw)
+                      vary=vary, reduced_units=args.reduced, **kw)
     with output_lock(args.output):
         for note in clean_stale(args.output):
             _note(f"{note} (left by an interrupted run)")
@@ -405,6 +405,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="one curve family per value of a parameter, on one axes (or a grid "
                         "NAME=START:STOP:N); relative T and P (0.9Tc, 0.5Pc) at each value's "
                         "own critical point")
+    p.add_argument("--reduced", action="store_true",
+                   help="pv, tr, pt: in units of the critical point (v/v_c, P/P_c, T/T_c)")
     p.add_argument("--xlim", metavar="A:B", help="x-axis range of every panel")
     p.add_argument("--ylim", metavar="A:B", help="y-axis range of every panel")
     p.add_argument("--width", metavar="column|page|INCHES",

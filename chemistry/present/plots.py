@@ -132,6 +132,7 @@ COLUMN_MEANING = {
     "t": "time in units of the friction zeta",
     "F": "first-passage-time distribution F(t)",
     "T/T_c": "temperature over the critical temperature",
+    "r_plus/r_plus_c": "horizon radius over its value at the critical point",
     "P/P_c": "pressure over the critical pressure",
     "v/v_c": "specific volume over the critical one",
     "jump_scaled": "jump (large minus small) divided by its largest magnitude",
@@ -462,13 +463,15 @@ def plot_pv(data: PvCurves, ax=None) -> PlotResult:
             v_c, P_c = data.critical_point
             ax.plot([v_c], [P_c], "o", color="black", ms=5, zorder=5, label="critical point")
             ax.set_ylim(0, 2.0 * P_c)
-        ax.set_xlabel(r"specific volume $v$")
-        ax.set_ylabel(r"pressure $P$")
+        red = getattr(data, "reduced", False)
+        ax.set_xlabel(r"$v/v_c$" if red else r"specific volume $v$")
+        ax.set_ylabel(r"$P/P_c$" if red else r"pressure $P$")
         ax.set_title(figure_title(data))
         ax.legend(loc="upper right", ncol=1)
     labels = {f"isotherm_{i}": _value_label("T", T, data.T_c)
               for i, T in enumerate(data.temperatures)}
-    return PlotResult(fig, "pv", drawn, list(data.notes), labels=labels)
+    return PlotResult(fig, "pv", drawn, list(data.notes), labels=labels,
+                      columns=("v/v_c", "P/P_c") if red else ())
 
 
 # -- G-T isobars -----------------------------------------------------------------------------
@@ -618,12 +621,14 @@ def plot_pt(data: PtDiagram, ax=None) -> PlotResult:
                         arrowprops=dict(arrowstyle="-", color="#707070", lw=0.6))
         if data.inset_box is not None:
             _draw_inset(ax, data)
-        ax.set_xlabel(r"temperature $T$")
-        ax.set_ylabel(r"pressure $P$")
+        red = getattr(data, "reduced", False)
+        ax.set_xlabel(r"$T/T_c$" if red else r"temperature $T$")
+        ax.set_ylabel(r"$P/P_c$" if red else r"pressure $P$")
         ax.set_title(figure_title(data))
         n = len(ax.get_legend_handles_labels()[1])  # below the axes: the plane keeps its width
         ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.16), ncol=n if n <= 3 else 2)
-    return PlotResult(fig, "pt", drawn, list(data.notes))
+    return PlotResult(fig, "pt", drawn, list(data.notes),
+                      columns=("T/T_c", "P/P_c") if red else ())
 
 
 def _draw_inset(ax, data: PtDiagram):
@@ -708,16 +713,19 @@ def plot_tr(data: TrCurves, ax=None) -> PlotResult:
             ax.plot(low[::25, 0], low[::25, 1], "x", color="black", ms=3, lw=0.6,
                     label=r"super-entropic ($\mathcal{R}<1$)")
             drawn["super_entropic"] = low
-        ax.set_xlabel(rf"${_state_label(data.state)}$")
-        ax.set_ylabel(r"temperature $T$")
+        red = getattr(data, "reduced", False)
+        x = _state_label(data.state)
+        ax.set_xlabel(rf"${x}/{x}^{{c}}$" if red else rf"${x}$")
+        ax.set_ylabel(r"$T/T_c$" if red else r"temperature $T$")
         ax.set_title(figure_title(data, "; dotted: $C_P<0$"
                                   + ("; x: super-entropic" if len(low) else "")
                                   + _selection(data)))
         ax.legend(loc="lower right")
     labels = {f"P{i}_branch{b.index}": _value_label("P", P, data.P_c)
               for i, (P, iso) in enumerate(zip(data.pressures, data.isobars)) for b in iso}
-    return PlotResult(fig, "tr", drawn, list(data.notes), columns=(_column(data.state), "T"),
-                      labels=labels)
+    columns = (_column(data.state) + "/" + _column(data.state) + "_c", "T/T_c") if red else \
+        (_column(data.state), "T")
+    return PlotResult(fig, "tr", drawn, list(data.notes), columns=columns, labels=labels)
 
 
 def _asinh_axis(ax, width, values) -> None:
@@ -891,11 +899,12 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
         _check_nonempty({k: np.asarray(v, float).ravel() for k, v in drawn.items()}
                         or {"none": []}, f"{kind} overlay")
         state = getattr(data.members[0], "state", "r")
+        red = getattr(data.members[0], "reduced", False)
         if kind == "pv":
             if lims:
                 ax.set_ylim(0, max(lims))
-            ax.set_xlabel(r"specific volume $v$")
-            ax.set_ylabel(r"pressure $P$")
+            ax.set_xlabel(r"$v/v_c$" if red else r"specific volume $v$")
+            ax.set_ylabel(r"$P/P_c$" if red else r"pressure $P$")
         elif kind == "gt":
             win = [w for w in lims if w is not None]
             if win:
@@ -909,15 +918,16 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
             if ok:
                 ax.set_xlim(0, max(li[0] for li in ok))
                 ax.set_ylim(0, max(li[1] for li in ok))
-            ax.set_xlabel(r"temperature $T$")
-            ax.set_ylabel(r"pressure $P$")
+            ax.set_xlabel(r"$T/T_c$" if red else r"temperature $T$")
+            ax.set_ylabel(r"$P/P_c$" if red else r"pressure $P$")
             handles.append(Line2D([], [], color="0.3", marker="o", ls="", ms=5,
                                   label="critical point"))
         elif kind == "tr":
             if lims:
                 ax.set_ylim(0, max(lims))
-            ax.set_xlabel(rf"${_state_label(state)}$")
-            ax.set_ylabel(r"temperature $T$")
+            x = _state_label(state)
+            ax.set_xlabel(rf"${x}/{x}^{{c}}$" if red else rf"${x}$")
+            ax.set_ylabel(r"$T/T_c$" if red else r"temperature $T$")
             handles.append(Line2D([], [], color="0.3", lw=0.8, ls=":",
                                   label="unstable ($C_P<0$)"))
         elif kind == "cp":
@@ -928,9 +938,15 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
             ax.set_xlabel(rf"${_state_label(state)}$")
             ax.set_ylabel(r"$C_P$")
         sel = "".join(f"; {n}" for n in data.notes if n.startswith("states:"))
+        same = [n for n in data.notes if n.startswith("the curves coincide")]
+        if same:  # the scale-free statement, under the plane
+            ax.text(0.0, -0.2, same[0], transform=ax.transAxes, fontsize=8, va="top")
         ax.set_title(f"{data.family} ({fixed}{', ' if fixed else ''}{data.name} varied){sel}")
         ax.legend(handles=handles, loc="best")  # inside, where the curves leave room
     columns = {"tr": (_column(state), "T"), "cp": (_column(state), "C_P")}.get(kind, ())
+    if red:
+        columns = {"pv": ("v/v_c", "P/P_c"), "pt": ("T/T_c", "P/P_c"),
+                   "tr": (_column(state) + "/" + _column(state) + "_c", "T/T_c")}[kind]
     return PlotResult(fig, kind, drawn, list(data.notes), columns=columns, labels=labels)
 
 

@@ -14,7 +14,7 @@ import math
 import numpy as np
 
 from bhchem.errors import BhchemError
-from bhchem.analysis.figure_data import FIGURE_DATA, FIGURE_KINDS, overlay_data
+from bhchem.analysis.figure_data import FIGURE_DATA, FIGURE_KINDS, overlay_data, reduced
 from bhchem.present.plots import (PLOTTERS, PlotResult, adjust, parse_range, parse_width,
                                   plot_overlay)
 
@@ -60,7 +60,7 @@ def parse_vary(spec) -> tuple:
 
 
 def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None, vary=None,
-                **options) -> PlotResult:
+                reduced_units: bool = False, **options) -> PlotResult:
     """Compute and draw the figure ``kind`` for the bound family ``th``.
 
     Parameters
@@ -77,6 +77,9 @@ def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None, vary=N
         One curve family per value of a parameter, on one axes (``'a=0,0.5,1'`` or a grid
         ``'a=0:1:3'``; see :func:`bhchem.analysis.figure_data.overlay_data` for what each
         kind draws per value).
+    reduced_units : bool
+        Draw in units of the critical point: v/v_c, P/P_c, T/T_c (pv, tr, pt; see
+        :func:`bhchem.analysis.figure_data.reduced`).
     width : 'column', 'page' or float, optional
         Figure width in inches (a journal column 3.4, a page 7.0); see
         :func:`bhchem.present.plots.adjust`.
@@ -97,9 +100,13 @@ def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None, vary=N
     if kind not in FIGURE_DATA:
         raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(KINDS)}")
     adjust_check(xlim, ylim, width)  # a bad range or width is refused before computing
+    if reduced_units and kind not in ("pv", "tr", "pt"):
+        raise BhchemError(f"reduced variables are drawn for pv, tr and pt figures, not {kind}")
     if vary is not None:
         name, values = parse_vary(vary)
-        res = plot_overlay(overlay_data(th, kind, name, values, **options), ax=ax)
+        res = plot_overlay(overlay_data(th, kind, name, values, reduced_units=reduced_units,
+                                        **options), ax=ax)
     else:
-        res = PLOTTERS[kind](FIGURE_DATA[kind](th, **options), ax=ax)
+        data = FIGURE_DATA[kind](th, **options)
+        res = PLOTTERS[kind](reduced(data, th) if reduced_units else data, ax=ax)
     return adjust(res, xlim=xlim, ylim=ylim, width=width)
