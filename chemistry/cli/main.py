@@ -243,7 +243,7 @@ def cmd_plot(args) -> int:
     res = make_figure(th, args.kind, xlim=args.xlim, ylim=args.ylim, width=args.width,
                       vary=vary, reduced_units=args.reduced, **kw)
     with output_lock(args.output):
-        for note in clean_stale(args.output):
+        for note in clean_stale(args.output) + clean_stale(table_path(args.output)):
             _note(f"{note} (left by an interrupted run)")
         path = save(res, args.output, table=True)
     print(f"wrote {path} and its data {table_path(path)}")

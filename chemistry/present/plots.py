@@ -267,7 +267,7 @@ def save(result: PlotResult, path, table: bool = False) -> str:
         rc["savefig.bbox"] = "standard"
     if table:
         text = result.table.csv()
-        with atomic_file(table_path(path), "w") as tf, atomic_file(path, "wb") as fh, \
+        with atomic_file(path, "wb") as fh, atomic_file(table_path(path), "w") as tf, \
                 matplotlib.rc_context(rc):
             result.figure.savefig(fh, format=ext, metadata=_metadata(ext))
             tf.write(text)
