@@ -61,10 +61,12 @@ from bhchem.analysis.metric_route import (MetricDiagnosis, PhotonJumps, PhotonSp
                                           RouteComparison, compare_routes, diagnose_metric,
                                           diagram_photon_jumps, photon_sphere,
                                           photon_sphere_jumps)
-from bhchem.analysis.figure_data import (CpCurves, GtCurves, PtDiagram, PvCurves, TrCurves,
-                                         cp_curves, gt_curves, pt_diagram, pv_curves, tr_curves)
-from bhchem.present.plots import (EmptyFigureError, PlotResult, plot_cp, plot_gt, plot_pt,
-                                  plot_pv, plot_tr, save)
+from bhchem.analysis.figure_data import (CpCurves, GtCurves, OverlayData, PtDiagram, PvCurves,
+                                         TrCurves, cp_curves, gt_curves, overlay_data,
+                                         pt_diagram, pv_curves, tr_curves)
+from bhchem.analysis.figure_data import reduced as reduced_units
+from bhchem.present.plots import (EmptyFigureError, FigureTable, PlotResult, adjust, plot_cp,
+                                  plot_gt, plot_overlay, plot_pt, plot_pv, plot_tr, save)
 from bhchem.workflows.figures import make_figure
 
 from bhchem.version import __version__
@@ -98,6 +100,8 @@ __all__ = [
     "cp_curves", "gt_curves", "pt_diagram", "pv_curves", "tr_curves",
     "EmptyFigureError", "PlotResult", "plot_cp", "plot_gt", "plot_pt", "plot_pv",
     "plot_tr", "save", "make_figure",
+    # overlays over a parameter, reduced variables, axis ranges and width, the data table
+    "OverlayData", "overlay_data", "plot_overlay", "reduced_units", "adjust", "FigureTable",
     # errors
     "BhchemError", "BhchemWarning", "DuplicateFamilyError", "FamilyFileReloaded",
     "InconsistentFamilyWarning", "InvalidArgumentError", "ResidualBoundWarning", "MalformedFamilyError",

@@ -817,7 +817,7 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
         raise TypeError(f"plot_overlay draws OverlayData (bhchem.analysis.figure_data."
                         f"overlay_data), not {type(data).__name__}")
     from matplotlib.lines import Line2D  # lazy: matplotlib only when a figure is drawn
-    kind, drawn, labels, handles = data.kind, {}, {}, []
+    kind, drawn, labels, handles, kinds = data.kind, {}, {}, [], set()
     fixed = ", ".join(f"{k}={v:g}" for k, v in data.parameters.items())
     with canvas(ax, figsize=(5.2, 3.8)) as (fig, ax):
         lims = []
@@ -869,7 +869,10 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
                 for i, line in enumerate(m.lines):
                     if line.points.size:
                         put(f"line{i}_{line.kind}", line.points)
-                        ax.plot(line.points[:, 0], line.points[:, 1], lw=1.6, **st)
+                        # the value by colour and dash, the kind of line by width
+                        ax.plot(line.points[:, 0], line.points[:, 1],
+                                lw=1.6 if line.kind == "first-order" else 0.8, **st)
+                        kinds.add(line.kind)
                 if len(m.critical_points):
                     put("critical_points", m.critical_points)
                     ax.plot(m.critical_points[:, 0], m.critical_points[:, 1], "o", ms=5,
@@ -922,6 +925,10 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
             ax.set_ylabel(r"$P/P_c$" if red else r"pressure $P$")
             handles.append(Line2D([], [], color="0.3", marker="o", ls="", ms=5,
                                   label="critical point"))
+            thin = sorted(k.replace("-", " ") for k in kinds - {"first-order"})
+            if thin:
+                handles.append(Line2D([], [], color="0.3", lw=0.8,
+                                      label=f"thin: {', '.join(thin)}"))
         elif kind == "tr":
             if lims:
                 ax.set_ylim(0, max(lims))
