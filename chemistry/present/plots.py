@@ -817,7 +817,7 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
         raise TypeError(f"plot_overlay draws OverlayData (bhchem.analysis.figure_data."
                         f"overlay_data), not {type(data).__name__}")
     from matplotlib.lines import Line2D  # lazy: matplotlib only when a figure is drawn
-    kind, drawn, labels, handles, kinds = data.kind, {}, {}, [], set()
+    kind, drawn, labels, handles, kinds, off = data.kind, {}, {}, [], set(), False
     fixed = ", ".join(f"{k}={v:g}" for k, v in data.parameters.items())
     with canvas(ax, figsize=(5.2, 3.8)) as (fig, ax):
         lims = []
@@ -875,8 +875,10 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
                         kinds.add(line.kind)
                 if len(m.critical_points):
                     put("critical_points", m.critical_points)
-                    ax.plot(m.critical_points[:, 0], m.critical_points[:, 1], "o", ms=5,
-                            color=st["color"], zorder=6)
+                    for (T, P), on in zip(m.critical_points, m.critical_on_preferred):
+                        ax.plot([T], [P], "o", ms=5, color=st["color"], zorder=6,
+                                markerfacecolor=st["color"] if on else "white")
+                        off = off or not on
                 if len(m.triple_points):
                     put("triple_points", m.triple_points)
                     ax.plot(m.triple_points[:, 0], m.triple_points[:, 1], "^", ms=6,
@@ -925,6 +927,10 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
             ax.set_ylabel(r"$P/P_c$" if red else r"pressure $P$")
             handles.append(Line2D([], [], color="0.3", marker="o", ls="", ms=5,
                                   label="critical point"))
+            if off:
+                handles.append(Line2D([], [], color="0.3", marker="o", ls="", ms=5,
+                                      markerfacecolor="white",
+                                      label="critical point (not on the preferred branch)"))
             thin = sorted(k.replace("-", " ") for k in kinds - {"first-order"})
             if thin:
                 handles.append(Line2D([], [], color="0.3", lw=0.8,
