@@ -1013,7 +1013,7 @@ def _member_options(th, kind: str, options: dict) -> dict:
     return opts
 
 
-# -- reduced variables -----------------------------------------------------------------------------
+# -- reduced variables ----------------------------------------------------------------------
 def reduced(data, th=None):
     """The same figure data in units of the critical point: v/v_c, P/P_c, T/T_c (and
     x/x_c for T-r+ curves).  For ``pv`` and ``tr`` the critical point is the data's own;

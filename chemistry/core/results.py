@@ -92,8 +92,8 @@ def html_table(columns, rows, limit: int = MAX_HTML_ROWS) -> str:
     body = "".join("<tr>" + "".join(f"<td>{esc(cell(v))}</td>" for v in r) + "</tr>"
                    for r in rows[:limit])
     more = len(rows) - limit
-    tail = f"<tr><td colspan='{len(columns)}'>… {more} more rows (to_frame() has all)</td></tr>" \
-        if more > 0 else ""
+    tail = (f"<tr><td colspan='{len(columns)}'>… {more} more rows (to_frame() has all)"
+            "</td></tr>") if more > 0 else ""
     return f"<table><thead><tr>{head}</tr></thead><tbody>{body}{tail}</tbody></table>"
 
 

@@ -39,7 +39,8 @@ from bhchem.present.style import (LINE_COLOR, LINE_STYLE, PALETTE, STABLE_GREY, 
 KINDS = FIGURE_KINDS
 
 __all__ = ["KINDS", "PLOTTERS", "EmptyFigureError", "PlotResult", "FigureTable", "COLUMNS",
-           "figure_table", "table_path", "save", "adjust", "parse_width", "parse_range", "WIDTHS", "canvas", "figure_of",
+           "figure_table", "table_path", "save", "adjust", "parse_width", "parse_range", "WIDTHS",
+           "canvas", "figure_of",
            "plot_pv", "plot_gt", "plot_pt", "plot_tr", "plot_cp", "plot_overlay",
            "value_style",
            # the style, re-exported for the callers of this module
@@ -779,7 +780,7 @@ def plot_cp(data: CpCurves, ax=None) -> PlotResult:
 
 
 # -- overlays over a parameter -------------------------------------------------------------------
-#: dash patterns of the values of an overlay, with the colours of PALETTE (grey print stays legible)
+#: dash patterns of the values of an overlay, with the colours of PALETTE (legible in grey)
 VALUE_DASHES = ["-", (0, (5, 2)), (0, (1, 1.5)), (0, (6, 2, 1, 2)), (0, (3, 1, 1, 1, 1, 1))]
 
 
