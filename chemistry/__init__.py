@@ -44,7 +44,7 @@ from bhchem.core.compiled import State, Thermodynamics, bind
 from bhchem.core.ensemble import EnsembleError, fixed_potential_family
 from bhchem.core.checks import FirstLawResult, SmarrResult, check_first_law, check_smarr
 from bhchem.analysis.critical import (CriticalPoint, CriticalSearch, find_critical_points,
-                                      resolve_pressure)
+                                      resolve_pressure, resolve_temperature)
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.critical_scan import CriticalScan, critical_scan
 from bhchem.analysis.exponents import ExponentResult, critical_exponents, exact_exponents
@@ -62,10 +62,12 @@ from bhchem.analysis.metric_route import (MetricDiagnosis, PhotonJumps, PhotonSp
                                           RouteComparison, compare_routes, diagnose_metric,
                                           diagram_photon_jumps, photon_sphere,
                                           photon_sphere_jumps)
-from bhchem.analysis.figure_data import (CpCurves, GtCurves, PtDiagram, PvCurves, TrCurves,
-                                         cp_curves, gt_curves, pt_diagram, pv_curves, tr_curves)
-from bhchem.present.plots import (EmptyFigureError, PlotResult, plot_cp, plot_gt, plot_pt,
-                                  plot_pv, plot_tr, save)
+from bhchem.analysis.figure_data import (CpCurves, GtCurves, OverlayData, PtDiagram, PvCurves,
+                                         TrCurves, cp_curves, gt_curves, overlay_data,
+                                         pt_diagram, pv_curves, tr_curves)
+from bhchem.analysis.figure_data import reduced as reduced_units
+from bhchem.present.plots import (EmptyFigureError, FigureTable, PlotResult, adjust, plot_cp,
+                                  plot_gt, plot_overlay, plot_pt, plot_pv, plot_tr, save)
 from bhchem.analysis.ensembles import EnsembleComparison, EnsembleSide, compare_ensembles
 from bhchem.workflows.figures import compare_figure, make_figure
 
@@ -90,7 +92,7 @@ __all__ = [
     "FirstLawResult", "SmarrResult", "check_first_law", "check_smarr",
     # analyses and their results
     "CriticalPoint", "CriticalSearch", "find_critical_points", "find_critical_points_on_branches",
-    "resolve_pressure",
+    "resolve_pressure", "resolve_temperature",
     "CriticalScan", "critical_scan",
     "ExponentResult", "critical_exponents", "exact_exponents",
     "IsobarResult", "Transition", "analyze_isobar",
@@ -103,6 +105,8 @@ __all__ = [
     "cp_curves", "gt_curves", "pt_diagram", "pv_curves", "tr_curves",
     "EmptyFigureError", "PlotResult", "plot_cp", "plot_gt", "plot_pt", "plot_pv",
     "plot_tr", "save", "make_figure",
+    # overlays over a parameter, reduced variables, axis ranges and width, the data table
+    "OverlayData", "overlay_data", "plot_overlay", "reduced_units", "adjust", "FigureTable",
     # errors
     "BhchemError", "BhchemWarning", "DuplicateFamilyError", "FamilyFileReloaded",
     "InconsistentFamilyWarning", "InvalidArgumentError", "ResidualBoundWarning", "MalformedFamilyError",

@@ -175,6 +175,11 @@ def test_cli_engine_json_and_figure(capsys, tmp_path):
     assert doc["work"] == pytest.approx(0.002 * (V2 - V1), rel=1e-12)
     assert doc["efficiency"] < doc["carnot"]
     assert fig.stat().st_size > 10_000 and "wrote" in err
+    # the cycle's curves beside the figure: each side in the P-V plane, as drawn
+    table = (tmp_path / "cycle.csv").read_text().splitlines()
+    assert "curve,V,P" in table and f"its data {tmp_path / 'cycle.csv'}" in err
+    side0 = [tuple(map(float, r.split(",")[1:])) for r in table if r.startswith("side_0,")]
+    assert side0[0] == pytest.approx((V1, 0.004), rel=1e-12)
     # relative pressures work too; text output names the sides
     args = _parser().parse_args(["engine", "rn-ads", "--cycle",
                                  f"1.2Pc,{V1!r} 1.2Pc,{V2!r} 0.6Pc,{V2!r} 0.6Pc,{V1!r}"])

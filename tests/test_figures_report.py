@@ -10,6 +10,8 @@ import pytest
 from bhchem import bind
 from bhchem.cli.main import main
 from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.figure_data import pt_diagram
+from bhchem.analysis.isobar import analyze_isobar as bhchem_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.plots import EmptyFigureError, save
 from bhchem.workflows.figures import make_figure
@@ -44,6 +46,22 @@ def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
     assert res.data["critical_points"][0] == pytest.approx([TC, PC], rel=1e-12)
     save(res, tmp_path / "pt.png")
     _nonblank(tmp_path / "pt.png")
+    # every region holding a phase is named, the one above P_c as what it is
+    assert {t.get_text() for t in res.figure.axes[0].texts} == {"small", "large", "supercritical"}
+    data = pt_diagram(rn, diagram=pd)
+    (Tsc, Psc, _), = [r for r in data.regions if r[2] == "supercritical"]
+    assert Psc > PC and Tsc < data.limits[0]
+    for T, P, name in data.regions:  # each name is written where that phase is preferred
+        if name != "supercritical":
+            assert [ph for lo, hi, ph in bhchem_isobar(rn, P).preferred if lo <= T <= hi] == [name]
+    # the legend sits below the plane, not beside it
+    legend = res.figure.axes[0].get_legend()
+    assert legend.get_bbox_to_anchor().y0 < res.figure.axes[0].bbox.y0
+    # the notebook view of the same diagram: one row per line, its ends
+    columns, rows = pd.table_rows()
+    assert len(rows) == 1 and rows[0][0] == "first-order" and rows[0][2] == len(drawn)
+    assert rows[0][6:8] == pytest.approx(tuple(drawn[-1])) and rows[0][8] == "critical point"
+    assert "<table>" in pd._repr_html_() and len(repr(pd)) < 200
 
 
 def test_pv_isotherms_are_the_equation_of_state(rn, tmp_path):
@@ -298,3 +316,311 @@ def test_plot_gt_draws_one_panel_per_given_axes(figure_inputs):
     for i, ax in enumerate(axes):
         assert ax.get_xlim() == pytest.approx(data.panels[i].T_window)
     assert axes[-1].get_legend() is not None
+
+
+# -- the data of every figure, beside it as CSV -------------------------------------------------
+def _read_table(text):
+    """CSV text of a figure table -> (comments, header, {curve: rows array})."""
+    import csv
+    import io
+    lines = text.splitlines()
+    comments = [ln[2:] for ln in lines if ln.startswith("# ")]
+    reader = csv.reader(io.StringIO("\n".join(ln for ln in lines if not ln.startswith("#"))))
+    header = next(reader)
+    curves = {}
+    for row in reader:
+        curves.setdefault(row[0], []).append([float(v) for v in row[1:]])
+    return comments, header, {k: np.array(v) for k, v in curves.items()}
+
+
+def _drawn_figures(figure_inputs, rn):
+    from bhchem.present.analysis_plots import plot_curvature, plot_cycle
+    from bhchem.present.plots import PLOTTERS
+    for kind in ("pv", "gt", "pt", "tr", "cp"):
+        yield PLOTTERS[kind](figure_inputs[kind])
+    yield plot_cycle(figure_inputs["cycle"])
+    yield plot_curvature(figure_inputs["curvature"], rn)
+
+
+def test_every_figure_table_holds_exactly_the_drawn_curves(figure_inputs, rn):
+    """Each (n, 2) array a plot drew is in its table, bit for bit after a CSV round trip,
+    under its own name, with the columns named by the kind's conventions."""
+    for res in _drawn_figures(figure_inputs, rn):
+        comments, header, curves = _read_table(res.table.csv())
+        assert header[0] == "curve" and len(header) >= 3, res.kind
+        assert "units: G = c = hbar = k_B = 1" in comments
+        assert any(c.startswith(f"bhchem figure {res.kind}: rn-ads") for c in comments)
+        source = res.data if res.table_data is None else res.table_data
+        for name, arr in source.items():
+            a = np.asarray(arr, float)
+            if a.size == 0 or (a.ndim == 2 and a.shape[1] != len(header) - 1):
+                continue
+            a = a.reshape(-1, len(header) - 1)
+            np.testing.assert_array_equal(curves[name], a, err_msg=f"{res.kind} {name}")
+    pv = next(_drawn_figures(figure_inputs, rn))
+    assert pv.kind == "pv" and pv.table.columns == ("curve", "v", "P")
+    T0 = figure_inputs["pv"].temperatures[0]
+    assert f"curve isotherm_0: T = {T0:.10g}" in " ".join(pv.table.comments)
+
+
+def test_curvature_table_is_the_grid_and_the_curves(figure_inputs, rn):
+    from bhchem.present.analysis_plots import plot_curvature
+    cmap = figure_inputs["curvature"]
+    t = plot_curvature(cmap, rn).table
+    assert t.columns == ("curve", "v", "T", "R_N")
+    grid = np.array([r[1:] for r in t.rows if r[0] == "R_N"])
+    assert len(grid) == cmap.R_N.size
+    j, i = 7, 11  # R_N[j, i] is at T[j], v[i]
+    row = grid[j * len(cmap.v) + i]
+    assert row[0] == cmap.v[i] and row[1] == cmap.T[j]
+    assert row[2] == cmap.R_N[j, i] or (np.isnan(row[2]) and np.isnan(cmap.R_N[j, i]))
+
+
+def test_save_with_table_writes_both_or_neither(figure_inputs, tmp_path):
+    from bhchem.present.plots import PLOTTERS, table_path
+    res = PLOTTERS["tr"](figure_inputs["tr"])
+    path = save(res, tmp_path / "tr.svg", table=True)
+    assert table_path(path) == str(tmp_path / "tr.csv")
+    assert (tmp_path / "tr.csv").read_text() == res.table.csv()
+    assert sorted(os.listdir(tmp_path)) == ["tr.csv", "tr.svg"]
+
+    class Broken(RuntimeError):
+        pass
+
+    def fail(*a, **k):
+        raise Broken("disk full")
+    res.figure.savefig = fail  # the figure fails half-way: no table, no figure, no temporary
+    with pytest.raises(Broken):
+        save(res, tmp_path / "again.png", table=True)
+    assert sorted(os.listdir(tmp_path)) == ["tr.csv", "tr.svg"]
+
+
+def test_to_frame_without_pandas_is_one_clear_line(figure_inputs, monkeypatch):
+    import sys
+    from bhchem.errors import BhchemError
+    from bhchem.present.plots import PLOTTERS
+    res = PLOTTERS["cp"](figure_inputs["cp"])
+    monkeypatch.setitem(sys.modules, "pandas", None)
+    with pytest.raises(BhchemError, match=r"needs pandas: pip install 'bhchem\[notebook\]'"):
+        res.to_frame()
+
+
+def test_bundle_and_cli_figures_come_with_their_data(bundle, tmp_path, capsys):
+    for kind in ("pv", "gt", "pt", "tr", "cp"):
+        comments, header, curves = _read_table((bundle / f"{kind}.csv").read_text())
+        assert curves and header[0] == "curve", kind
+        assert not (bundle / f"{kind}.pdf.csv").exists()
+    _, header, curves = _read_table((bundle / "pt.csv").read_text())
+    assert header == ["curve", "T", "P"]
+    line = curves["line0_first-order"]
+    assert np.all(np.diff(line[:, 0]) > 0) and line[-1, 1] == pytest.approx(PC, rel=1e-6)
+    out = tmp_path / "cp.png"
+    assert main(["plot", "cp", "rn-ads", "-p", "Q=1", "--pressure", "0.5Pc", "-o", str(out)]) == 0
+    assert f"its data {tmp_path / 'cp.csv'}" in capsys.readouterr().out
+    _, header, curves = _read_table((tmp_path / "cp.csv").read_text())
+    assert header == ["curve", "r_plus", "C_P"] and len(curves) >= 2
+    (tmp_path / "x.csv").mkdir()  # the data file would replace a folder: refused first
+    assert main(["plot", "cp", "rn-ads", "-o", str(tmp_path / "x.png")]) == 2
+    assert "would replace a folder" in capsys.readouterr().err
+    assert not (tmp_path / "x.png").exists()
+
+
+# -- control over what is drawn ------------------------------------------------------------------
+def test_pv_temperatures_absolute_or_relative_to_tc(rn):
+    import bhchem
+    from bhchem.errors import BhchemError
+    assert bhchem.resolve_temperature(rn, "0.9Tc") == pytest.approx(0.9 * TC, rel=1e-12)
+    assert bhchem.resolve_temperature(rn, 0.045) == 0.045
+    for bad in ("0.9Tq", "Tc2", "-1", None):
+        with pytest.raises(BhchemError):
+            bhchem.resolve_temperature(rn, bad)
+    res = make_figure(rn, "pv", temperatures=["1.02Tc", 0.045])  # above T_c: no equal area
+    lines = [ln for ln in res.table.comments if ln.startswith("curve isotherm")]
+    assert len(lines) == 2 and "T/T_c = 1.02)" in lines[0] and "T = 0.045 " in lines[1]
+    v, P = res.data["isotherm_1"].T  # the drawn isotherm is the equation of state at T
+    ok = np.isfinite(P)
+    T = rn.T(v[ok] / 2, P[ok])  # v = 2 r+ in 4D
+    np.testing.assert_allclose(T, 0.045, rtol=1e-10)
+
+
+def test_axis_ranges_and_journal_width(figure_inputs, tmp_path):
+    import matplotlib.image as mpimg
+    from bhchem.present.plots import PLOTTERS, adjust
+    res = adjust(PLOTTERS["pt"](figure_inputs["pt"]), xlim="0:0.05", ylim=(0, 0.004),
+                 width="column")
+    ax = res.figure.axes[0]
+    assert ax.get_xlim() == (0.0, 0.05) and ax.get_ylim() == (0.0, 0.004)
+    save(res, tmp_path / "pt.png")
+    assert mpimg.imread(tmp_path / "pt.png").shape[1] == round(3.4 * 200)  # savefig.dpi 200
+    res = adjust(PLOTTERS["gt"](figure_inputs["gt"]), width=7.0)
+    save(res, tmp_path / "gt.png")
+    assert mpimg.imread(tmp_path / "gt.png").shape[1] == 1400
+    _nonblank(tmp_path / "gt.png")
+
+
+def test_one_gt_pressure_gets_one_full_panel(rn):
+    res = make_figure(rn, "gt", pressures=[0.5 * PC])
+    visible = [a for a in res.figure.axes if a.get_visible()]
+    assert len(visible) == 1 and not res.figure.legends
+    assert visible[0].get_legend() is not None and "P/P_c=0.5" in visible[0].get_title()
+    assert tuple(res.figure.get_size_inches()) == (5.2, 3.8)
+
+
+@pytest.mark.parametrize("extra, message", [
+    (["--width", "wide"], "use column, page or a number of inches"),
+    (["--xlim", "1:0"], "needs finite A < B"),
+    (["--ylim", "a:b"], "give two numbers"),
+    (["--temperature", "0.9Tc", "--kind-check"], None),
+])
+def test_cli_plot_view_options_refused_in_one_line(extra, message, capsys, tmp_path):
+    if message is None:  # --temperature on a figure without isotherms
+        args = ["plot", "gt", "rn-ads", "--temperature", "0.9Tc", "-o", str(tmp_path / "f.png")]
+        message = "--temperature applies to pv plots"
+    else:
+        args = ["plot", "pv", "rn-ads", *extra, "-o", str(tmp_path / "f.png")]
+    assert main(args) == 2
+    err = capsys.readouterr().err
+    assert message in err and "Traceback" not in err and len(err.strip().splitlines()) == 1
+    assert not list(tmp_path.iterdir())
+
+
+# -- overlays over a parameter ---------------------------------------------------------------------
+@pytest.fixture(scope="module")
+def overlays(rn):
+    """tr and pv overlays of rn-ads over Q, computed once."""
+    return {kind: make_figure(rn, kind, vary="Q=0.5,1", **opts) for kind, opts in
+            (("tr", {"pressures": ["0.8Pc"]}), ("pv", {"temperatures": ["0.9Tc"]}))}
+
+
+def _line_data(fig):
+    return [np.column_stack(l.get_data()).astype(float) for a in fig.axes for l in a.get_lines()]
+
+
+def test_overlay_draws_each_values_own_curves(overlays):
+    """Each drawn curve equals the one computed for its value alone, at that value's own
+    P_c = 1/(96 pi Q^2) and T_c = sqrt(6)/(18 pi Q) (Kubiznak & Mann 2012)."""
+    from bhchem.analysis.figure_data import tr_curves
+    tr, pv = overlays["tr"], overlays["pv"]
+    lines = _line_data(tr.figure)
+    for Q in (0.5, 1.0):
+        th = bind("rn-ads", Q=Q)
+        alone = tr_curves(th, pressures=[0.8 * PC / Q**2])
+        branches = alone.isobars[0]
+        assert alone.pressures[0] == pytest.approx(0.8 / (96 * math.pi * Q**2), rel=1e-12)
+        for b in branches:
+            key = f"Q={Q:g}/branch{b.index}"
+            np.testing.assert_allclose(tr.data[key], b.curve, rtol=1e-12)
+            assert any(l.shape == b.curve.shape and np.allclose(l, b.curve, equal_nan=True)
+                       for l in lines), key
+        iso = pv.data[f"Q={Q:g}/isotherm_0"]
+        ok = np.isfinite(iso[:, 1])
+        np.testing.assert_allclose(th.T(iso[ok, 0] / 2, iso[ok, 1]), 0.9 * TC / Q, rtol=1e-10)
+        np.testing.assert_allclose(pv.data[f"Q={Q:g}/critical_point"],
+                                   [2 * math.sqrt(6) * Q, PC / Q**2], rtol=1e-9)
+    legend = [t.get_text() for t in tr.figure.axes[0].get_legend().get_texts()]
+    assert legend[:2] == ["$Q = 0.5$, $P/P_c=0.8$", "$Q = 1$, $P/P_c=0.8$"]
+    assert "rn-ads (d=4, Q varied)" == tr.figure.axes[0].get_title()
+
+
+@pytest.mark.parametrize("kind", ["gt", "pt", "cp"])
+def test_overlay_of_every_kind_draws_its_members(figure_inputs, kind):
+    """Drawing only (the data per value is tested above): every member curve is drawn."""
+    from bhchem.analysis.figure_data import OverlayData
+    from bhchem.present.plots import plot_overlay
+    m = figure_inputs[kind]
+    res = plot_overlay(OverlayData("rn-ads", {"d": 4}, kind, "Q", (1.0, 1.5), (m, m)))
+    lines = _line_data(res.figure)
+    for key, arr in res.data.items():
+        a = np.asarray(arr, float)
+        if key.endswith(("critical_points", "triple_points")) or a.ndim != 2 or len(a) < 2:
+            continue
+        assert any(l.shape == a.shape and np.allclose(l, a, equal_nan=True) for l in lines), key
+    assert {k.split("/")[0] for k in res.data} == {"Q=1", "Q=1.5"}
+    assert len(res.table.rows) == sum(len(np.atleast_2d(v)) for v in res.data.values()
+                                      if np.size(v))
+
+
+def test_overlay_styles_are_per_value_and_the_same_in_every_kind(overlays):
+    from matplotlib.colors import to_hex
+    from bhchem.present.plots import value_style
+    for res in overlays.values():
+        handles = res.figure.axes[0].get_legend().legend_handles
+        for j in range(2):
+            assert to_hex(handles[j].get_color()) == to_hex(value_style(j)["color"])
+    assert value_style(0) != value_style(1)
+
+
+def test_overlay_table_names_each_curve_by_its_value(overlays):
+    _, header, curves = _read_table(overlays["tr"].table.csv())
+    assert header == ["curve", "r_plus", "T"]
+    assert {k.split("/")[0] for k in curves} == {"Q=0.5", "Q=1"}
+    assert "curve Q=1/branch0: Q = 1.0" in overlays["tr"].table.comments
+
+
+@pytest.mark.parametrize("spec, message", [
+    ("Q", "must look like NAME=V1,V2"), ("Q=a,b", "must look like NAME=V1,V2"),
+    ("Q=0:1:20", "N from 1 to 8"), ("nope=1,2", "has no parameter 'nope'"),
+])
+def test_cli_vary_refused_in_one_line(spec, message, capsys, tmp_path):
+    assert main(["plot", "tr", "rn-ads", "--vary", spec, "-o", str(tmp_path / "f.png")]) == 2
+    err = capsys.readouterr().err
+    assert message in err and len(err.strip().splitlines()) == 1
+    assert not list(tmp_path.iterdir())
+
+
+def test_vary_grid_spec():
+    from bhchem.workflows.figures import parse_vary
+    assert parse_vary("a=0:1:3") == ("a", (0.0, 0.5, 1.0))
+    assert parse_vary("b=log:0.1:10:3") == ("b", pytest.approx((0.1, 1.0, 10.0)))
+    assert parse_vary(("Q", [1, 2])) == ("Q", (1.0, 2.0))
+
+
+def test_cp_axis_has_no_kink(figure_inputs):
+    """The C_P axis is asinh (smooth): its slope is continuous where symlog's jumps."""
+    from bhchem.present.plots import PLOTTERS
+    data = figure_inputs["cp"]
+    ax = PLOTTERS["cp"](data).figure.axes[0]
+    assert ax.get_yscale() == "asinh"
+    tr = ax.yaxis.get_transform()
+    w, h = data.linthresh, 1e-6 * data.linthresh
+    slope = [float((tr.transform([[y + h]]) - tr.transform([[y - h]]))[0, 0]) / (2 * h)
+             for y in (w * 0.999, w * 1.001)]
+    assert slope[0] == pytest.approx(slope[1], rel=1e-2)
+    ticks = [t for t in ax.get_yticks() if t != 0]
+    assert all(abs(t) >= 3 * w for t in ticks)  # no tick labels crowding the linear part
+
+
+# -- reduced variables ---------------------------------------------------------------------------
+def test_reduced_variables_divide_by_the_critical_point(figure_inputs, rn):
+    from bhchem.analysis.figure_data import reduced
+    from bhchem.present.plots import PLOTTERS
+    pv = figure_inputs["pv"]
+    vc, Pc = pv.critical_point
+    assert vc == pytest.approx(2 * math.sqrt(6)) and Pc == pytest.approx(PC)
+    red = reduced(pv)
+    np.testing.assert_array_equal(red.isotherms[0], pv.isotherms[0] / np.array([vc, Pc]))
+    assert red.temperatures[0] == pytest.approx(0.85)
+    res = PLOTTERS["pv"](red)
+    ax = res.figure.axes[0]
+    assert (ax.get_xlabel(), ax.get_ylabel()) == ("$v/v_c$", "$P/P_c$")
+    assert res.table.columns == ("curve", "v/v_c", "P/P_c")
+    tr = reduced(figure_inputs["tr"])
+    assert tr.critical_point.tolist() == [1.0, 1.0] and tr.pressures[2] == pytest.approx(1.0)
+    pt = PLOTTERS["pt"](reduced(figure_inputs["pt"], rn))
+    assert pt.data["critical_points"][0] == pytest.approx([1.0, 1.0], rel=1e-12)
+    assert pt.table.columns == ("curve", "T/T_c", "P/P_c")
+    from bhchem.errors import BhchemError
+    with pytest.raises(BhchemError, match="not CpCurves"):
+        reduced(figure_inputs["cp"])
+
+
+def test_reduced_overlay_over_a_pure_scale_is_one_curve(rn):
+    """Q only sets the scale of 4D charged AdS: in reduced variables the isobars at the same
+    P/P_c coincide (scale invariance, Kubiznak & Mann 2012)."""
+    from bhchem.analysis.figure_data import overlay_data
+    ov = overlay_data(rn, "tr", "Q", [0.5, 2.0], reduced_units=True, pressures=["0.6Pc"])
+    a, b = (m.isobars[0] for m in ov.members)
+    assert len(a) == len(b)
+    for ba, bb in zip(a, b):
+        np.testing.assert_allclose(ba.curve, bb.curve, rtol=1e-9, atol=1e-12)
+    assert "the curves coincide" in " ".join(ov.notes)

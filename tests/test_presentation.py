@@ -142,7 +142,7 @@ def test_report_folder_and_files_get_umask_permissions(tmp_path, monkeypatch, um
     out = rep.write_report(th, tmp_path / "bundle")
     assert _mode(out) == 0o777 & ~mask
     names = sorted(os.listdir(out))
-    assert names == ["report.md", "results.json", "tables.tex", "tr.pdf", "tr.png"]
+    assert names == ["report.md", "results.json", "tables.tex", "tr.csv", "tr.pdf", "tr.png"]
     for name in names:
         assert _mode(os.path.join(out, name)) == 0o666 & ~mask, name
     # replacing it keeps the same rule and leaves nothing beside it

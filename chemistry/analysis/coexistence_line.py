@@ -45,6 +45,12 @@ class CoexistenceCurve(Result):
     def complete(self) -> bool:
         return not self.failed_pressures
 
+    def table_rows(self):
+        """One row per coexistence point: P, T, G, latent heat, Delta v and residuals."""
+        return (("P", "T", "G", "latent_heat", "delta_v", "residual_T", "residual_G"),
+                [(p.P, p.T, p.G, p.latent_heat, p.delta_v, p.residual_T, p.residual_G)
+                 for p in self.points])
+
 
 def coexistence_curve(th: Thermodynamics, pressures, critical_point=None, n_anchor: int = 8,
                       checks: bool = False) -> CoexistenceCurve:

@@ -191,6 +191,13 @@ class CriticalSearch(Result):
         """Physical, non-degenerate, converged critical points (the ones the message counts)."""
         return tuple(p for p in self.points if counts_as_critical_point(p))
 
+    def table_rows(self):
+        """One row per critical point: kind, T, P, v, x, physical, on the preferred
+        branch, converged."""
+        return (("kind", "T", "P", "v", "x", "physical", "on_preferred_branch", "converged"),
+                [(c.kind, c.T, c.P, c.v, c.x, c.physical, c.on_preferred_branch, c.converged)
+                 for c in self.points])
+
 
 def counts_as_critical_point(cp: CriticalPoint) -> bool:
     """Whether a solution of the critical conditions is a physical critical point: in the
@@ -326,6 +333,62 @@ def resolve_pressure(th: Thermodynamics, value) -> float:
         raise StateDomainError(f"pressure {value!r} is not positive and finite: there is no "
                                "AdS black hole (P = -Lambda/8pi > 0)")
     return P
+
+
+def resolve_temperature(th: Thermodynamics, value) -> float:
+    """One temperature, absolute or relative to a critical point, as a float.
+
+    Parameters
+    ----------
+    th : Thermodynamics
+    value : float or str
+        A number (``0.04``), its text, or a multiple of the temperature of a physical
+        critical point: ``'0.9Tc'`` (of the lowest by pressure, as ``'0.9Pc'``), ``'0.9Tc2'``.
+
+    Returns
+    -------
+    float
+        T > 0.
+
+    Raises
+    ------
+    InvalidArgumentError
+        Malformed text, a non-number, or a relative temperature without that critical point.
+    StateDomainError
+        A temperature that is not a positive finite number.
+
+    Examples
+    --------
+    >>> from bhchem import bind
+    >>> th = bind("rn-ads", Q=1.0)
+    >>> resolve_temperature(th, "Tc") == find_critical_points(th).physical[0].T
+    True
+    """
+    if isinstance(value, (bool, np.bool_)) or value is None:
+        raise InvalidArgumentError(f"temperature {value!r} must be a number or text like 0.9Tc")
+    if isinstance(value, str):
+        factor, sep, which = value.strip().partition("Tc")
+        try:
+            T = (float(factor) if factor.strip() else 1.0) if sep else float(value)
+            idx = int(which) if which.strip() else 1
+        except ValueError:
+            raise InvalidArgumentError(f"temperature {value!r} must look like 0.04 or 0.9Tc "
+                                       "(or 0.9Tc2)") from None
+        if sep:
+            cps = find_critical_points(th).physical
+            if not 1 <= idx <= len(cps):
+                raise InvalidArgumentError(
+                    f"temperature {value!r} is relative to critical point {idx}, but "
+                    f"{th.family.name} has {len(cps)} at these parameters; give T directly")
+            T *= cps[idx - 1].T
+    elif isinstance(value, (int, float, np.integer, np.floating)):
+        T = float(value)
+    else:
+        raise InvalidArgumentError(f"temperature must be a number or text like 0.9Tc, not "
+                                   f"{type(value).__name__}")
+    if not (math.isfinite(T) and T > 0):
+        raise StateDomainError(f"temperature {value!r} is not positive and finite")
+    return T
 
 
 def resolve_pressure_range(th: Thermodynamics, value) -> tuple:

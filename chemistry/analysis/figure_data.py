@@ -27,13 +27,14 @@ hold NaN there (a gap when drawn).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from bhchem.core.compiled import bind
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError
-from bhchem.analysis.critical import loop_side
+from bhchem.analysis.critical import loop_side, resolve_pressure, resolve_temperature
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.numerics import brentq, isotherm_pressure
@@ -77,6 +78,8 @@ class PvCurves(Result):
     T_c: float | None
     critical_point: np.ndarray | None
     notes: tuple = ()
+    #: in units of the critical point (v/v_c, P/P_c, T/T_c): see :func:`reduced`
+    reduced: bool = False
 
 
 @dataclass(frozen=True, eq=False)
@@ -232,11 +235,17 @@ class PtDiagram(Result):
     limits : (float, float) or None
         (T_max, P_max) of the axes (None when no line has a point).
     regions : tuple of (float, float, str)
-        (T, P, phase name) where each preferred phase's name is written.
+        (T, P, name) where the name of each region holding a preferred phase is written:
+        the phase's name, or ``supercritical`` for a phase that no line separates from
+        another and that lies above a critical point (the continuation of the phases that
+        meet there).  Never inside the inset (:data:`INSET_AXES`).
     inset_box : (float, float, float, float) or None
         (T_lo, T_hi, P_lo, P_hi) of a zoom inset around small features (zeroth-order
         lines, triple and terminal points), or None when they are readable as they are.
     notes : tuple of str
+    pointers : tuple of (float, float, str, float, float)
+        (T, P, name, T_text, P_text): a region too narrow for its name, named from
+        (T_text, P_text) with an arrow to (T, P).
     """
 
     family: str
@@ -250,6 +259,13 @@ class PtDiagram(Result):
     regions: tuple
     inset_box: tuple | None
     notes: tuple = ()
+    pointers: tuple = ()
+    #: in units of a critical point (T/T_c, P/P_c): see :func:`reduced`
+    reduced: bool = False
+
+
+#: where the zoom inset of a P-T figure sits, in axes fractions (x0, y0, width, height)
+INSET_AXES = (0.17, 0.56, 0.34, 0.36)
 
 
 @dataclass(frozen=True, eq=False)
@@ -307,6 +323,8 @@ class TrCurves(Result):
     #: states excluded by a condition (ExcludedCurve, rows x, T), when asked for
     excluded: tuple = ()
     super_entropic: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
+    #: in units of the critical point (x/x_c, T/T_c, P/P_c): see :func:`reduced`
+    reduced: bool = False
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -388,14 +406,18 @@ def pv_curves(th, temperatures=None) -> PvCurves:
     Parameters
     ----------
     th : Thermodynamics
-    temperatures : sequence of float, optional
-        Default 0.85, 0.92, 0.97, 1, 1.05, 1.12 T_c (without a critical point: 0.7, 1,
-        1.5, 2.2 times the family's typical temperature).
+    temperatures : sequence of float or str, optional
+        Absolute, or relative to a critical point like pressures (``'0.9Tc'``, see
+        :func:`bhchem.analysis.critical.resolve_temperature`).  Default 0.85, 0.92, 0.97, 1,
+        1.05, 1.12 T_c (without a critical point: 0.7, 1, 1.5, 2.2 times the family's
+        typical temperature).
 
     Returns
     -------
     PvCurves
     """
+    if temperatures is not None:
+        temperatures = [resolve_temperature(th, T) for T in temperatures]
     cp = scale_point(th)
     if cp is not None:
         Ts = temperatures or [f * cp.T for f in (0.85, 0.92, 0.97, 1.0, 1.05, 1.12)]
@@ -615,18 +637,18 @@ def pt_diagram(th, diagram=None) -> PtDiagram:
                          for cp in pd.critical_points)
     drawn = [ln.points for ln in lines if ln.points.size]
     allpts = np.vstack(drawn) if drawn else np.zeros((0, 2))
-    limits, regions, box = None, (), None
+    limits, regions, box, pointers = None, (), None, ()
     if np.any(np.isfinite(allpts)):
         Tmax = float(np.nanmax(allpts[:, 0])) * 1.25
         Pmax = float(np.nanmax(allpts[:, 1])) * 1.25
         limits = (Tmax, Pmax)
-        regions = _regions(th, Tmax, Pmax)
         box = _inset_box(pd, Tmax, Pmax)
+        regions, pointers = _regions(th, pd, Tmax, Pmax, box is not None)
     return PtDiagram(**_identity(th), lines=tuple(lines),
                      critical_points=np.array([[cp.T, cp.P] for cp in pd.critical_points]),
                      critical_on_preferred=on_preferred,
                      triple_points=np.array([[tp.T, tp.P] for tp in pd.triple_points]),
-                     limits=limits, regions=regions, inset_box=box)
+                     limits=limits, regions=regions, inset_box=box, pointers=pointers)
 
 
 def _inset_box(pd, Tmax, Pmax):
@@ -652,22 +674,74 @@ def _inset_box(pd, Tmax, Pmax):
     return (t0 - 0.6 * dt, t1 + 0.6 * dt, p0 - 0.6 * dp, p1 + 0.6 * dp)
 
 
-def _regions(th, Tmax, Pmax):
-    """(T, P, name): a point inside each preferred phase's region, on three isobars."""
-    placed, out = set(), []
-    for fy in (0.15, 0.45, 0.85):
-        P = fy * Pmax
-        try:
-            res = analyze_isobar(th, P)
-        except BhchemError:
+def _regions(th, pd, Tmax, Pmax, inset: bool):
+    """Where to name each region that holds a preferred phase: ``(regions, pointers)``.
+
+    For every phase of ``pd.regions``, isobars across its pressure range give the widest
+    T interval where it is preferred (clipped to the axes, outside the inset); a name is
+    written there when the interval is at least a tenth of the T axis, else pointed at
+    from free space.  A phase no line separates from another, above a critical point, is
+    named ``supercritical``."""
+    separated = {ph for line in pd.lines for ph in line.between}
+    P_crit = [cp.P for cp in pd.critical_points]
+    cache = {}
+
+    def preferred(P):
+        if P not in cache:
+            try:
+                cache[P] = analyze_isobar(th, P).preferred
+            except BhchemError:
+                cache[P] = ()
+        return cache[P]
+
+    def in_inset(T, P):
+        x0, y0, w, h = INSET_AXES
+        return inset and x0 - 0.05 <= T / Tmax <= x0 + w + 0.05 and \
+            y0 - 0.05 <= P / Pmax <= y0 + h + 0.05
+
+    regions, pointers, placed = [], [], []
+    for reg in pd.regions:
+        ph = reg["phase"]
+        lo, hi = max(reg["P_range"][0], 0.04 * Pmax), min(reg["P_range"][1], 0.96 * Pmax)
+        if not lo < hi:
             continue
-        for lo, hi, ph in res.preferred:
-            hi = min(hi, Tmax)
-            if ph in placed or hi - lo < 0.12 * Tmax:
-                continue
-            out.append((0.5 * (lo + hi), P, ph))
-            placed.add(ph)
-    return tuple(out)
+        name = ph
+        if ph not in separated and P_crit and reg["P_range"][0] >= min(P_crit) * (1 - 1e-6):
+            name = "supercritical"
+        best = None
+        for f in (0.5, 0.3, 0.7, 0.12, 0.88):  # ties keep the middle
+            P = lo + f * (hi - lo)
+            for a, b, p in preferred(P):
+                a, b = max(a, 0.0), min(b, Tmax)
+                if p != ph or b <= a:
+                    continue
+                for u in (0.5, 0.75, 0.25):  # the middle, else beside the inset or a label
+                    T = a + u * (b - a)
+                    if in_inset(T, P) or any(abs(T - t) < 0.12 * Tmax and abs(P - q) < 0.08 * Pmax
+                                             for t, q in placed):
+                        continue
+                    if best is None or b - a > best[0]:
+                        best = (b - a, T, P)
+                    break
+        if best is None:
+            continue
+        width, T, P = best
+        placed.append((T, P))
+        if width >= 0.1 * Tmax:
+            regions.append((T, P, name))
+        else:  # too narrow for its name: written away from it, with an arrow
+            spots = [(T + dx * Tmax, P + dy * Pmax) for dx, dy in
+                     ((0.14, -0.25), (-0.2, -0.25), (0.14, 0.2), (-0.2, 0.2), (-0.3, -0.4),
+                      (0.14, -0.12), (-0.2, -0.12))]
+            free = [(tx, ty) for tx, ty in spots
+                    if 0.12 * Tmax <= tx <= 0.88 * Tmax and 0.05 * Pmax <= ty <= 0.95 * Pmax
+                    and not in_inset(tx, ty)
+                    and all(abs(tx - t) >= 0.2 * Tmax or abs(ty - q) >= 0.1 * Pmax
+                            for t, q in placed[:-1])]
+            tx, ty = free[0] if free else spots[0]
+            placed.append((tx, ty))
+            pointers.append((T, P, name, tx, ty))
+    return tuple(regions), tuple(pointers)
 
 
 # -- T-r+ isobars and C_P --------------------------------------------------------------------
@@ -811,3 +885,197 @@ def figure_data(th, kind: str, **options):
     if kind not in FIGURE_DATA:
         raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(FIGURE_KINDS)}")
     return FIGURE_DATA[kind](th, **options)
+
+
+# -- overlays over a parameter -------------------------------------------------------------------
+@dataclass(frozen=True, eq=False, repr=False)
+class OverlayData(Result):
+    """The data of one figure kind at several values of one parameter (one curve family
+    per value, drawn on the same axes by :func:`bhchem.present.plots.plot_overlay`).
+
+    Attributes
+    ----------
+    family : str
+    parameters : dict
+        The parameters held fixed (the varied one is left out).
+    kind : str
+    name : str
+        The varied parameter.
+    values : tuple of float
+    members : tuple
+        The figure data (:class:`PvCurves`, ...) at each value, in the order of ``values``.
+    notes : tuple of str
+    """
+
+    family: str
+    parameters: dict
+    kind: str
+    name: str
+    values: tuple
+    members: tuple
+    notes: tuple = ()
+
+
+def overlay_data(th, kind: str, name: str, values, reduced_units: bool = False,
+                 **options) -> OverlayData:
+    """The data of the figure ``kind`` at each value of the parameter ``name``.
+
+    Relative temperatures and pressures (``'0.9Tc'``, ``'0.5Pc'``) are resolved at each
+    value against that value's own critical point, so the curves compare corresponding
+    states.  Defaults: ``pv`` one isotherm at 0.9 T_c; ``gt``, ``tr``, ``cp`` one pressure,
+    0.5 P_c (without a critical point: the family's first default pressure).
+
+    Parameters
+    ----------
+    th : Thermodynamics
+        The binding whose other parameters and condition selection are kept.
+    kind : str
+    name : str
+    values : sequence of float
+    reduced_units : bool
+        Each member in units of its own critical point (:func:`reduced`; pv, tr, pt): values
+        that only set the scale then give one curve.
+    **options
+        ``temperatures`` (pv), ``pressures`` (gt, tr; one each), ``pressure`` (cp).
+
+    Returns
+    -------
+    OverlayData
+
+    Raises
+    ------
+    BhchemError
+        An unknown kind or parameter, fewer than one or more than 8 values, or more than
+        one pressure for gt, tr.
+    """
+    if kind not in FIGURE_DATA:
+        raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(FIGURE_KINDS)}")
+    if name not in th.values:
+        raise BhchemError(f"--vary {name}: {th.family.name} has no parameter {name!r} "
+                          f"(it has {', '.join(th.values) or 'none'})")
+    values = tuple(float(v) for v in values)
+    if not 1 <= len(values) <= 8:
+        raise BhchemError(f"--vary {name}: give 1 to 8 values, not {len(values)}")
+    adm = th.admissibility
+    members = []
+    for value in values:
+        member = bind(th.family, conditions=adm.set_name, without=adm.removed,
+                      **{**th.values, name: value})
+        data = FIGURE_DATA[kind](member, **_member_options(member, kind, options))
+        members.append(reduced(data, member) if reduced_units else data)
+    fixed = {k: v for k, v in th.values.items() if k != name}
+    notes = _selection_notes(th)
+    if reduced_units and len(members) > 1 and _coincide(members):
+        notes += (f"the curves coincide in reduced variables: {name} only sets the scale",)
+    return OverlayData(th.family.name, fixed, kind, name, values, tuple(members), notes)
+
+
+def _curves(data) -> list:
+    if isinstance(data, PvCurves):
+        return list(data.isotherms)
+    if isinstance(data, TrCurves):
+        return [b.curve for iso in data.isobars for b in iso]
+    if isinstance(data, PtDiagram):
+        return [ln.points for ln in data.lines]
+    return []
+
+
+def _coincide(members) -> bool:
+    """Every reduced curve of every member equals the first member's (to 1e-7, 1e-9 near 0)."""
+    first = _curves(members[0])
+    for m in members[1:]:
+        other = _curves(m)
+        if len(other) != len(first) or not first:
+            return False
+        for a, b in zip(first, other):
+            if a.shape != b.shape or not np.allclose(a, b, rtol=1e-7, atol=1e-9, equal_nan=True):
+                return False
+    return True
+
+
+def _member_options(th, kind: str, options: dict) -> dict:
+    """The options of one member of an overlay, relative values resolved for ``th``."""
+    opts = dict(options)
+    if kind == "pv":
+        opts["temperatures"] = list(opts.get("temperatures") or ["0.9Tc"]) \
+            if scale_point(th) is not None or opts.get("temperatures") else None
+    elif kind in ("gt", "tr"):
+        given = opts.get("pressures")
+        if given is not None and len(given) != 1:
+            raise BhchemError(f"an overlay of {kind} figures draws one pressure per value, "
+                              f"not {len(given)}")
+        opts["pressures"] = [resolve_pressure(th, given[0]) if given else
+                             default_pressures(th, scale_point(th))[0]]
+    elif kind == "cp":
+        given = opts.get("pressure")
+        opts["pressure"] = resolve_pressure(th, given) if given is not None else \
+            default_pressures(th, scale_point(th))[0]
+    return opts
+
+
+# -- reduced variables ----------------------------------------------------------------------
+def reduced(data, th=None):
+    """The same figure data in units of the critical point: v/v_c, P/P_c, T/T_c (and
+    x/x_c for T-r+ curves).  For ``pv`` and ``tr`` the critical point is the data's own;
+    for ``pt`` the scale critical point of ``th`` (see :func:`scale_point`).
+
+    Parameters
+    ----------
+    data : PvCurves, TrCurves or PtDiagram
+    th : Thermodynamics, optional
+        Needed for a PtDiagram.
+
+    Returns
+    -------
+    The same type, with ``reduced=True``.
+
+    Raises
+    ------
+    BhchemError
+        Without a critical point to reduce by, or for another kind of data.
+    """
+    if isinstance(data, PvCurves):
+        if data.critical_point is None or data.T_c is None:
+            raise BhchemError("reduced variables need a critical point; this family has "
+                              "none at these parameters")
+        sc = np.array(data.critical_point, float)
+        return replace(data, temperatures=tuple(T / data.T_c for T in data.temperatures),
+                       isotherms=tuple(i / sc for i in data.isotherms),
+                       equal_area=tuple(None if e is None else e / sc for e in data.equal_area),
+                       T_c=1.0, critical_point=np.ones(2), reduced=True)
+    if isinstance(data, TrCurves):
+        if data.critical_point is None or data.P_c is None:
+            raise BhchemError("reduced variables need a critical point; this family has "
+                              "none at these parameters")
+        sc = np.array(data.critical_point, float)
+        isobars = tuple(tuple(replace(b, curve=b.curve / sc,
+                                      spinodals=tuple(x / sc[0] for x in b.spinodals))
+                              for b in iso) for iso in data.isobars)
+        return replace(data, pressures=tuple(P / data.P_c for P in data.pressures),
+                       isobars=isobars, P_c=1.0, critical_point=np.ones(2),
+                       excluded=tuple(replace(e, curve=e.curve / sc) for e in data.excluded),
+                       super_entropic=np.asarray(data.super_entropic, float).reshape(-1, 2) / sc,
+                       reduced=True)
+    if isinstance(data, PtDiagram):
+        cp = scale_point(th) if th is not None else None
+        if cp is None:
+            raise BhchemError("reduced variables need a critical point; this family has "
+                              "none at these parameters")
+        Tc, Pc = cp.T, cp.P
+        sc = np.array([Tc, Pc])
+        box = data.inset_box
+        return replace(
+            data, lines=tuple(replace(ln, points=ln.points / sc,
+                                      terminal_points=ln.terminal_points / sc)
+                              for ln in data.lines),
+            critical_points=np.asarray(data.critical_points, float).reshape(-1, 2) / sc,
+            triple_points=np.asarray(data.triple_points, float).reshape(-1, 2) / sc,
+            limits=None if data.limits is None else (data.limits[0] / Tc, data.limits[1] / Pc),
+            regions=tuple((T / Tc, P / Pc, n) for T, P, n in data.regions),
+            pointers=tuple((T / Tc, P / Pc, n, a / Tc, b / Pc)
+                           for T, P, n, a, b in data.pointers),
+            inset_box=None if box is None else (box[0] / Tc, box[1] / Tc, box[2] / Pc,
+                                                box[3] / Pc),
+            reduced=True)
+    raise BhchemError(f"reduced variables are drawn for pv, tr and pt figures, not "
+                      f"{type(data).__name__}")

@@ -144,6 +144,12 @@ class IsobarResult(Result):
                 return ph
         return None
 
+    def table_rows(self):
+        """One row per transition: kind, T, from, to, latent heat, Delta G."""
+        return (("kind", "T", "from", "to", "latent_heat", "delta_G"),
+                [(t.kind, t.T, t.from_phase, t.to_phase, t.latent_heat, t.delta_G)
+                 for t in self.transitions])
+
 
 # -- construction --------------------------------------------------------------------
 def _refine_root(f, a, b):

@@ -220,6 +220,20 @@ class PhaseDiagram(Result):
         """The lines whose pressure interval contains P."""
         return [ln for ln in self.lines if ln.ends["low"]["P"] <= P <= ln.ends["high"]["P"]]
 
+    def table_rows(self):
+        """One row per line: kind, the phases it separates, its number of points and its
+        lowest and highest point (T, P) with the type of each end."""
+        rows = []
+        for line in self.lines:
+            pts = list(line.points)
+            lo, hi = (pts[0], pts[-1]) if pts else ((None, None), (None, None))
+            ends = line.ends or {}
+            rows.append((line.kind, " / ".join(map(str, line.between)), len(pts),
+                         lo[0], lo[1], (ends.get("low") or {}).get("type"),
+                         hi[0], hi[1], (ends.get("high") or {}).get("type")))
+        return (("kind", "between", "points", "T_low", "P_low", "low_end", "T_high",
+                 "P_high", "high_end"), rows)
+
 
 # -- the scalar functions along P: events -----------------------------------------------
 class _Skeletons:

@@ -20,7 +20,7 @@ import sys
 
 from bhchem.errors import BhchemError
 from bhchem.present.serialize import to_json
-from bhchem.present.plots import save
+from bhchem.present.plots import save, table_path
 from bhchem.declare.registry import get_family
 from bhchem.analysis.expansion import joule_thomson_expansion
 from bhchem.present.analysis_plots import plot_expansion
@@ -102,8 +102,9 @@ def _finish(args, doc: dict, text: str, figure, th=None) -> int:
         if th.family.ensemble:
             text = f"{text}\nensemble: {th.family.ensemble_label()}"
     if args.output:
-        path = save(figure(), args.output)
-        print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
+        path = save(figure(), args.output, table=True)
+        print(f"wrote {path} and its data {table_path(path)}",
+              file=sys.stderr if args.json else sys.stdout)
     if args.json:
         # one serializer: non-finite -> null, sorted keys, the family's conventions added
         print(to_json(doc, family=th.family if th is not None else get_family(args.family)))

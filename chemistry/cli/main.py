@@ -22,12 +22,12 @@ from bhchem.declare.registry import available_families
 from bhchem.conventions import convention_record
 from bhchem.present.summary import show_json, show_text
 from bhchem.present.critical_report import critical_json, critical_text
-from bhchem.analysis.critical import find_critical_points, resolve_pressure
+from bhchem.analysis.critical import find_critical_points, resolve_pressure, resolve_temperature
 from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
-from bhchem.present.plots import save
-from bhchem.workflows.figures import compare_figure, make_figure
+from bhchem.present.plots import save, table_path
+from bhchem.workflows.figures import adjust_check, compare_figure, make_figure, parse_vary
 from bhchem.analysis.ensembles import compare_ensembles
 from bhchem.present.ensemble_report import compare_json, compare_text
 from bhchem.core.ensemble import charge_of
@@ -242,32 +242,46 @@ def _check_plot_output(path: str) -> str:
         raise BhchemError(f"output {path}: use a .png, .pdf or .svg file name")
     if os.path.isdir(path):
         raise BhchemError(f"output {path} is a folder; give a file name")
+    if os.path.isdir(table_path(path)):
+        raise BhchemError(f"output {path}: its data file {table_path(path)} would replace "
+                          f"a folder; give another name")
     check_writable_folder(os.path.dirname(path), f"output {path}")
     return path
 
 
 def cmd_plot(args) -> int:
     _check_plot_output(args.output)
+    adjust_check(args.xlim, args.ylim, args.width)
     th = _bound(args)
     kw = {}
     if args.pressure:
-        P = [parse_pressure(v, th) for v in args.pressure]
+        # with --vary, relative pressures are resolved at each value's own critical point
+        P = list(args.pressure) if args.vary else [parse_pressure(v, th) for v in args.pressure]
         if args.kind == "cp":
             kw["pressure"] = P[0]
         elif args.kind in ("gt", "tr"):
             kw["pressures"] = P
         else:
             raise BhchemError(f"--pressure does not apply to a '{args.kind}' plot")
+    if args.temperature:
+        if args.kind != "pv":
+            raise BhchemError(f"--temperature applies to pv plots, not '{args.kind}'")
+        kw["temperatures"] = list(args.temperature) if args.vary else \
+            [resolve_temperature(th, T) for T in args.temperature]
     if args.show_excluded:
         if args.kind not in ("gt", "tr"):
             raise BhchemError(f"--show-excluded applies to gt and tr plots, not '{args.kind}'")
         kw["show_excluded"] = True
-    res = make_figure(th, args.kind, **kw)
+    vary = parse_vary(args.vary) if args.vary else None
+    if vary and args.show_excluded:
+        raise BhchemError("--show-excluded draws one family's excluded states; not with --vary")
+    res = make_figure(th, args.kind, xlim=args.xlim, ylim=args.ylim, width=args.width,
+                      vary=vary, reduced_units=args.reduced, **kw)
     with output_lock(args.output):
-        for note in clean_stale(args.output):
+        for note in clean_stale(args.output) + clean_stale(table_path(args.output)):
             _note(f"{note} (left by an interrupted run)")
-        path = save(res, args.output)
-    print(f"wrote {path}")
+        path = save(res, args.output, table=True)
+    print(f"wrote {path} and its data {table_path(path)}")
     return 0
 
 
@@ -429,9 +443,21 @@ def build_parser() -> argparse.ArgumentParser:
                    help="output file (.png, .pdf or .svg)")
     p.add_argument("--pressure", action="append", metavar="P",
                    help="pressure(s) for gt/tr/cp (absolute or like 0.5Pc; repeatable)")
+    p.add_argument("--temperature", action="append", metavar="T",
+                   help="isotherm temperature(s) for pv (absolute or like 0.9Tc; repeatable)")
     p.add_argument("--show-excluded", action="store_true",
                    help="gt, tr: draw the states the conditions exclude, faintly, labelled by "
                         "the condition")
+    p.add_argument("--vary", metavar="NAME=V1,V2,...",
+                   help="one curve family per value of a parameter, on one axes (or a grid "
+                        "NAME=START:STOP:N); relative T and P (0.9Tc, 0.5Pc) at each value's "
+                        "own critical point")
+    p.add_argument("--reduced", action="store_true",
+                   help="pv, tr, pt: in units of the critical point (v/v_c, P/P_c, T/T_c)")
+    p.add_argument("--xlim", metavar="A:B", help="x-axis range of every panel")
+    p.add_argument("--ylim", metavar="A:B", help="y-axis range of every panel")
+    p.add_argument("--width", metavar="column|page|INCHES",
+                   help="figure width: a journal column (3.4 in), a page (7.0 in) or inches")
     p.set_defaults(func=cmd_plot)
 
     p = sub.add_parser("report", parents=[common],

@@ -18,7 +18,7 @@ from bhchem.analysis.phases import phase_diagram
 from bhchem.declare.registry import get_family
 from bhchem.errors import BhchemError, BhchemWarning
 from bhchem.present.metric_report import metric_json, metric_text, plot_photon_jumps
-from bhchem.present.plots import save
+from bhchem.present.plots import save, table_path
 from bhchem.present.serialize import to_json
 
 
@@ -49,8 +49,9 @@ def register(sub, common, helpers: dict) -> None:
         comparison = compare_routes(th) if args.compare else None
         lines = diagram_photon_jumps(th, phase_diagram(th)) if args.all_lines else None
         if args.output:
-            path = save(plot_photon_jumps(jumps), args.output)
-            print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
+            path = save(plot_photon_jumps(jumps), args.output, table=True)
+            print(f"wrote {path} and its data {table_path(path)}",
+                  file=sys.stderr if args.json else sys.stdout)
         if args.json:
             print(to_json(metric_json(th, diag, ps, jumps, comparison, lines),
                           family=get_family(args.family)))

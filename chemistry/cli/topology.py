@@ -12,7 +12,7 @@ import sys
 
 from bhchem.errors import BhchemError
 from bhchem.present.serialize import to_json
-from bhchem.present.plots import save
+from bhchem.present.plots import save, table_path
 from bhchem.analysis.critical import find_critical_points
 from bhchem.workflows.topology import default_pressure, landscape_run
 from bhchem.analysis.topology import critical_point_charge, thermodynamic_topology
@@ -49,8 +49,9 @@ def _emit(args, doc, text, figures, th) -> int:
     family = th.family
     for path, make in figures:
         if path:
-            out = save(make(), path)
-            print(f"wrote {out}", file=sys.stderr if args.json else sys.stdout)
+            out = save(make(), path, table=True)
+            print(f"wrote {out} and its data {table_path(out)}",
+                  file=sys.stderr if args.json else sys.stdout)
     print(to_json(doc, family=family) if args.json else text)
     return 0
 

@@ -10,6 +10,7 @@ returns a :class:`Thermodynamics` object: the entry point of every analysis.
 from __future__ import annotations
 
 import decimal
+import html
 import math
 import threading
 from dataclasses import dataclass
@@ -19,6 +20,7 @@ import numpy as np
 import sympy as sp
 
 from bhchem.core.derive import Derivation, derive
+from bhchem.core.results import html_table
 from bhchem.declare.symbols import P as _P
 from bhchem.errors import ParameterDomainError, UnknownParameterError
 from bhchem.declare.family import Family
@@ -486,6 +488,19 @@ class Thermodynamics:
         vals = ", ".join(f"{k}={v}" for k, v in self.values.items())
         extra = "" if self.admissibility.is_default else f"; {self.admissibility.label()}"
         return f"Thermodynamics({self.family.name}: {vals}{extra})"
+
+    def _repr_html_(self) -> str:
+        """The family, its parameters with their domains, the states that count and the
+        equation of state (typeset in a notebook)."""
+        esc = html.escape
+        rows = [(p.name, self.values[p.name], getattr(p, "description", "") or "")
+                for p in self.family.all_parameters if p.name in self.values]
+        eos = self.derivation.eos
+        law = eos.latex()
+        return ("<div>" + f"<b>{esc(self.family.name)}</b>: {esc(self.family.summary)}<br>"
+                + f"states: {esc(self.admissibility.label())}<br>"
+                + html_table(("parameter", "value", "meaning"), rows)
+                + f"equation of state: {esc(law)}</div>")
 
 
 def bind(family, *, conditions: str | None = None, without=(), **values) -> Thermodynamics:

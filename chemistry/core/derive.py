@@ -96,6 +96,15 @@ class EquationOfState:
     temperature: sp.Expr
     specific_volume: sp.Expr | None
 
+    def latex(self) -> str:
+        """``$P = ...$`` (or ``$T = ...$`` when P(T, v) has no closed form)."""
+        if self.pressure is not None:
+            return f"$P = {sp.latex(self.pressure)}$"
+        return f"$T = {sp.latex(self.temperature)}$"
+
+    def _repr_latex_(self) -> str:
+        return self.latex()
+
 
 @dataclass(frozen=True)
 class StateCondition:
@@ -183,6 +192,22 @@ class Derivation:
     def potential_name(self, param: str) -> str:
         """Quantity name of the potential conjugate to ``param``."""
         return f"Phi_{param}"
+
+    def _repr_latex_(self) -> str:
+        """The derived quantities as one aligned block (a notebook shows it typeset)."""
+        rows = [rf"{_latex_name(k)} &= {sp.latex(v)}" for k, v in self.quantities.items()]
+        if self.eos.pressure is not None:
+            rows.append(rf"P(T, v) &= {sp.latex(self.eos.pressure)}")
+        return r"$\begin{aligned}" + r" \\ ".join(rows) + r"\end{aligned}$"
+
+
+def _latex_name(name: str) -> str:
+    """'Phi_Q' -> '\\Phi_{Q}', 'C_P' -> 'C_{P}'."""
+    if name == "r_plus":
+        return "r_{+}"
+    head, _, sub = name.partition("_")
+    head = {"Phi": r"\Phi", "kappa": r"\kappa", "alpha": r"\alpha"}.get(head, head)
+    return f"{head}_{{{sub}}}" if sub else head
 
 
 # -- counted bounds on the work of a derivation ----------------------------------------------

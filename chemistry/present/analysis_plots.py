@@ -104,7 +104,19 @@ def plot_curvature(cmap: CurvatureMap, th: Thermodynamics, ax=None) -> PlotResul
             ax.text(1.03, 0.02, "$R_N(1-T/T_c)^2\\to$\n" + f"{a.small.amplitude:.6f} (small)\n"
                     f"{a.large.amplitude:.6f} (large)", transform=ax.transAxes, fontsize=8,
                     va="bottom")
-    return PlotResult(fig, "curvature", data, list(cmap.notes))
+    table = {"R_N": np.column_stack([np.broadcast_to(cmap.v[None, :], cmap.R_N.shape).ravel(),
+                                     np.broadcast_to(cmap.T[:, None], cmap.R_N.shape).ravel(),
+                                     np.ravel(cmap.R_N)])}
+    nan = np.full(len(data.get("spinodal", ())), np.nan)
+    if "spinodal" in data:
+        table["spinodal"] = np.column_stack([data["spinodal"][:, 0], data["spinodal"][:, 1], nan])
+    if "coexistence" in data:
+        c = data["coexistence"]
+        nan = np.full(len(c), np.nan)
+        table["coexistence_small"] = np.column_stack([c[:, 1], c[:, 0], nan])
+        table["coexistence_large"] = np.column_stack([c[:, 2], c[:, 0], nan])
+    return PlotResult(fig, "curvature", data, list(cmap.notes), columns=("v", "T", "R_N"),
+                      table_data=table)
 
 
 # -- heat-engine cycle ----------------------------------------------------------------------------

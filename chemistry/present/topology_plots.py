@@ -48,7 +48,9 @@ def plot_tau(res: TopologyResult, ax=None) -> PlotResult:
         cls = f"${res.topological_class}$" if res.topological_class else "no class"
         W = "" if res.W is None else f", W = {res.W:+d}"
         ax.set_title(figure_title(res, f": {cls}{W}"))
-    return PlotResult(fig, "tau", {"curve": res.curve}, [])
+    return PlotResult(fig, "tau", {"curve": res.curve}, [],
+                      columns=("r_plus" if res.state_variable == "r" else res.state_variable,
+                               "tau"))
 
 
 def plot_landscape(ls: Landscape, ax=None) -> PlotResult:
@@ -64,7 +66,10 @@ def plot_landscape(ls: Landscape, ax=None) -> PlotResult:
         ax.set_xlabel(rf"${x}$")
         ax.set_ylabel(r"$G_L = M - T_E S$")
         ax.set_title(figure_title(ls, f": $T_E$ = {ls.temperature:.4g}, P = {ls.pressure:.4g}"))
-    return PlotResult(fig, "landscape", {"x": ls.x, "G_L": ls.G_L}, [])
+    return PlotResult(fig, "landscape", {"x": ls.x, "G_L": ls.G_L}, [],
+                      columns=("r_plus" if ls.state_variable == "r" else ls.state_variable,
+                               "G_L"),
+                      table_data={"G_L": np.column_stack([ls.x, ls.G_L])})
 
 
 def plot_first_passage(fp: FirstPassage, ax=None) -> PlotResult:
@@ -84,4 +89,5 @@ def plot_first_passage(fp: FirstPassage, ax=None) -> PlotResult:
         ax.set_ylabel(r"$t\,F(t)$")
         ax.legend(loc="upper left", fontsize=8)
         ax.set_title(figure_title(fp, ": first-passage times"))
-    return PlotResult(fig, "first-passage", {"t": fp.t, "F": fp.distribution}, [])
+    return PlotResult(fig, "first-passage", {"t": fp.t, "F": fp.distribution}, [],
+                      table_data={"F": np.column_stack([fp.t, fp.distribution])})

@@ -202,7 +202,7 @@ def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = Fal
                 except EmptyFigureError as exc:
                     doc.setdefault("figures_skipped", {})[name] = str(exc)
                     continue
-                save(res, os.path.join(tmp, f"{name}.png"))
+                save(res, os.path.join(tmp, f"{name}.png"), table=True)
                 save(res, os.path.join(tmp, f"{name}.pdf"))
                 del res  # saved, not returned: the figure (never in pyplot) is released
                 figures.append((name, caption))
@@ -215,7 +215,7 @@ def write_report(th: Thermodynamics, out_dir, digits: int = 6, force: bool = Fal
                     except EmptyFigureError as exc:
                         doc.setdefault("figures_skipped", {})[name] = str(exc)
                         continue
-                    save(res, os.path.join(tmp, f"{name}.png"))
+                    save(res, os.path.join(tmp, f"{name}.png"), table=True)
                     save(res, os.path.join(tmp, f"{name}.pdf"))
                     del res
                     figures.append((name, caption))
