@@ -346,3 +346,19 @@ def test_results_have_short_reprs_and_strict_json():
         text = repr(res)
         assert len(text) < 200 and "\n" not in text and text.startswith(type(res).__name__)
         strict_loads(to_json(res.to_dict()))
+
+
+def test_fixed_potential_ensemble_has_the_schwarzschild_topology():
+    """At fixed Phi < 1 the charged AdS hole's Gibbs energy is G = M - T S - Phi Q with
+    M - Phi Q = (1 - Phi^2) r/2 + 4 pi P r^3/3 (Q = Phi r), so T = (1 - Phi^2 + 8 pi P r^2)/(4 pi r):
+    Schwarzschild-AdS with 1 -> 1 - Phi^2 (the fixed-Phi equation of state of Kubiznak & Mann,
+    JHEP 07 (2012) 033).  Its topology is therefore Schwarzschild-AdS's (Wei, Liu & Mann, PRL
+    129 (2022) 191101): W = 0, small branch -1, large +1, annihilation at
+    r = sqrt((1 - Phi^2)/(8 pi P)).  The off-shell F of the derived family is M - Phi Q - S/tau."""
+    Phi, P = 0.5, 0.002
+    th = bind("rn-ads", Phi_Q=Phi)
+    res = thermodynamic_topology(th, P)
+    assert res.W == 0
+    assert [b.winding for b in res.branches] == [-1, 1]
+    (ev,) = res.events
+    assert ev.x == pytest.approx(math.sqrt((1 - Phi**2) / (8 * math.pi * P)), rel=1e-10)
