@@ -293,46 +293,56 @@ def resolve_pressure(th: Thermodynamics, value) -> float:
     >>> resolve_pressure(th, 0.002)
     0.002
     """
+    return _resolve_relative(th, value, "pressure", "Pc", "P", "0.01", "0.5Pc",
+                             ": there is no AdS black hole (P = -Lambda/8pi > 0)")
+
+
+def _resolve_relative(th, value, quantity: str, mark: str, attr: str, plain: str, rel: str,
+                      why: str = "") -> float:
+    """A positive finite number, or a multiple of a quantity of a physical critical point
+    (``'0.5Pc'``, ``'0.5Pc2'``; ``mark`` is ``Pc`` or ``Tc``, ``attr`` the CriticalPoint
+    attribute); ``plain`` and ``rel`` are an absolute and a relative example for messages,
+    ``why`` ends the message for a value that is not positive."""
     if isinstance(value, (bool, np.bool_)) or value is None:
-        raise InvalidArgumentError(f"pressure {value!r} must be a number or text like 0.5Pc")
+        raise InvalidArgumentError(f"{quantity} {value!r} must be a number or text like {rel}")
     if isinstance(value, str):
         t = value.strip()
-        factor, sep, which = t.partition("Pc")
+        factor, sep, which = t.partition(mark)
         if sep:
             try:
                 f = float(factor) if factor.strip() else 1.0
                 idx = int(which) if which.strip() else 1
             except ValueError:
-                raise InvalidArgumentError(f"pressure {value!r} must look like 0.01 or 0.5Pc "
-                                           "(or 0.5Pc2)") from None
+                raise InvalidArgumentError(f"{quantity} {value!r} must look like {plain} or "
+                                           f"{rel} (or {rel}2)") from None
             cps = find_critical_points(th).physical
             if not cps:
                 raise InvalidArgumentError(
-                    f"pressure {value!r} is relative to a critical point, but "
-                    f"{th.family.name} has none at these parameters; give P directly")
+                    f"{quantity} {value!r} is relative to a critical point, but "
+                    f"{th.family.name} has none at these parameters; give "
+                    f"{attr} directly")
             if not 1 <= idx <= len(cps):
-                raise InvalidArgumentError(f"pressure {value!r}: there are only {len(cps)} "
+                raise InvalidArgumentError(f"{quantity} {value!r}: there are only {len(cps)} "
                                            "critical point(s)")
-            P = f * cps[idx - 1].P
+            x = f * getattr(cps[idx - 1], attr)
         else:
             try:
-                P = float(t)
+                x = float(t)
             except ValueError:
-                raise InvalidArgumentError(f"pressure {value!r} must look like 0.01 or "
-                                           "0.5Pc") from None
+                raise InvalidArgumentError(f"{quantity} {value!r} must look like {plain} or "
+                                           f"{rel}") from None
     elif isinstance(value, (int, float, np.integer, np.floating)) or (
             isinstance(value, np.ndarray) and value.ndim == 0 and value.dtype.kind in "if"):
-        P = float(value)
+        x = float(value)
     elif isinstance(value, (np.ndarray, list, tuple)):
-        raise InvalidArgumentError(f"one pressure is expected, not a sequence of "
+        raise InvalidArgumentError(f"one {quantity} is expected, not a sequence of "
                                    f"{np.size(value)} (loop over them)")
     else:
-        raise InvalidArgumentError(f"pressure must be a number or text like 0.5Pc, not "
+        raise InvalidArgumentError(f"{quantity} must be a number or text like {rel}, not "
                                    f"{type(value).__name__}")
-    if not (math.isfinite(P) and P > 0):
-        raise StateDomainError(f"pressure {value!r} is not positive and finite: there is no "
-                               "AdS black hole (P = -Lambda/8pi > 0)")
-    return P
+    if not (math.isfinite(x) and x > 0):
+        raise StateDomainError(f"{quantity} {value!r} is not positive and finite{why}")
+    return x
 
 
 def resolve_temperature(th: Thermodynamics, value) -> float:
@@ -364,31 +374,7 @@ def resolve_temperature(th: Thermodynamics, value) -> float:
     >>> resolve_temperature(th, "Tc") == find_critical_points(th).physical[0].T
     True
     """
-    if isinstance(value, (bool, np.bool_)) or value is None:
-        raise InvalidArgumentError(f"temperature {value!r} must be a number or text like 0.9Tc")
-    if isinstance(value, str):
-        factor, sep, which = value.strip().partition("Tc")
-        try:
-            T = (float(factor) if factor.strip() else 1.0) if sep else float(value)
-            idx = int(which) if which.strip() else 1
-        except ValueError:
-            raise InvalidArgumentError(f"temperature {value!r} must look like 0.04 or 0.9Tc "
-                                       "(or 0.9Tc2)") from None
-        if sep:
-            cps = find_critical_points(th).physical
-            if not 1 <= idx <= len(cps):
-                raise InvalidArgumentError(
-                    f"temperature {value!r} is relative to critical point {idx}, but "
-                    f"{th.family.name} has {len(cps)} at these parameters; give T directly")
-            T *= cps[idx - 1].T
-    elif isinstance(value, (int, float, np.integer, np.floating)):
-        T = float(value)
-    else:
-        raise InvalidArgumentError(f"temperature must be a number or text like 0.9Tc, not "
-                                   f"{type(value).__name__}")
-    if not (math.isfinite(T) and T > 0):
-        raise StateDomainError(f"temperature {value!r} is not positive and finite")
-    return T
+    return _resolve_relative(th, value, "temperature", "Tc", "T", "0.04", "0.9Tc")
 
 
 def resolve_pressure_range(th: Thermodynamics, value) -> tuple:
