@@ -61,13 +61,13 @@ approach is slow, R_N t^2 = A + B |t|^(1/2) + C |t| + ..., so the amplitude A is
 """
 from __future__ import annotations
 
-import threading
 from dataclasses import dataclass, field
 
 import numpy as np
 import sympy as sp
 
 from bhchem.core.results import Result
+from bhchem.core.identity_cache import MISSING, IdentityCache
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics, compile_expression
 from bhchem.analysis.critical import loop_side
@@ -90,21 +90,16 @@ CONVENTION = {
                  "fit_range of t = 1 - T/T_c (T the coexistence temperature)",
 }
 
-#: compiled curvature expressions kept (each entry holds its derivation, so its id is not
-#: reused while cached)
-_CACHE_ENTRIES = 64
-_cache: dict = {}
-_lock = threading.Lock()
+#: compiled curvature expressions kept, by derivation (identity); the oldest dropped beyond 64
+_EXPRESSIONS = IdentityCache(64)
 
 
 def _expressions(th: Thermodynamics) -> dict:
     """Symbolic R_N (C_V = 0) or R (C_V != 0) of the derivation, compiled (cached)."""
     der = th.derivation
-    key = id(der)
-    with _lock:
-        hit = _cache.get(key)
-    if hit is not None and hit[0] is der:
-        return hit[1]
+    hit = _EXPRESSIONS.get(der)
+    if hit is not MISSING:
+        return hit
     x, P = der.state, sy.P
     q = der.quantities
     T, S, V = q["T"], q["S"], q["V"]
@@ -134,11 +129,7 @@ def _expressions(th: Thermodynamics) -> dict:
                  "Evv": sp.diff(E, P, 2), "Fuv": sp.diff(F, x, P), "Guu": sp.diff(G, x, 2)}
         # each part compiled on its own: one Brioschi expression would be huge
         out["metric"] = {k: compile_expression(der.arguments, e) for k, e in parts.items()}
-    with _lock:
-        while len(_cache) >= _CACHE_ENTRIES:  # bounded: forget the oldest
-            _cache.pop(next(iter(_cache)))
-        _cache[key] = (der, out)
-    return out
+    return _EXPRESSIONS.put(der, out)
 
 
 def _call(th, f, x, P):

@@ -46,6 +46,7 @@ from bhchem.core.derive import tidy
 from bhchem.core.sampling import physical_sample
 from bhchem.core.compiled import lambdify_modules
 from bhchem.core.compiled import compile_expression
+from bhchem.core.identity_cache import MISSING, IdentityCache
 
 #: relative residual below which an identity counts as holding (common practice)
 TOLERANCE = 1e-9
@@ -192,10 +193,8 @@ _FIRST_LAW_VERDICTS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
 _FIRST_LAW_LOCK = threading.Lock()
 
 
-#: symbolic first-law proofs kept, keyed by the derivation (each entry holds it, so its id
-#: is not reused while cached); the oldest is dropped beyond this many
-_PROOF_ENTRIES = 256
-_PROOFS: dict = {}
+#: symbolic first-law proofs kept, by derivation (identity); the oldest dropped beyond 256
+_PROOFS = IdentityCache(256)
 
 
 def first_law_proved(derivation) -> bool:
@@ -206,22 +205,16 @@ def first_law_proved(derivation) -> bool:
     derivatives symbolically.  Cached per derivation: it does not depend on parameter
     values, so analyses of many bindings of one family pay for it once.
     """
-    key = id(derivation)
-    with _FIRST_LAW_LOCK:
-        hit = _PROOFS.get(key)
-    if hit is not None and hit[0] is derivation:
-        return hit[1]
+    hit = _PROOFS.get(derivation)
+    if hit is not MISSING:
+        return hit
     q, args = derivation.quantities, derivation.arguments
     proved = True
     if derivation.family.temperature is not None:
         proved = tidy(q["T"] - derivation.temperature_derived, args) == 0
     if proved and derivation.volume_declared is not None:
         proved = tidy(derivation.volume_declared - q["V"], args) == 0
-    with _FIRST_LAW_LOCK:
-        while len(_PROOFS) >= _PROOF_ENTRIES:
-            _PROOFS.pop(next(iter(_PROOFS)))
-        _PROOFS[key] = (derivation, bool(proved))
-    return bool(proved)
+    return _PROOFS.put(derivation, bool(proved))
 
 
 def first_law_verdict(th: Thermodynamics) -> FirstLawResult:

@@ -20,6 +20,7 @@ import numpy as np
 import sympy as sp
 
 from bhchem.core.derive import Derivation, derive
+from bhchem.core.identity_cache import IdentityCache
 from bhchem.core.results import html_table
 from bhchem.declare.symbols import P as _P
 from bhchem.errors import ParameterDomainError, UnknownParameterError
@@ -165,24 +166,13 @@ def compile_expression(arguments, expr) -> Callable:
     return _lambdify(tuple(arguments), sp.sympify(expr))
 
 
-#: compiled derivations kept (each entry holds its derivation, so an id cannot be
-#: reused while it is cached); the oldest is dropped beyond this many
-_COMPILED_ENTRIES = 128
-_compiled_cache: dict[int, CompiledDerivation] = {}
-_compiled_lock = threading.Lock()
+#: compiled derivations kept (by identity; the oldest is dropped beyond this many)
+_COMPILED = IdentityCache(128)
 
 
 def compile_derivation(derivation: Derivation) -> CompiledDerivation:
     """The (cached) compiled form of a derivation."""
-    key = id(derivation)
-    with _compiled_lock:
-        c = _compiled_cache.get(key)
-        if c is None or c.derivation is not derivation:
-            c = CompiledDerivation(derivation)
-            while len(_compiled_cache) >= _COMPILED_ENTRIES:
-                _compiled_cache.pop(next(iter(_compiled_cache)))
-            _compiled_cache[key] = c
-    return c
+    return _COMPILED.setdefault(derivation, lambda: CompiledDerivation(derivation))
 
 
 @dataclass(frozen=True)
