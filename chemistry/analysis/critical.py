@@ -472,6 +472,28 @@ def _exact(value: float) -> sp.Rational:
     return sp.Rational(float(value))  # the exact binary value of the float
 
 
+def linear_isotherm(T):
+    """u and w of the isotherm P = T u - w when T = A + B P is linear in the pressure.
+
+    Parameters
+    ----------
+    T : sympy expression
+        The temperature T(x, P, ...) (any further symbols are kept).
+
+    Returns
+    -------
+    (u, w) or None
+        u = 1/B and w = A/B (cancelled), or None when T is not linear in P (B = 0 or
+        B depends on P).  Nothing is assumed about how u and w depend on x.
+    """
+    P = sy.P
+    B = sp.diff(T, P)
+    if B == 0 or sp.diff(B, P) != 0:
+        return None
+    A = sp.expand(T - B * P)
+    return sp.cancel(1 / B), sp.cancel(A / B)
+
+
 def isotherm_form(th: Thermodynamics):
     """The isotherm P(T, x) = T u(x) - w(x) at the bound parameter values.
 
@@ -484,15 +506,12 @@ def isotherm_form(th: Thermodynamics):
     der = th.derivation
     if der.eos.form == "parametric":
         return None
-    x, P = der.state, sy.P
+    x = der.state
     subs = {s: _exact(th.values[s.name]) for s in der.parameters}
-    T = sp.sympify(der.quantities["T"]).subs(subs)
-    B = sp.diff(T, P)
-    if B == 0 or sp.diff(B, P) != 0:
+    form = linear_isotherm(sp.sympify(der.quantities["T"]).subs(subs))
+    if form is None:
         return None
-    A = sp.expand(T - B * P)
-    u = sp.cancel(1 / B)
-    w = sp.cancel(A / B)
+    u, w = form
     try:
         if not (u.is_rational_function(x) and w.is_rational_function(x)):
             return None
@@ -504,11 +523,23 @@ def isotherm_form(th: Thermodynamics):
 _isotherm_form = isotherm_form  # the name other modules used before it was public
 
 
-def _positive_roots(expr, x, with_multiplicity: bool = False) -> list:
+def positive_roots(expr, x, with_multiplicity: bool = False) -> list:
     """All positive real roots of a polynomial in x (coefficients rounded to 60 digits),
     isolated exactly and refined to relative width 1e-30, as rationals; a repeated root
     is returned once (with its multiplicity, from the square-free decomposition, when
-    ``with_multiplicity``)."""
+    ``with_multiplicity``).
+
+    Parameters
+    ----------
+    expr : sympy expression
+        A polynomial in x with numeric coefficients.
+    x : sympy.Symbol
+    with_multiplicity : bool
+
+    Returns
+    -------
+    list of sympy.Rational, or of (Rational, int) with ``with_multiplicity``
+    """
     expr = sp.expand(expr)
     if expr == 0:
         return []
@@ -529,6 +560,9 @@ def _positive_roots(expr, x, with_multiplicity: bool = False) -> list:
                 out.append((xr, mult))
     out.sort()
     return out if with_multiplicity else [xr for xr, _ in out]
+
+
+_positive_roots = positive_roots  # the name used inside this module before it was public
 
 
 @dataclass(frozen=True)
@@ -661,13 +695,11 @@ def _abs_terms(expr) -> sp.Expr:
 def _build_symbolic_isotherm(der) -> _SymbolicIsotherm | None:
     if der.eos.form == "parametric" or not der.parameters:
         return None
-    x, P = der.state, sy.P
-    T = sp.sympify(der.quantities["T"])
-    B = sp.diff(T, P)
-    if B == 0 or sp.diff(B, P) != 0:
+    x = der.state
+    form = linear_isotherm(sp.sympify(der.quantities["T"]))
+    if form is None:
         return None
-    A = sp.expand(T - B * P)
-    u, w = sp.cancel(1 / B), sp.cancel(A / B)
+    u, w = form
     try:
         if not (u.is_rational_function(x) and w.is_rational_function(x)):
             return None

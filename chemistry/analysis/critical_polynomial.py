@@ -1,0 +1,718 @@
+r"""The critical polynomial: exact thresholds in the couplings where critical points appear,
+merge, or cross T = 0 or P = 0.
+
+For T = A(x) + B(x) P (any family whose temperature is linear in the pressure) the
+isotherm is P = T u(x) - w(x) with u = 1/B, w = A/B, and the critical conditions
+P_x = P_xx = 0 give T u' = w', T u'' = w''; eliminating T leaves
+
+.. math:: E(x) \equiv u''(x)\,w'(x) - u'(x)\,w''(x) = 0,
+
+on which :math:`T_c = w'/u'` and :math:`P_c = T_c u - w`
+(:func:`bhchem.analysis.critical.linear_isotherm`; the same elimination as the certified
+path of :mod:`bhchem.analysis.critical`, here with the couplings kept as symbols).
+
+*Rational families* (u, w rational in x): the critical polynomial N is the numerator of E,
+with the powers of x that divide it removed (x = 0 is outside the domain).
+
+*Algebraic families* (one square root: u, w rational in x and s = sqrt(R(x)), as the
+Born--Infeld field energy): with the substitution s^2 = R the condition reads
+p0 + p1 s = 0 (p0, p1 rational in x); N is the numerator of the norm p0^2 - R p1^2, whose
+roots are those of p0 + p1 sqrt(R) = 0 and of its conjugate p0 - p1 sqrt(R) = 0.  A root
+of N counts only where p0 + p1 s vanishes with s = +sqrt(R) (checked at 40 digits).  T_c
+and P_c are rationalised the same way for the resultants below.
+
+If N contains only powers of x^m (m > 1) it is written in y = x^m (the Euler--Heisenberg
+cubic lives in y = r^2).  It is shown in the family's scale-free variables: the reference
+parameter (the first with a non-zero length dimension and value, as
+:func:`bhchem.analysis.critical.scale_free_values`) is set to 1, every other symbol then
+stands for its scale-free combination (``r`` for r/Q, ``a`` for a/Q^2; homogeneity of N
+makes this exact).
+
+Thresholds (:func:`polynomial_thresholds`) along one coupling c, the others fixed:
+
+* ``critical-count``: the discriminant of N in y, and its leading and constant
+  coefficients (a root through y = infinity or y = 0, the edges of the domain);
+* ``critical-temperature-zero`` / ``critical-pressure-zero``: the resultant in x of N with
+  the numerator (and denominator: a crossing through a pole) of T_c or P_c;
+* ``isolated-critical-point`` (rational families): the resultant of the numerators of u'
+  and w' (they share a root: every isotherm passes through one point, Dolan et al. 2014).
+
+Each real root of these polynomials in the interval is a candidate; it is returned only if
+the number of *physical* critical points -- positive real roots x of N that are genuine
+(see above) with T_c > 0 and P_c > 0 -- differs just below and just above it (exact root
+isolation at rational couplings beside the candidate); an isolated-critical-point candidate
+only if u' and w' share a positive root there with T_c = w''/u'' > 0 and P_c > 0.  Other
+declared state conditions of the family are not applied to the count.  With rational fixed
+couplings the values are exact algebraic numbers (``exact``, sympy text).
+"""
+from __future__ import annotations
+
+import math
+import threading
+from dataclasses import dataclass, field
+
+import mpmath as mp
+import numpy as np
+import sympy as sp
+
+from bhchem.analysis.critical import RESIDUAL_TOLERANCE, linear_isotherm, positive_roots
+from bhchem.analysis.events import EventCurve, StructureEvent
+from bhchem.core.compiled import Thermodynamics, bind
+from bhchem.core.results import Result
+from bhchem.errors import BhchemError, InvalidArgumentError
+
+#: digits of the high-precision checks (genuine roots, signs of T_c and P_c, residuals)
+_DPS = 40
+#: relative size of |p0 + p1 sqrt(R)| below which a root of the norm is genuine
+_GENUINE = 1e-20
+_LOCK = threading.Lock()
+
+
+@dataclass(frozen=True, repr=False)
+class CriticalPolynomial(Result):
+    """The critical polynomial of a family, couplings symbolic.
+
+    Attributes
+    ----------
+    family : str
+    available : bool
+        False when the family has no polynomial form (``message`` says why).
+    state : str
+        The state variable x.
+    variable : str or None
+        The polynomial's variable: the state variable or a power of it (``r^2``).
+    expression : str or None
+        N in the scale-free variables (sympy text, expanded).
+    factored : str or None
+        The same, factored over the rationals (sympy text).
+    factors : tuple
+        ((factor text, multiplicity), ...), constants left out.
+    scale_free : dict
+        Symbol -> the scale-free combination it stands for (``{"r": "r/Q", "a": "a/Q^2"}``);
+        the reference parameter is set to 1.
+    couplings : tuple of str
+        The couplings kept as symbols (the continuous parameters).
+    rationalised : str or None
+        The substitution used to remove a square root, or None.
+    message : str
+    """
+
+    family: str
+    available: bool
+    state: str
+    variable: str | None
+    expression: str | None
+    factored: str | None
+    factors: tuple
+    scale_free: dict
+    couplings: tuple
+    rationalised: str | None
+    message: str
+
+    def to_dict(self) -> dict:
+        return {"variable": self.variable, "expression": self.expression,
+                "factored": self.factored,
+                "factors": [[f, m] for f, m in self.factors],
+                "scale_free": dict(self.scale_free), "available": self.available,
+                "rationalised": self.rationalised, "message": self.message}
+
+    def summary(self) -> str:
+        return f"{self.family}: {self.factored if self.available else self.message}"
+
+
+# -- the symbolic system, built once per derivation -------------------------------------
+@dataclass(frozen=True)
+class _System:
+    x: sp.Symbol
+    params: tuple            # coupling symbols
+    N: sp.Expr               # polynomial in x (params symbolic), no x^k factor
+    m: int                   # N is a polynomial in x^m
+    y: sp.Symbol
+    Ny: sp.Expr              # N with x^m -> y
+    R: sp.Expr | None        # radicand (None: rational family)
+    s: sp.Symbol | None
+    cond: tuple              # (p0, p1): the condition is p0 + p1 s = 0
+    Tc: sp.Expr              # T_c = w'/u' (s symbol for sqrt(R))
+    Pc: sp.Expr              # P_c = T_c u - w
+    T_parts: tuple           # (numerator, denominator) polynomials in x of T_c (rationalised)
+    P_parts: tuple
+    UW: tuple | None         # numerators of u', w' without x^k (rational families)
+    iso: tuple | None        # (Tc_iso, Pc_iso) = (w''/u'', T u - w) for isolated points
+    fn: dict                 # mpmath functions of (x, *params)
+
+
+_CACHE: dict = {}
+
+
+def _system(der):
+    """(system, None) or (None, reason); cached per derivation."""
+    hit = _CACHE.get(id(der))
+    if hit is not None and hit[0] is der:
+        return hit[1]
+    try:
+        out = _build(der)
+    except (TypeError, ValueError, NotImplementedError, sp.PolynomialError) as exc:
+        out = (None, f"no polynomial form ({type(exc).__name__}: {exc})")
+    with _LOCK:
+        if len(_CACHE) > 32:
+            _CACHE.clear()
+        _CACHE[id(der)] = (der, out)
+    return out
+
+
+def _radicand(expr, x):
+    """The single square-root radicand R of expr (None if there is none); raises ValueError
+    with the reason when there are several or a root of another order."""
+    bases = []
+    for a in expr.atoms(sp.Pow):
+        if a.exp.is_Rational and a.exp.q != 1 and a.base.has(x):
+            if a.exp.q != 2:
+                raise ValueError(f"a root of order {a.exp.q} in T")
+            if not any(sp.simplify(a.base - b) == 0 for b in bases):
+                bases.append(a.base)
+    if len(bases) > 1:
+        raise ValueError(f"{len(bases)} different square roots in T")
+    return bases[0] if bases else None
+
+
+def _with_s(expr, R, s):
+    """expr with every R^(k/2) replaced by s^k."""
+    return expr.replace(lambda e: e.is_Pow and e.exp.is_Rational and e.exp.q == 2
+                        and sp.simplify(e.base - R) == 0,
+                        lambda e: s**e.exp.p)
+
+
+def _split(expr, R, s, x):
+    """(p0, p1, d0, d1), rational in x, with expr = (p0 + p1 s)/(d0 + d1 s) and s^2 = R."""
+    num, den = sp.fraction(sp.together(expr))
+
+    def reduce(e):
+        e = sp.expand(e)
+        poly = sp.Poly(e, s)
+        a0, a1 = sp.S.Zero, sp.S.Zero
+        for (k,), c in poly.terms():
+            if k % 2:
+                a1 += c * R**(k // 2)
+            else:
+                a0 += c * R**(k // 2)
+        return sp.cancel(a0), sp.cancel(a1)
+
+    p0, p1 = reduce(num)
+    d0, d1 = reduce(den)
+    return p0, p1, d0, d1
+
+
+def _numerator_poly(expr, x):
+    """Numerator of expr as an expanded polynomial in x, without the powers of x and
+    constant factors dividing it."""
+    num, _ = sp.fraction(sp.cancel(sp.together(expr)))
+    num = sp.expand(num)
+    if num == 0:
+        return num
+    poly = sp.Poly(num, x)
+    k = min(mon[0] for mon in poly.monoms())
+    num = sp.expand(num / x**k)
+    # a factor of the couplings alone (its zero makes the whole polynomial vanish) goes too
+    _, prim = sp.Poly(num, x).primitive()
+    return _drop_constant(prim.as_expr())
+
+
+def _norm(expr, R, s, x):
+    """Numerator polynomial (in x) of the rationalised expr, and of its denominator."""
+    if R is None:
+        n, d = sp.fraction(sp.cancel(sp.together(expr)))
+        return _numerator_poly(n, x), _numerator_poly(d, x)
+    p0, p1, d0, d1 = _split(expr, R, s, x)
+    return (_numerator_poly(p0**2 - R * p1**2, x), _numerator_poly(d0**2 - R * d1**2, x))
+
+
+def _build(der):
+    if der.eos.form == "parametric":
+        return None, ("no polynomial form (the equation of state is parametric: T is not an "
+                      "explicit function of the state variable and P)")
+    x = der.state
+    T = sp.sympify(der.quantities["T"])
+    form = linear_isotherm(T)
+    if form is None:
+        return None, "no polynomial form (T is not linear in P)"
+    u, w = form
+    params = tuple(der.parameters)
+    try:
+        R = _radicand(u + w, x)
+    except ValueError as exc:
+        return None, f"no polynomial form ({exc})"
+    s = sp.Symbol("s_root", positive=True) if R is not None else None
+    u1, u2 = sp.diff(u, x), sp.diff(u, x, 2)
+    w1, w2 = sp.diff(w, x), sp.diff(w, x, 2)
+    E = u2 * w1 - u1 * w2
+    Tc = w1 / u1
+    Pc = Tc * u - w
+    if R is not None:
+        E, Tc, Pc = (_with_s(e, R, s) for e in (E, Tc, Pc))
+        gens = (x, s) + params
+    else:
+        gens = (x,) + params
+    for e in (E, Tc, Pc):
+        if not sp.together(e).is_rational_function(*gens):
+            return None, ("no polynomial form (T involves functions other than rational "
+                          "ones and one square root)")
+    if R is None:
+        p0, p1 = sp.cancel(sp.together(E)), sp.S.Zero
+        N = _numerator_poly(E, x)
+    else:
+        p0, p1, _, _ = _split(E, R, s, x)
+        N = _numerator_poly(p0**2 - R * p1**2, x)
+    if N == 0:
+        return None, ("no polynomial form (the critical conditions hold identically in the "
+                      "state variable)")
+    if not N.has(x):
+        return None, ("no polynomial form (the critical conditions have no solution: the "
+                      "eliminated condition is a non-zero constant)")
+    poly = sp.Poly(N, x)
+    m = 0
+    for (k,) in poly.monoms():
+        m = math.gcd(m, k)
+    m = max(m, 1)
+    y = sp.Symbol("y", positive=True)
+    Ny = sp.expand(N.subs(x, y ** sp.Rational(1, m))) if m > 1 else N.subs(x, y)
+    T_parts = _norm(Tc, R, s, x)
+    P_parts = _norm(Pc, R, s, x)
+    UW, iso = None, None
+    if R is None:
+        U, W = _numerator_poly(u1, x), _numerator_poly(w1, x)
+        if U.has(x) and W.has(x):
+            UW = (U, W)
+            Ti = w2 / u2
+            iso = (Ti, Ti * u - w)
+    args = (x,) + params + ((s,) if s is not None else ())
+
+    def lam(e):
+        return sp.lambdify(args, e, modules="mpmath")
+
+    fn = {"p0": lam(p0), "p1": lam(p1), "Tc": lam(Tc), "Pc": lam(Pc),
+          "R": sp.lambdify((x,) + params, R, modules="mpmath") if R is not None else None}
+    if iso is not None:
+        fn["Ti"], fn["Pi"] = lam(iso[0]), lam(iso[1])
+    return _System(x=x, params=params, N=N, m=m, y=y, Ny=Ny, R=R, s=s, cond=(p0, p1),
+                   Tc=Tc, Pc=Pc, T_parts=T_parts, P_parts=P_parts, UW=UW, iso=iso,
+                   fn=fn), None
+
+
+def _thermo(family, params) -> Thermodynamics:
+    return family if isinstance(family, Thermodynamics) else bind(family, **params)
+
+
+def _reference(th, der):
+    """(name, length dimension) of the reference parameter, or None."""
+    return next(((nm, n) for nm, n in der.length_dimensions.items()
+                 if n != 0 and th.values[nm] != 0), None)
+
+
+def _label(name: str, power) -> str:
+    power = sp.nsimplify(power)
+    if power == 0:
+        return name
+    if power == 1:
+        return name
+    return f"{name}^{power}" if power.q == 1 else f"{name}^({power})"
+
+
+def _scale_free_map(th, sysm):
+    """({symbol: 1 for the reference}, {name: combination text})."""
+    der = th.derivation
+    ref = _reference(th, der)
+    if ref is None:
+        return {}, {}
+    name, n = ref
+    n = sp.nsimplify(n)
+    sub = {q: 1 for q in sysm.params if q.name == name}
+    labels = {}
+    s_dim = der.dimension - 2 if sysm.x.name == "S" else 1
+    e = sp.nsimplify(s_dim) / n
+    labels[sysm.x.name] = (f"{sysm.x.name}/{_label(name, e)}" if e > 0 else
+                           f"{sysm.x.name}*{_label(name, -e)}")
+    for q in sysm.params:
+        mq = sp.nsimplify(der.length_dimensions.get(q.name, 0))
+        if q.name == name or mq == 0:
+            continue
+        e = mq / n
+        labels[q.name] = (f"{q.name}/{_label(name, e)}" if e > 0 else
+                          f"{q.name}*{_label(name, -e)}")
+    return sub, labels
+
+
+def _drop_constant(expr):
+    """expr without its rational content (a number times a primitive polynomial)."""
+    expr = sp.expand(expr)
+    if expr == 0 or expr.is_number:
+        return expr if expr == 0 else sp.S.One
+    _, prim = expr.as_content_primitive()
+    return sp.expand(prim)
+
+
+def _clean(expr, var):
+    """Drop a constant factor: the primitive part, with a leading coefficient in ``var``
+    that is positive for positive couplings."""
+    expr = sp.expand(expr)
+    if expr == 0:
+        return expr
+    prim = _drop_constant(expr)
+    if prim.has(var):
+        lc = sp.Poly(prim, var).LC()
+        if lc.could_extract_minus_sign():
+            prim = -prim
+    return sp.expand(prim)
+
+
+def critical_polynomial(family, **params) -> CriticalPolynomial:
+    """The critical polynomial N of a family, factored, in its scale-free variables.
+
+    Parameters
+    ----------
+    family : str, Family or Thermodynamics
+    **params
+        Parameter values: they fix the discrete parameters (d, k) and choose the
+        reference parameter of the scale-free variables; the couplings stay symbolic.
+
+    Returns
+    -------
+    CriticalPolynomial
+        ``available`` False (with the reason) when T is not linear in P, not algebraic
+        with at most one square root, or the equation of state is parametric.
+
+    Examples
+    --------
+    >>> cp = critical_polynomial("rn-ads", Q=1.0)
+    >>> cp.variable, cp.factored, cp.scale_free
+    ('r^2', 'y - 6', {'r': 'r/Q'})
+    """
+    th = _thermo(family, params)
+    sysm, reason = _system(th.derivation)
+    name = th.family.name
+    state = th.derivation.state.name
+    if sysm is None:
+        return CriticalPolynomial(family=name, available=False, state=state, variable=None,
+                                  expression=None, factored=None, factors=(),
+                                  scale_free={}, couplings=(), rationalised=None,
+                                  message=reason)
+    sub, labels = _scale_free_map(th, sysm)
+    Y = _clean(sysm.Ny.subs(sub), sysm.y)
+    if sysm.m == 1:
+        Y = Y.subs(sysm.y, sysm.x)
+    fac = sp.factor_list(Y)
+    factors = tuple((str(f), int(k)) for f, k in fac[1])
+    variable = state if sysm.m == 1 else f"{state}^{sysm.m}"
+    if sysm.m > 1:
+        labels = dict(labels)
+        labels["y"] = f"({labels.get(state, state)})^{sysm.m}" if state in labels else variable
+    rational = None
+    if sysm.R is not None:
+        rational = (f"s = sqrt({sp.sstr(sysm.R)}), s^2 = R: condition p0 + p1 s = 0, "
+                    f"N = numerator of p0^2 - R p1^2 (roots of the conjugate branch removed "
+                    f"by a 40-digit check)")
+    factored = str(sp.factor(Y))
+    msg = (f"critical polynomial in {variable}" + (" (y = " + variable + ")" if sysm.m > 1
+                                                      else "")
+           + f", degree {sp.Poly(Y, sysm.y if sysm.m > 1 else sysm.x).degree()}"
+           + (", rationalised" if rational else ""))
+    if sysm.m == 1:
+        shown_var = sysm.x.name
+    else:
+        shown_var = "y"
+    return CriticalPolynomial(family=name, available=True, state=state, variable=variable,
+                              expression=str(Y), factored=factored, factors=factors,
+                              scale_free={k: v for k, v in labels.items()
+                                          if k == shown_var or k in {q.name for q in
+                                                                     sysm.params}},
+                              couplings=tuple(q.name for q in sysm.params),
+                              rationalised=rational, message=msg)
+
+
+class NoPolynomialFormError(BhchemError, ValueError):
+    """The family's critical conditions have no polynomial form (see the message)."""
+
+
+def _rational(value) -> sp.Rational:
+    """A coupling as an exact rational: the number as typed (0.3 -> 3/10)."""
+    if isinstance(value, sp.Basic):
+        return sp.nsimplify(value)
+    return sp.Rational(repr(float(value)))
+
+
+def _power_of(expr, x) -> int:
+    """The largest m such that expr is a polynomial in x^m."""
+    m = 0
+    for (k,) in sp.Poly(expr, x).monoms():
+        m = math.gcd(m, k)
+    return max(m, 1)
+
+
+def _resultant(f, g, x):
+    """Res_x(f, g), in x^m when both are polynomials in x^m."""
+    if not g.has(x):
+        return sp.S.Zero if g == 0 else sp.S.One
+    m = math.gcd(_power_of(f, x), _power_of(g, x))
+    if m > 1:
+        z = sp.Symbol("z_res", positive=True)
+        f, g = f.subs(x, z ** sp.Rational(1, m)), g.subs(x, z ** sp.Rational(1, m))
+        f, g = sp.expand(f), sp.expand(g)
+        x = z
+    return sp.resultant(f, g, x)
+
+
+def _candidate_polynomials(sysm, sub, c):
+    """[(F(c), kind, method)] whose real roots are the candidate thresholds."""
+    x, y = sysm.x, sysm.y
+    Ny = sp.expand(sysm.Ny.subs(sub))
+    N = sp.expand(sysm.N.subs(sub))
+    out = []
+    py = sp.Poly(Ny, y)
+    out.append((sp.discriminant(Ny, y) if py.degree() > 1 else sp.S.One, "critical-count",
+                "discriminant of the critical polynomial"))
+    out.append((py.LC(), "critical-count", "leading coefficient (a root through infinity)"))
+    out.append((py.coeff_monomial(1), "critical-count", "constant coefficient (a root "
+                "through the edge x = 0 of the domain)"))
+    for parts, kind, what in ((sysm.T_parts, "critical-temperature-zero", "T_c"),
+                              (sysm.P_parts, "critical-pressure-zero", "P_c")):
+        for part, how in zip(parts, ("numerator", "denominator")):
+            g = sp.expand(part.subs(sub))
+            if g.has(x):
+                out.append((_resultant(N, g, x), kind, f"resultant with the {how} of {what}"))
+    if sysm.UW is not None:
+        U, W = (sp.expand(e.subs(sub)) for e in sysm.UW)
+        if U.has(x) and W.has(x):
+            out.append((_resultant(U, W, x), "isolated-critical-point",
+                        "resultant of the numerators of u' and w'"))
+    return [(sp.expand(F), k, m) for F, k, m in out]
+
+
+def _radical(root, pf):
+    """A real root of degree <= 4 as radicals (real ones only), else as given."""
+    if pf.degree() < 3 or pf.degree() > 4 or not isinstance(root, sp.CRootOf):
+        return root
+    value = sp.N(root, _DPS)
+    for r in sp.roots(pf, multiple=True):
+        if not r.has(sp.I) and abs(sp.N(r, _DPS) - value) <= 1e-30 * (1 + abs(value)):
+            return sp.nsimplify(sp.radsimp(r))
+    return root
+
+
+def _real_roots_in(F, c, lo, hi):
+    """[(exact or None, value as mpf, factor)] for the real roots of F(c) in [lo, hi]."""
+    F = sp.expand(F)
+    if F == 0 or not F.has(c):
+        return []
+    found = []
+    for f, _ in sp.factor_list(F)[1]:
+        if not f.has(c):
+            continue
+        pf = sp.Poly(f, c)
+        rational = pf.domain.is_ZZ or pf.domain.is_QQ
+        if rational:
+            roots = [(_radical(r, pf), mp.mpf(str(sp.N(r, _DPS + 10))))
+                     for r in pf.real_roots()]
+        else:
+            roots = [(None, mp.mpf(str(sp.re(r)))) for r in pf.nroots(n=_DPS + 10)
+                     if abs(sp.im(r)) <= 1e-30 * (1 + abs(sp.re(r)))]
+            if pf.degree() <= 2:
+                exact = [e for e in sp.solve(f, c) if e.is_real]
+                roots = [(min(exact, key=lambda e: abs(sp.N(e, _DPS) - v)) if exact
+                          else None, v) for _, v in roots]
+        for r, v in roots:
+            if lo <= v <= hi:
+                if r is not None and pf.degree() <= 2:
+                    r = sp.nsimplify(sp.radsimp(r))
+                found.append((r, v, f))
+    return found
+
+
+def _evaluate(sysm, fname, xv, pv, sv):
+    args = [xv] + pv + ([sv] if sysm.s is not None else [])
+    return sysm.fn[fname](*args)
+
+
+def _physical_roots(sysm, values: dict):
+    """[(x, T_c, P_c)] for the genuine positive roots of N with T_c > 0 and P_c > 0 at the
+    given (exact) coupling values; None if N vanishes identically there."""
+    Ny = sp.expand(sysm.Ny.subs(values))
+    if Ny == 0:
+        return None
+    if not Ny.has(sysm.y):
+        return []
+    out = []
+    with _LOCK, mp.workdps(_DPS):
+        pv = [mp.mpf(str(sp.N(values[q], _DPS + 10))) for q in sysm.params]
+        for yr in positive_roots(Ny, sysm.y):
+            xv = mp.mpf(str(sp.N(yr, _DPS + 10))) ** (mp.mpf(1) / sysm.m)
+            try:
+                sv = None
+                if sysm.s is not None:
+                    Rv = sysm.fn["R"](xv, *pv)
+                    if Rv < 0:
+                        continue
+                    sv = mp.sqrt(Rv)
+                    p0 = _evaluate(sysm, "p0", xv, pv, sv)
+                    p1 = _evaluate(sysm, "p1", xv, pv, sv)
+                    if abs(p0 + p1 * sv) > _GENUINE * (abs(p0) + abs(p1 * sv)):
+                        continue        # a root of the conjugate branch
+                Tv = _evaluate(sysm, "Tc", xv, pv, sv)
+                Pv = _evaluate(sysm, "Pc", xv, pv, sv)
+            except ZeroDivisionError:
+                continue
+            if mp.im(Tv) == 0 and mp.im(Pv) == 0 and Tv > 0 and Pv > 0:
+                out.append((float(xv), float(Tv), float(Pv)))
+    return out
+
+
+def _isolated_point(sysm, values: dict):
+    """(x, T_c, P_c) of an isolated critical point (u' and w' share a positive root x with
+    T_c = w''/u'' > 0, P_c > 0) at the given exact values, or None."""
+    U, W = (sp.expand(e.subs(values)) for e in sysm.UW)
+    g = sp.gcd(sp.Poly(U, sysm.x), sp.Poly(W, sysm.x))
+    if g.degree() < 1:
+        return None
+    with _LOCK, mp.workdps(_DPS):
+        pv = [mp.mpf(str(sp.N(values[q], _DPS + 10))) for q in sysm.params]
+        for xr in positive_roots(g.as_expr(), sysm.x):
+            xv = mp.mpf(str(sp.N(xr, _DPS + 10)))
+            try:
+                Tv, Pv = sysm.fn["Ti"](xv, *pv), sysm.fn["Pi"](xv, *pv)
+            except ZeroDivisionError:
+                continue
+            if Tv > 0 and Pv > 0:
+                return float(xv), float(Tv), float(Pv)
+    return None
+
+
+def _event_scale_free(th, values: dict) -> dict:
+    """The scale-free combinations q / ref^(n_q/n_ref) at the given values."""
+    der = th.derivation
+    dims = der.length_dimensions
+    ref = next(((nm, n) for nm, n in dims.items() if n != 0 and values.get(nm, 0) != 0), None)
+    if ref is None:
+        return {}
+    name, n = ref
+    ell = abs(float(values[name])) ** (1.0 / n)
+    out = {}
+    for nm, m in dims.items():
+        if nm == name or m == 0:
+            continue
+        e = sp.nsimplify(m) / sp.nsimplify(n)
+        label = (f"{nm}/{_label(name, e)}" if e > 0 else f"{nm}*{_label(name, -e)}")
+        out[label] = float(values[nm]) / ell**m
+    return out
+
+
+def _system_for(family, params):
+    th = _thermo(family, params)
+    sysm, reason = _system(th.derivation)
+    if sysm is None:
+        raise NoPolynomialFormError(f"family {th.family.name}: {reason}")
+    return th, sysm
+
+
+def _coupling_symbol(sysm, th, name):
+    for q in sysm.params:
+        if q.name == name:
+            return q
+    raise InvalidArgumentError(f"{name!r} is not a continuous parameter of "
+                               f"{th.family.name} (choose one of "
+                               f"{', '.join(q.name for q in sysm.params)})")
+
+
+def polynomial_thresholds(family, coupling: str, interval, **fixed) -> list:
+    """Exact thresholds along one coupling where the critical points change.
+
+    Parameters
+    ----------
+    family : str or Family
+    coupling : str
+        The continuous parameter that moves.
+    interval : (float, float)
+        Its range [lo, hi].
+    **fixed
+        The other parameters (discrete ones and couplings; defaults otherwise), taken as
+        exact rationals as typed (0.3 -> 3/10).
+
+    Returns
+    -------
+    list of StructureEvent
+        Sorted by value; kinds 'critical-count', 'critical-temperature-zero',
+        'critical-pressure-zero', 'isolated-critical-point' (module docstring).  Each is a
+        root of its defining polynomial F(c) (``method``), confirmed by counting the
+        physical critical points just below and above it (``message``); ``exact`` is the
+        algebraic number (sympy text: a radical for degree <= 2, else a CRootOf) when the
+        fixed couplings are rational, ``value`` its nearest double (checked at 40 digits:
+        ``residuals['value - exact']``, relative), ``residuals['F(value)']`` the relative
+        residual |F| / sum |terms of F| at the double.
+
+    Raises
+    ------
+    NoPolynomialFormError
+        The family has no critical polynomial.
+    InvalidArgumentError
+        An unknown coupling or an empty interval.
+
+    Examples
+    --------
+    >>> ev = polynomial_thresholds("gauss-bonnet-ads", "alpha", (0.1, 2.0), Q=0.0, k=1, d=5)
+    >>> [e.kind for e in ev]
+    []
+    """
+    lo, hi = (float(v) for v in interval)
+    if not lo < hi:
+        raise InvalidArgumentError(f"interval needs lo < hi, got ({lo:g}, {hi:g})")
+    th, sysm = _system_for(family, {**fixed, coupling: 0.5 * (lo + hi)})
+    c = _coupling_symbol(sysm, th, coupling)
+    sub = {q: _rational(th.values[q.name]) for q in sysm.params if q is not c}
+    cands = []
+    for F, kind, method in _candidate_polynomials(sysm, sub, c):
+        for exact, v, f in _real_roots_in(F, c, mp.mpf(lo), mp.mpf(hi)):
+            cands.append((v, exact, f, kind, method))
+    cands.sort(key=lambda t: t[0])
+    values = sorted({float(t[0]) for t in cands})
+    width = hi - lo
+    events, seen = [], set()
+    for v, exact, f, kind, method in cands:
+        key = (kind, float(v))
+        if key in seen:
+            continue
+        seen.add(key)
+        fv = float(v)
+        others = [abs(o - fv) for o in values if abs(o - fv) > 1e-13 * max(1.0, abs(fv))]
+        h = min(1e-7 * max(abs(fv), width), min(others, default=width) / 3)
+        vals = {c: None, **sub}
+        if kind == "isolated-critical-point":
+            if exact is None:
+                continue
+            point = _isolated_point(sysm, {**sub, c: exact})
+            if point is None:
+                continue
+            change = f"isolated critical point at {sysm.x.name} = {point[0]:.12g}, " \
+                     f"T_c = {point[1]:.12g}, P_c = {point[2]:.12g}"
+        else:
+            below = _physical_roots(sysm, {**sub, c: _rational(fv - h)})
+            above = _physical_roots(sysm, {**sub, c: _rational(fv + h)})
+            if below is None or above is None or len(below) == len(above):
+                continue
+            change = (f"{len(below)} -> {len(above)} physical critical point(s) "
+                      f"(T_c > 0, P_c > 0) across it")
+        del vals
+        with _LOCK, mp.workdps(_DPS):
+            fval = abs(sp.N(f.subs(c, sp.Rational(fv)), _DPS))
+            scale = sum(abs(sp.N(t.subs(c, sp.Rational(fv)), _DPS))
+                        for t in sp.Add.make_args(sp.expand(f)))
+            rel = float(fval / scale) if scale else float(fval)
+            dv = float(abs(mp.mpf(fv) - v) / abs(v)) if v != 0 else abs(fv)
+        at = {**{q.name: float(sub[q]) for q in sub}, coupling: fv}
+        events.append(StructureEvent(
+            kind=kind, coupling=coupling, value=fv,
+            fixed={q.name: float(sub[q]) for q in sub} | dict(th.derivation.discrete),
+            exact=str(exact) if exact is not None else None,
+            scale_free=_event_scale_free(th, at),
+            residuals={"F(value)": rel, "value - exact": dv},
+            converged=dv <= 2.3e-16, method=method,
+            message=f"{kind} at {coupling} = {exact if exact is not None else fv}: {change}; "
+                    f"F = {sp.sstr(f)}"))
+    events.sort(key=lambda e: e.value)
+    return events
