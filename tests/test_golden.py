@@ -51,7 +51,7 @@ ADDED_KEYS = {"convention", "non_finite", "warnings", "admissibility", "excluded
               "conditions", "condition_sets",
               "ensemble", "topological_charge", "end_explanation", "polynomial",
               "converged", "nearby_system", "note", "events", "phases", "event",
-              "isoperimetric"}
+              "isoperimetric", "critical_polynomial"}
 #: promised bound of every residual the analyses report (README, "Numerical guarantees")
 RESIDUAL_BOUND = 1e-9
 #: below this a 0.1 number was rounding noise around zero

@@ -9,8 +9,12 @@ list of {``T``, ``P``, ``v``, ``r``, ``G``, ``ratio``, ``kind``, ``physical``,
 ``topological_charge`` {``total`` (sum over the physical points with a charge),
 ``convention``}; for ``exponents`` each point also has
 ``exponents`` {alpha, beta, gamma, delta} (exact, as fractions) and ``fitted``
-(the same keys, each {value, uncertainty, fit_range, note}).  No critical point is
-a result (an empty list), not an error.
+(the same keys, each {value, uncertainty, fit_range, note}); ``critical_polynomial``
+{``variable``, ``expression``, ``factored``, ``factors`` ([text, multiplicity] pairs),
+``scale_free`` (symbol -> the combination it stands for), ``available``, ``rationalised``,
+``message``} from :func:`bhchem.analysis.critical_polynomial.critical_polynomial` (with
+``available`` false and the reason in ``message`` when the family has no polynomial form).
+No critical point is a result (an empty list), not an error.
 """
 from __future__ import annotations
 
@@ -18,6 +22,7 @@ import math
 
 from bhchem.core.compiled import Thermodynamics
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
+from bhchem.analysis.critical_polynomial import critical_polynomial
 from bhchem.present.report_text import EXPONENT_DEFINITIONS
 from bhchem.analysis.exponents import critical_exponents
 from bhchem.analysis.topology import CONVENTION as TOPOLOGY_CONVENTION
@@ -74,7 +79,22 @@ def critical_json(th: Thermodynamics, with_exponents: bool = False) -> dict:
             "method": search.method, "scanned_range": search.scanned_range,
             "converged": search.converged, "message": search.message,
             "critical_points": points, "warnings": list(search.warnings),
-            "admissibility": search.admissibility, "ensemble": search.ensemble}
+            "admissibility": search.admissibility, "ensemble": search.ensemble,
+            "critical_polynomial": critical_polynomial(th).to_dict()}
+
+
+def polynomial_line(poly: dict) -> str:
+    """``critical polynomial in r^2: 7*a + y**3 - 6*y**2 = 0 (y stands for (r/Q)^2, a for
+    a/Q^2)``, one line, factored; or ``critical polynomial: no polynomial form (...)``."""
+    if not poly.get("available"):
+        return f"critical polynomial: {poly.get('message', 'no polynomial form')}"
+    pairs = sorted(((k, v) for k, v in poly["scale_free"].items() if k != v),
+                   key=lambda kv: kv[0] != "y")
+    sf = ", ".join(f"{k} {'stands for ' if i == 0 else 'for '}{v}"
+                   for i, (k, v) in enumerate(pairs))
+    extra = "; rationalised" if poly.get("rationalised") else ""
+    return (f"critical polynomial in {poly['variable']}: {poly['factored']} = 0"
+            + (f" ({sf}{extra})" if sf or extra else ""))
 
 
 def _finite(v) -> bool:
@@ -144,6 +164,9 @@ def critical_text(doc: dict) -> str:
                 head = f"exponent {k} ({EXPONENT_DEFINITIONS[k]})"
                 lines.append(f"        {head:<50} exact {ex[k] or '-':<5} fitted {fitted}")
             lines.append(f"      {cp['exponents_note']}")
+    poly = doc.get("critical_polynomial")
+    if poly:
+        lines.append(f"  {polynomial_line(poly)}")
     tot = doc.get("topological_charge")
     if tot and tot["total"] is not None:
         lines.append(f"  total topological charge of the physical critical points: "
