@@ -289,10 +289,18 @@ def _build(der):
     def lam(e):
         return sp.lambdify(args, e, modules="mpmath")
 
+    def lam_np(e):
+        return sp.lambdify(args, e, modules="numpy")
+
     fn = {"p0": lam(p0), "p1": lam(p1), "Tc": lam(Tc), "Pc": lam(Pc),
-          "R": sp.lambdify((x,) + params, R, modules="mpmath") if R is not None else None}
+          "R": sp.lambdify((x,) + params, R, modules="mpmath") if R is not None else None,
+          "np": {"p0": lam_np(p0), "p1": lam_np(p1), "Tc": lam_np(Tc), "Pc": lam_np(Pc),
+                 "R": (sp.lambdify((x,) + params, R, modules="numpy") if R is not None
+                       else None),
+                 "coeffs": sp.lambdify(params, sp.Poly(Ny, y).all_coeffs(), modules="numpy")}}
     if iso is not None:
         fn["Ti"], fn["Pi"] = lam(iso[0]), lam(iso[1])
+        fn["np"]["Ti"], fn["np"]["Pi"] = lam_np(iso[0]), lam_np(iso[1])
     return _System(x=x, params=params, N=N, m=m, y=y, Ny=Ny, R=R, s=s, cond=(p0, p1),
                    Tc=Tc, Pc=Pc, T_parts=T_parts, P_parts=P_parts, UW=UW, iso=iso,
                    fn=fn), None
@@ -463,8 +471,10 @@ def _resultant(f, g, x):
 def _candidate_polynomials(sysm, sub, c):
     """[(F(c), kind, method)] whose real roots are the candidate thresholds."""
     x, y = sysm.x, sysm.y
-    Ny = sp.expand(sysm.Ny.subs(sub))
-    N = sp.expand(sysm.N.subs(sub))
+    N = _numerator_poly(sysm.N.subs(sub), x)
+    if not N.has(x):
+        return []
+    Ny = sp.expand(N.subs(x, y ** sp.Rational(1, sysm.m)))
     out = []
     py = sp.Poly(Ny, y)
     out.append((sp.discriminant(Ny, y) if py.degree() > 1 else sp.S.One, "critical-count",
@@ -716,3 +726,196 @@ def polynomial_thresholds(family, coupling: str, interval, **fixed) -> list:
                     f"F = {sp.sstr(f)}"))
     events.sort(key=lambda e: e.value)
     return events
+
+
+def _count_numeric(sysm, params: np.ndarray) -> int:
+    """Number of physical critical points (genuine positive roots of N with T_c > 0 and
+    P_c > 0) at one point of coupling space, in double precision (for tracing curves)."""
+    fnp = sysm.fn["np"]
+    coeffs = np.array([complex(v) for v in np.broadcast_arrays(*fnp["coeffs"](*params))],
+                      dtype=complex).real
+    nz = np.nonzero(np.abs(coeffs) > 1e-300)[0]
+    if len(nz) == 0:
+        return -1
+    coeffs = coeffs[nz[0]:]
+    roots = np.roots(coeffs) if len(coeffs) > 1 else np.array([])
+    ys = roots[(np.abs(roots.imag) <= 1e-9 * np.abs(roots)) & (roots.real > 0)].real
+    count = 0
+    with np.errstate(all="ignore"):
+        for yv in ys:
+            xv = yv ** (1.0 / sysm.m)
+            extra = ()
+            if sysm.s is not None:
+                Rv = fnp["R"](xv, *params)
+                if not Rv >= 0:
+                    continue
+                sv = math.sqrt(Rv)
+                p0, p1 = fnp["p0"](xv, *params, sv), fnp["p1"](xv, *params, sv)
+                if abs(p0 + p1 * sv) > 1e-6 * (abs(p0) + abs(p1 * sv)):
+                    continue
+                extra = (sv,)
+            Tv, Pv = fnp["Tc"](xv, *params, *extra), fnp["Pc"](xv, *params, *extra)
+            if np.isfinite(Tv) and np.isfinite(Pv) and Tv > 0 and Pv > 0:
+                count += 1
+    return count
+
+
+def polynomial_threshold_curves(family, couplings, box, n: int = 161, **fixed) -> list:
+    """The threshold curves in the plane of two couplings.
+
+    Each candidate polynomial of :func:`polynomial_thresholds` (discriminant, edge
+    coefficients, resultants) is now a polynomial F(c1, c2); each of its irreducible factors
+    is traced over the box: at ``n`` values of c1 the real roots c2 in the box (the
+    univariate polynomial's companion eigenvalues, each polished by Newton on F at 40 digits
+    through mpmath's ``polyroots``), or, for a factor free of c2, the vertical line.  A point
+    is kept when the event is real there: the number of physical critical points differs at
+    c2 -+ h (double-precision count, h = 1e-6 of the box height), or, for the
+    isolated-critical-point kind, u' and w' share a positive root with T_c > 0 and P_c > 0.
+    Runs of kept points with the same number of roots form one curve.
+
+    Parameters
+    ----------
+    family : str or Family
+    couplings : (str, str)
+        The x-axis and y-axis couplings.
+    box : ((float, float), (float, float))
+        Their ranges.
+    n : int
+        Number of c1 values (the curves' resolution).
+    **fixed
+        The other parameters (exact rationals as typed).
+
+    Returns
+    -------
+    list of EventCurve
+        ``equation`` is the factor F = 0 (sympy text, in the couplings' own names),
+        ``residuals`` |F| / sum |terms of F| at each point.
+
+    Raises
+    ------
+    NoPolynomialFormError, InvalidArgumentError
+    """
+    c1n, c2n = couplings
+    (lo1, hi1), (lo2, hi2) = ((float(a), float(b)) for a, b in box)
+    if not (lo1 < hi1 and lo2 < hi2):
+        raise InvalidArgumentError(f"box needs lo < hi on both axes, got {box!r}")
+    th, sysm = _system_for(family, {**fixed, c1n: 0.5 * (lo1 + hi1),
+                                    c2n: 0.5 * (lo2 + hi2)})
+    c1, c2 = _coupling_symbol(sysm, th, c1n), _coupling_symbol(sysm, th, c2n)
+    sub = {q: _rational(th.values[q.name]) for q in sysm.params if q not in (c1, c2)}
+    names = [q.name for q in sysm.params]
+    i1, i2 = names.index(c1n), names.index(c2n)
+    base = np.array([float(sub.get(q, 0)) for q in sysm.params])
+    h = 1e-6 * (hi2 - lo2)
+    xs = np.linspace(lo1, hi1, n)
+    curves = []
+    done = set()
+    for F, kind, method in _candidate_polynomials(sysm, sub, None):
+        if F == 0:
+            continue
+        for f, _ in sp.factor_list(F)[1]:
+            if not (f.has(c1) or f.has(c2)) or (kind, f) in done:
+                continue
+            done.add((kind, f))
+            pts = _trace(f, c1, c2, xs, lo1, hi1, lo2, hi2)
+            kept = []
+            for run in pts:
+                seg = []
+                for p1, p2 in run:
+                    params = base.copy()
+                    params[i1], params[i2] = p1, p2
+                    if kind == "isolated-critical-point":
+                        ok = _isolated_at(sysm, sub, c1, c2, p1, p2)
+                    else:
+                        lo_p, hi_p = params.copy(), params.copy()
+                        if f.has(c2):
+                            lo_p[i2], hi_p[i2] = p2 - h, p2 + h
+                        else:
+                            hx = 1e-6 * (hi1 - lo1)
+                            lo_p[i1], hi_p[i1] = p1 - hx, p1 + hx
+                        ok = _count_numeric(sysm, lo_p) != _count_numeric(sysm, hi_p)
+                    if ok:
+                        seg.append((p1, p2))
+                    elif len(seg) > 1:
+                        kept.append(seg)
+                        seg = []
+                    else:
+                        seg = []
+                if len(seg) > 1:
+                    kept.append(seg)
+            fl = sp.lambdify((c1, c2), f, modules="numpy")
+            fa = sp.lambdify((c1, c2), _abs_terms(f), modules="numpy")
+            for seg in kept:
+                arr = np.array(seg, float)
+                with np.errstate(all="ignore"):
+                    res = np.abs(fl(arr[:, 0], arr[:, 1])) / fa(arr[:, 0], arr[:, 1])
+                res = np.broadcast_to(res, (len(arr),)).astype(float)
+                curves.append(EventCurve(
+                    kind=kind, couplings=(c1n, c2n), points=arr, residuals=res,
+                    converged=bool(np.all(res <= 1e-12)), equation=f"{sp.sstr(f)} = 0",
+                    method=method + ", traced over " + c1n,
+                    message=f"{kind}: {sp.sstr(f)} = 0, {len(arr)} points in "
+                            f"{c1n} in [{arr[0, 0]:.6g}, {arr[-1, 0]:.6g}]"))
+    return curves
+
+
+def _abs_terms(expr):
+    return sp.Add(*[sp.Abs(t) for t in sp.Add.make_args(sp.expand(expr))])
+
+
+def _isolated_at(sysm, sub, c1, c2, p1, p2) -> bool:
+    vals = {**sub, c1: sp.Rational(p1), c2: sp.Rational(p2)}
+    U, W = (sp.expand(e.subs(vals)) for e in sysm.UW)
+    fnp = sysm.fn["np"]
+    params = [float(vals[q]) for q in sysm.params]
+    if not U.has(sysm.x):
+        return False
+    xs = [complex(r) for r in np.roots([float(a) for a in sp.Poly(U, sysm.x).all_coeffs()])]
+    wabs = sp.lambdify(sysm.x, _abs_terms(W))
+    wf = sp.lambdify(sysm.x, W)
+    for xr in xs:
+        if abs(xr.imag) > 1e-9 * abs(xr) or xr.real <= 0:
+            continue
+        xv = xr.real
+        if abs(wf(xv)) > 1e-8 * wabs(xv):
+            continue
+        with np.errstate(all="ignore"):
+            Tv, Pv = fnp["Ti"](xv, *params), fnp["Pi"](xv, *params)
+        if np.isfinite(Tv) and np.isfinite(Pv) and Tv > 0 and Pv > 0:
+            return True
+    return False
+
+
+def _trace(f, c1, c2, xs, lo1, hi1, lo2, hi2) -> list:
+    """Runs [(c1, c2), ...] of real points of f = 0 in the box, split where the number of
+    roots in the box changes."""
+    if not f.has(c2):
+        roots = [float(sp.re(r)) for r in sp.Poly(f, c1).nroots(n=30)
+                 if abs(sp.im(r)) <= 1e-25 and lo1 <= sp.re(r) <= hi1]
+        ys = np.linspace(lo2, hi2, len(xs))
+        return [[(r, float(v)) for v in ys] for r in roots]
+    poly = sp.Poly(f, c2)
+    coeff_fns = [sp.lambdify(c1, a, modules="mpmath") for a in poly.all_coeffs()]
+    runs, current, count = [], {}, None
+    with _LOCK, mp.workdps(30):
+        for xv in xs:
+            cs = [mp.mpf(fn(mp.mpf(float(xv)))) for fn in coeff_fns]
+            while cs and cs[0] == 0:
+                cs = cs[1:]
+            if len(cs) < 2:
+                roots = []
+            else:
+                try:
+                    roots = mp.polyroots(cs, maxsteps=200, extraprec=60)
+                except mp.libmp.libhyper.NoConvergence:
+                    roots = []
+            ys = sorted(float(mp.re(r)) for r in roots
+                        if abs(mp.im(r)) <= 1e-20 * (1 + abs(r)) and lo2 <= mp.re(r) <= hi2)
+            if count is not None and len(ys) != count:
+                runs.extend(current.values())
+                current = {}
+            count = len(ys)
+            for k, yv in enumerate(ys):
+                current.setdefault(k, []).append((float(xv), yv))
+    runs.extend(current.values())
+    return [r for r in runs if len(r) > 1]
