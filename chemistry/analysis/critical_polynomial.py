@@ -182,26 +182,6 @@ def _with_s(expr, R, s):
                         lambda e: s**e.exp.p)
 
 
-def _split(expr, R, s, x):
-    """(p0, p1, d0, d1), rational in x, with expr = (p0 + p1 s)/(d0 + d1 s) and s^2 = R."""
-    num, den = sp.fraction(sp.together(expr))
-
-    def reduce(e):
-        e = sp.expand(e)
-        poly = sp.Poly(e, s)
-        a0, a1 = sp.S.Zero, sp.S.Zero
-        for (k,), c in poly.terms():
-            if k % 2:
-                a1 += c * R**(k // 2)
-            else:
-                a0 += c * R**(k // 2)
-        return sp.cancel(a0), sp.cancel(a1)
-
-    p0, p1 = reduce(num)
-    d0, d1 = reduce(den)
-    return p0, p1, d0, d1
-
-
 def _numerator_poly(expr, x):
     """Numerator of expr as an expanded polynomial in x, without the powers of x and
     constant factors dividing it."""
@@ -217,13 +197,53 @@ def _numerator_poly(expr, x):
     return _drop_constant(prim.as_expr())
 
 
-def _norm(expr, R, s, x):
-    """Numerator polynomial (in x) of the rationalised expr, and of its denominator."""
-    if R is None:
-        n, d = sp.fraction(sp.cancel(sp.together(expr)))
-        return _numerator_poly(n, x), _numerator_poly(d, x)
-    p0, p1, d0, d1 = _split(expr, R, s, x)
-    return (_numerator_poly(p0**2 - R * p1**2, x), _numerator_poly(d0**2 - R * d1**2, x))
+class _Algebra:
+    """Rational functions of x, or of x and s = sqrt(R(x)) kept in the normal form
+    a0(x) + a1(x) s (s^2 = R); d/dx acts with ds/dx = R' s / (2 R)."""
+
+    def __init__(self, x, s, R):
+        self.x, self.s, self.R = x, s, R
+        self.ds = sp.cancel(sp.diff(R, x) * s / (2 * R)) if s is not None else None
+
+    def d(self, F):
+        if self.s is None:
+            return sp.cancel(sp.diff(F, self.x))
+        return self.reduce(sp.diff(F, self.x) + sp.diff(F, self.s) * self.ds)
+
+    def _pair(self, e):
+        poly = sp.Poly(sp.expand(e), self.s)
+        a0, a1 = sp.S.Zero, sp.S.Zero
+        for (k,), c in poly.terms():
+            if k % 2:
+                a1 += c * self.R ** (k // 2)
+            else:
+                a0 += c * self.R ** (k // 2)
+        return a0, a1
+
+    def reduce(self, F):
+        """F in the normal form (cancelled)."""
+        if self.s is None:
+            return sp.cancel(F)
+        n, d = sp.fraction(sp.cancel(sp.together(F)))
+        n0, n1 = self._pair(n)
+        d0, d1 = self._pair(d)
+        den = sp.cancel(d0**2 - self.R * d1**2)
+        return (sp.cancel((n0 * d0 - self.R * n1 * d1) / den)
+                + self.s * sp.cancel((n1 * d0 - n0 * d1) / den))
+
+    def norm(self, F):
+        """(a0 + a1 s)(a0 - a1 s) = a0^2 - R a1^2 for F in normal form: it vanishes where
+        F or its conjugate does."""
+        if self.s is None:
+            return F
+        a0, a1 = F.coeff(self.s, 0), F.coeff(self.s, 1)
+        return sp.cancel(sp.together(a0**2 - self.R * a1**2))
+
+    def denominator(self, F):
+        """The denominator of F in normal form (a polynomial in x): F has a pole only where
+        it vanishes."""
+        _, den = sp.fraction(sp.together(F))
+        return den
 
 
 def _build(der):
@@ -242,26 +262,26 @@ def _build(der):
     except ValueError as exc:
         return None, f"no polynomial form ({exc})"
     s = sp.Symbol("s_root", positive=True) if R is not None else None
-    u1, u2 = sp.diff(u, x), sp.diff(u, x, 2)
-    w1, w2 = sp.diff(w, x), sp.diff(w, x, 2)
-    E = u2 * w1 - u1 * w2
-    Tc = w1 / u1
-    Pc = Tc * u - w
     if R is not None:
-        E, Tc, Pc = (_with_s(e, R, s) for e in (E, Tc, Pc))
+        u, w = _with_s(u, R, s), _with_s(w, R, s)
         gens = (x, s) + params
+        R = sp.cancel(sp.together(R))
     else:
         gens = (x,) + params
-    for e in (E, Tc, Pc):
+    for e in (u, w):
         if not sp.together(e).is_rational_function(*gens):
             return None, ("no polynomial form (T involves functions other than rational "
                           "ones and one square root)")
-    if R is None:
-        p0, p1 = sp.cancel(sp.together(E)), sp.S.Zero
-        N = _numerator_poly(E, x)
-    else:
-        p0, p1, _, _ = _split(E, R, s, x)
-        N = _numerator_poly(p0**2 - R * p1**2, x)
+    alg = _Algebra(x, s, R)
+    u1, w1 = alg.d(u), alg.d(w)
+    u2, w2 = alg.d(u1), alg.d(w1)
+    E = alg.reduce(u2 * w1 - u1 * w2)
+    Tc = alg.reduce(w1 / u1)
+    Pc = alg.reduce(Tc * u - w)
+    p0, p1 = (E, sp.S.Zero) if s is None else (E.coeff(s, 0), E.coeff(s, 1))
+    N = _numerator_poly(alg.norm(E), x)
+    T_parts = (_numerator_poly(alg.norm(Tc), x), _numerator_poly(alg.denominator(Tc), x))
+    P_parts = (_numerator_poly(alg.norm(Pc), x), _numerator_poly(alg.denominator(Pc), x))
     if N == 0:
         return None, ("no polynomial form (the critical conditions hold identically in the "
                       "state variable)")
@@ -275,8 +295,6 @@ def _build(der):
     m = max(m, 1)
     y = sp.Symbol("y", positive=True)
     Ny = sp.expand(N.subs(x, y ** sp.Rational(1, m))) if m > 1 else N.subs(x, y)
-    T_parts = _norm(Tc, R, s, x)
-    P_parts = _norm(Pc, R, s, x)
     UW, iso = None, None
     if R is None:
         U, W = _numerator_poly(u1, x), _numerator_poly(w1, x)
@@ -541,6 +559,33 @@ def _evaluate(sysm, fname, xv, pv, sv):
     return sysm.fn[fname](*args)
 
 
+def _positive_roots_mp(expr, y) -> list:
+    """The distinct positive real roots of a polynomial in y with exact coefficients, as
+    mpf at the working precision: isolated exactly (sympy), polished by a bracketing
+    solver (call inside ``mp.workdps``).  Coefficients that are not rational (pi) go through
+    :func:`bhchem.analysis.critical.positive_roots` (rounded to 60 digits)."""
+    poly = sp.Poly(expr, y)
+    if not (poly.domain.is_ZZ or poly.domain.is_QQ):
+        return [mp.mpf(str(sp.N(r, mp.mp.dps + 10))) for r in positive_roots(expr, y)]
+    sqf = poly.sqf_part()
+    coeffs = [mp.mpf(c.p) / c.q if hasattr(c, "q") else mp.mpf(int(c))
+              for c in (sp.Rational(a) for a in sqf.all_coeffs())]
+    out = []
+    for (a, b), _ in sqf.intervals():
+        if b <= 0:
+            continue
+        if a <= 0:
+            a, b = sqf.refine_root(a, b, eps=b / 4)
+            if b <= 0 or a < 0:
+                continue
+        if a == b:
+            out.append(mp.mpf(a.p) / a.q)
+            continue
+        lo, hi = mp.mpf(a.p) / a.q, mp.mpf(b.p) / b.q
+        out.append(mp.findroot(lambda t: mp.polyval(coeffs, t), (lo, hi), solver="anderson"))
+    return out
+
+
 def _physical_roots(sysm, values: dict):
     """[(x, T_c, P_c)] for the genuine positive roots of N with T_c > 0 and P_c > 0 at the
     given (exact) coupling values; None if N vanishes identically there."""
@@ -552,8 +597,8 @@ def _physical_roots(sysm, values: dict):
     out = []
     with _LOCK, mp.workdps(_DPS):
         pv = [mp.mpf(str(sp.N(values[q], _DPS + 10))) for q in sysm.params]
-        for yr in positive_roots(Ny, sysm.y):
-            xv = mp.mpf(str(sp.N(yr, _DPS + 10))) ** (mp.mpf(1) / sysm.m)
+        for yv in _positive_roots_mp(Ny, sysm.y):
+            xv = yv ** (mp.mpf(1) / sysm.m)
             try:
                 sv = None
                 if sysm.s is not None:
@@ -818,6 +863,8 @@ def polynomial_threshold_curves(family, couplings, box, n: int = 161, **fixed) -
                 continue
             done.add((kind, f))
             pts = _trace(f, c1, c2, xs, lo1, hi1, lo2, hi2)
+            if kind == "isolated-critical-point":
+                isolated_at = _isolated_checker(sysm, sub, c1, c2)
             kept = []
             for run in pts:
                 seg = []
@@ -825,7 +872,7 @@ def polynomial_threshold_curves(family, couplings, box, n: int = 161, **fixed) -
                     params = base.copy()
                     params[i1], params[i2] = p1, p2
                     if kind == "isolated-critical-point":
-                        ok = _isolated_at(sysm, sub, c1, c2, p1, p2)
+                        ok = isolated_at(p1, p2)
                     else:
                         lo_p, hi_p = params.copy(), params.copy()
                         if f.has(c2):
@@ -863,21 +910,38 @@ def _abs_terms(expr):
     return sp.Add(*[sp.Abs(t) for t in sp.Add.make_args(sp.expand(expr))])
 
 
-def _isolated_at(sysm, sub, c1, c2, p1, p2) -> bool:
-    vals = {**sub, c1: sp.Rational(p1), c2: sp.Rational(p2)}
-    U, W = (sp.expand(e.subs(vals)) for e in sysm.UW)
+def _isolated_checker(sysm, sub, c1, c2):
+    """A function (c1, c2) -> bool: u' and w' share a positive root x with T_c = w''/u''
+    > 0 and P_c > 0 there (double precision)."""
+    U, W = (sp.expand(e.subs(sub)) for e in sysm.UW)
+    x = sysm.x
+    if not U.has(x):
+        return lambda p1, p2: False
+    coeffs = sp.lambdify((c1, c2), sp.Poly(U, x).all_coeffs(), modules="numpy")
+    wf = sp.lambdify((x, c1, c2), W, modules="numpy")
+    wabs = sp.lambdify((x, c1, c2), _abs_terms(W), modules="numpy")
+    names = [q for q in sysm.params]
+    fixed = {q: float(v) for q, v in sub.items()}
+
+    def check(p1, p2):
+        params = [fixed.get(q, p1 if q is c1 else p2) for q in names]
+        cs = np.array([float(v) for v in coeffs(p1, p2)])
+        nz = np.nonzero(cs)[0]
+        if len(nz) == 0 or nz[0] == len(cs) - 1:
+            return False
+        xs = np.roots(cs[nz[0]:])
+        return _isolated_ok(sysm, xs, lambda xv: (wf(xv, p1, p2), wabs(xv, p1, p2)), params)
+    return check
+
+
+def _isolated_ok(sysm, xs, wvals, params) -> bool:
     fnp = sysm.fn["np"]
-    params = [float(vals[q]) for q in sysm.params]
-    if not U.has(sysm.x):
-        return False
-    xs = [complex(r) for r in np.roots([float(a) for a in sp.Poly(U, sysm.x).all_coeffs()])]
-    wabs = sp.lambdify(sysm.x, _abs_terms(W))
-    wf = sp.lambdify(sysm.x, W)
     for xr in xs:
         if abs(xr.imag) > 1e-9 * abs(xr) or xr.real <= 0:
             continue
         xv = xr.real
-        if abs(wf(xv)) > 1e-8 * wabs(xv):
+        wv, wa = wvals(xv)
+        if abs(wv) > 1e-8 * wa:
             continue
         with np.errstate(all="ignore"):
             Tv, Pv = fnp["Ti"](xv, *params), fnp["Pi"](xv, *params)
