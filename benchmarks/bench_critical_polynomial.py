@@ -17,8 +17,9 @@ crossing near bQ = 0.4237, one above.
   and relative residuals below 1e-9.
 
 Printed: both times, the ratio (target >= 50x), the number of critical points each finds,
-the values where the counts differ, and the largest relative difference of (T_c, P_c, r_c)
-where both find the same points.
+the values where the counts differ (with the engine's own search find_critical_points as the
+referee at up to 10 of them), and the largest relative difference of (T_c, P_c, r_c) where
+both find the same points.
 Run:  python benchmarks/bench_critical_polynomial.py [n]
 """
 from __future__ import annotations
@@ -31,6 +32,7 @@ import sympy as sp
 from scipy.optimize import fsolve
 
 from bhchem import bind
+from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.critical_polynomial import critical_points_over
 
 
@@ -110,6 +112,13 @@ def main() -> None:
         print(f"counts differ at {len(differ)} value(s) (tool finds more at {more}); first: "
               + ", ".join(f"b = {bs[i]:.6f}: tool {counts_tool[i]}, hand {counts_hand[i]}"
                           for i in differ[:5]))
+        check = differ[:: max(1, len(differ) // 10)][:10]
+        engine = [len(find_critical_points("born-infeld-ads", b=float(bs[i]), Q=1.0).physical)
+                  for i in check]
+        agree = sum(int(e == counts_tool[i]) for e, i in zip(engine, check))
+        print(f"the engine's own search (find_critical_points, scanned) at {len(check)} of "
+              f"them: agrees with the tool at {agree}, with the hand loop at "
+              f"{sum(int(e == counts_hand[i]) for e, i in zip(engine, check))}")
     else:
         print("counts agree at every b")
     print(f"largest relative difference of (T_c, P_c, r_c) where the counts agree: {worst:.1e}")
