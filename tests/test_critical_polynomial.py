@@ -16,7 +16,8 @@ import pytest
 import sympy as sp
 
 from bhchem.analysis.critical import find_critical_points
-from bhchem.analysis.critical_polynomial import (NoPolynomialFormError, critical_polynomial,
+from bhchem.analysis.critical_polynomial import (NoPolynomialFormError, critical_points_over,
+                                                 critical_polynomial,
                                                  polynomial_threshold_curves,
                                                  polynomial_thresholds)
 from bhchem.cli.main import main
@@ -86,10 +87,17 @@ def test_born_infeld_rationalised_roots_are_the_critical_points():
     # scale-free: y stands for (r b)^4 and Q for Q b; at b = 0.4, Q = 1: Q -> 0.4
     roots = sorted(float(r) for r in sp.Poly(expr.subs(Q, sp.Rational(2, 5)), y).real_roots()
                    if r > 0)
-    found = [cp.r for cp in find_critical_points("born-infeld-ads", Q=1.0, b=0.4).physical]
+    search = find_critical_points("born-infeld-ads", Q=1.0, b=0.4).physical
+    found = [cp.r for cp in search]
     assert len(found) == 2
     for r_c in found:
         assert min(abs((r_c * 0.4) ** 4 / yr - 1) for yr in roots) <= 1e-9
+    # the vectorised path (batched companion roots + Newton) gives the same points
+    over = critical_points_over("born-infeld-ads", "b", [0.34, 0.4], Q=1.0)
+    assert over.converged and over.counts().tolist() == [0, 2] and over.unresolved == ()
+    for (T, P, x), cp in zip(over.points[1], search):
+        assert (T, P, x) == pytest.approx((cp.T, cp.P, cp.x), rel=1e-12)
+    assert max(over.residuals[1]) <= 1e-12
 
 
 def test_lovelock_isolated_critical_point_curve():

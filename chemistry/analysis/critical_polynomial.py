@@ -1006,6 +1006,11 @@ class CriticalPointsOver(Result):
         counted in ``message`` and left out of ``points``, never returned unchecked).
     method : str
     message : str
+    unresolved : tuple of int
+        Indices of the values with a candidate root that did not converge or could not be
+        decided (an isolated critical point, where T(x, P) is 0/0; a nearly multiple root;
+        coefficients that are not finite): a caller that needs them searches those values
+        in full.
     """
 
     family: str
@@ -1016,6 +1021,7 @@ class CriticalPointsOver(Result):
     converged: bool
     method: str
     message: str
+    unresolved: tuple = ()
 
     def counts(self) -> np.ndarray:
         """Number of physical critical points at each value."""
@@ -1091,6 +1097,10 @@ def critical_points_over(family, coupling: str, values, newton_steps: int = 2,
         C = np.stack([np.broadcast_to(np.asarray(a, dtype=float), (n,))
                       for a in fnp["coeffs"](*params)], axis=1)
         roots = _batched_roots(C)
+    # roots at y = 0 (the edge of the domain; exact zeros of trailing coefficients) are not
+    # candidates
+    big = np.nanmax(np.where(np.isfinite(roots), np.abs(roots), 0.0), axis=1, initial=0.0)
+    roots = np.where(np.abs(roots) <= 1e-12 * big[:, None], np.nan, roots)
     real = (np.abs(roots.imag) <= 1e-7 * np.abs(roots)) & (roots.real > 0)
     rows, cols = np.nonzero(real)
     ys = roots.real[rows, cols]
@@ -1107,6 +1117,14 @@ def critical_points_over(family, coupling: str, values, newton_steps: int = 2,
             keep &= np.abs(p0 + p1 * sv) <= 1e-6 * (np.abs(p0) + np.abs(p1 * sv))
             extra = [sv]
         Pc = np.broadcast_to(fnp["Pc"](xs, *P_args, *extra), xs.shape).astype(float)
+    # a genuine root where T_c = w'/u' is 0/0 (an isolated critical point) is not decided here
+    undecided = {int(i) for i in rows[keep & ~np.isfinite(Pc)]}
+    undecided |= {int(i) for i in np.nonzero(~np.all(np.isfinite(C), axis=1))[0]}
+    # a nearly multiple root (eigenvalues of a cluster split into complex pairs of relative
+    # size ~ eps^(1/m)): a merge of critical points or an isolated point, decided in full
+    near = ((np.abs(roots.imag) > 1e-7 * np.abs(roots))
+            & (np.abs(roots.imag) <= 1e-3 * np.abs(roots)) & (roots.real > 0))
+    undecided |= {int(i) for i in np.nonzero(np.any(near, axis=1))[0]}
     keep &= np.isfinite(Pc) & (Pc > 0)
     rows, xs, Pc = rows[keep], xs[keep], Pc[keep]
     P_args = [p[rows] for p in params]
@@ -1143,7 +1161,7 @@ def critical_points_over(family, coupling: str, values, newton_steps: int = 2,
             phys &= np.broadcast_to(np.asarray(
                 comp.function(f"condition_{i}")(x, P, *P_args), dtype=bool), x.shape)
     good = res <= RESIDUAL_TOLERANCE
-    failed = int(np.sum(phys & ~good))
+    failed = int(np.sum(~good))
     per_point = [[] for _ in range(n)]
     for k in np.nonzero(phys & good)[0]:
         per_point[rows[k]].append((float(T[k]), float(P[k]), float(x[k]), float(res[k])))
@@ -1158,9 +1176,13 @@ def critical_points_over(family, coupling: str, values, newton_steps: int = 2,
     if failed:
         msg += f"; WARNING: {failed} candidate(s) left out, residuals above " \
                f"{RESIDUAL_TOLERANCE:.0e} after the polish"
+    if undecided:
+        msg += (f"; WARNING: at {len(undecided)} value(s) a root has T_c = 0/0 (an isolated "
+                f"critical point?) or the coefficients are not finite: not decided here")
     return CriticalPointsOver(
         family=th.family.name, coupling=coupling, values=vals, points=tuple(points),
-        residuals=tuple(residuals), converged=failed == 0,
+        residuals=tuple(residuals), converged=failed == 0 and not undecided,
+        unresolved=tuple(sorted(undecided | {int(rows[k]) for k in np.nonzero(~good)[0]})),
         method=(f"batched companion-matrix roots of the critical polynomial in "
                 f"{th.derivation.state.name}^{sysm.m}, {newton_steps} Newton step(s) on "
                 f"(x T_x, x^2 T_xx) = 0"),

@@ -8,7 +8,13 @@ dimensionless critical data do not change; one full search is rescaled,
 T_c ~ q^(-1/n), P_c ~ q^(-2/n), x_c ~ q^(s/n) (s the length dimension of the
 state variable).
 
-*continuation*: full searches at anchor values; between two anchors with the same
+*critical polynomial*: when the family has one
+(:func:`bhchem.analysis.critical_polynomial.critical_points_over`), the roots for every value
+at once (batched companion-matrix eigenvalues) with a Newton polish on the original
+conditions; a value with a candidate that does not converge there (an isolated critical
+point, a near-double root) gets a full search.
+
+*continuation* (families without a polynomial): full searches at anchor values; between two anchors with the same
 number of critical points, each point is continued by a vectorised damped Newton
 solve on (x T_x, x^2 T_xx) = 0 over all values in the interval at once, from
 guesses interpolated between the anchors; intervals where the number changes are
@@ -25,6 +31,7 @@ import numpy as np
 from bhchem.core.results import Result
 from bhchem.core.compiled import bind
 from bhchem.analysis.critical import RESIDUAL_TOLERANCE, find_critical_points
+from bhchem.analysis.critical_polynomial import NoPolynomialFormError, critical_points_over
 
 
 @dataclass(repr=False)
@@ -70,7 +77,19 @@ def critical_scan(family, parameter: str, values, n_anchor: int = 24, **fixed) -
             out[k] = pts[i]
         return CriticalScan(parameter, values, out, "scale invariance (one full search, "
                             "rescaled)", 1)
-    return _continuation(family, parameter, values, order, sv, n_anchor, fixed)
+    try:
+        over = critical_points_over(family, parameter, values, **fixed)
+    except NoPolynomialFormError:
+        return _continuation(family, parameter, values, order, sv, n_anchor, fixed)
+    pts = [list(p) for p in over.points]
+    for i in over.unresolved:
+        pts[i] = _full(family, parameter, values[i], fixed)
+    notes = [over.message]
+    if over.unresolved:
+        notes.append(f"{len(over.unresolved)} value(s) with an unconverged polynomial root "
+                     f"searched in full")
+    return CriticalScan(parameter, values, pts, "critical polynomial: " + over.method,
+                        len(over.unresolved), notes)
 
 
 def _full(family, parameter, q, fixed):
