@@ -408,9 +408,9 @@ def critical_polynomial(family, **params) -> CriticalPolynomial:
 
     Examples
     --------
-    >>> cp = critical_polynomial("rn-ads", Q=1.0)
+    >>> cp = critical_polynomial("rn-ads", Q=1.0)   # r_c = sqrt(6) Q (Kubiznak & Mann 2012)
     >>> cp.variable, cp.factored, cp.scale_free
-    ('r^2', 'y - 6', {'r': 'r/Q'})
+    ('r^2', 'y - 6', {'y': '(r/Q)^2'})
     """
     th = _thermo(family, params)
     sysm, reason = _system(th.derivation)
@@ -710,7 +710,7 @@ def polynomial_thresholds(family, coupling: str, interval, **fixed) -> list:
 
     Examples
     --------
-    >>> ev = polynomial_thresholds("gauss-bonnet-ads", "alpha", (0.1, 2.0), Q=0.0, k=1, d=5)
+    >>> ev = polynomial_thresholds("rn-ads", "Q", (0.1, 2.0))   # Q is the only scale
     >>> [e.kind for e in ev]
     []
     """
