@@ -33,13 +33,17 @@ Thresholds (:func:`polynomial_thresholds`) along one coupling c, the others fixe
 * ``critical-count``: the discriminant of N in y, and its leading and constant
   coefficients (a root through y = infinity or y = 0, the edges of the domain);
 * ``critical-temperature-zero`` / ``critical-pressure-zero``: the resultant in x of N with
-  the numerator (and denominator: a crossing through a pole) of T_c or P_c;
+  the numerator of T_c or P_c; with the denominator, a critical point that passes through a
+  pole of T_c or P_c (T_c, P_c -> +-infinity: the sign changes there too; the message says
+  so);
 * ``isolated-critical-point`` (rational families): the resultant of the numerators of u'
   and w' (they share a root: every isotherm passes through one point, Dolan et al. 2014).
 
 Each real root of these polynomials in the interval is a candidate; it is returned only if
 the number of *physical* critical points -- positive real roots x of N that are genuine
-(see above) with T_c > 0 and P_c > 0 -- differs just below and just above it (exact root
+(see above) with T_c > 0 and P_c > 0 -- differs just below and just above it, in the way
+its kind says (:func:`_real_change`: a count event changes the number of positive roots, a
+T_c or P_c crossing does not, so a coincident root of another equation is not taken for it) (exact root
 isolation at rational couplings beside the candidate); an isolated-critical-point candidate
 only if u' and w' share a positive root there with T_c = w''/u'' > 0 and P_c > 0.  Other
 declared state conditions of the family are not applied to the count.  With rational fixed
@@ -586,9 +590,36 @@ def _positive_roots_mp(expr, y) -> list:
     return out
 
 
+def _tally(roots) -> tuple:
+    """(all, T_c > 0, P_c > 0, physical) counts of a list of (x, T_c, P_c)."""
+    return (len(roots), sum(1 for r in roots if r[1] > 0), sum(1 for r in roots if r[2] > 0),
+            sum(1 for r in roots if r[1] > 0 and r[2] > 0))
+
+
+def _real_change(kind: str, below: tuple, above: tuple, pole: bool = False) -> bool:
+    """Whether the counts (see :func:`_tally`) either side of a candidate show an event of
+    this kind: the physical count changes, and -- so that a coincident root of another
+    equation is not mistaken for it -- for 'critical-count' the number of genuine positive
+    roots changes, for a T_c (P_c) crossing it does not, nor the number with P_c > 0
+    (T_c > 0), while the number with T_c > 0 (P_c > 0) does.  Through a pole (``pole``: the
+    candidate zeroes the denominator of T_c or P_c; both may change sign there at once) only
+    the number of genuine positive roots must stay."""
+    if below[3] == above[3]:
+        return False
+    if pole:
+        return below[0] == above[0]
+    if kind == "critical-count":
+        return below[0] != above[0]
+    if kind == "critical-temperature-zero":
+        return below[0] == above[0] and below[2] == above[2] and below[1] != above[1]
+    if kind == "critical-pressure-zero":
+        return below[0] == above[0] and below[1] == above[1] and below[2] != above[2]
+    return False
+
+
 def _physical_roots(sysm, values: dict):
-    """[(x, T_c, P_c)] for the genuine positive roots of N with T_c > 0 and P_c > 0 at the
-    given (exact) coupling values; None if N vanishes identically there."""
+    """[(x, T_c, P_c)] for the genuine positive roots of N (T_c, P_c real and finite, of any
+    sign) at the given (exact) coupling values; None if N vanishes identically there."""
     Ny = sp.expand(sysm.Ny.subs(values))
     if Ny == 0:
         return None
@@ -614,7 +645,7 @@ def _physical_roots(sysm, values: dict):
                 Pv = _evaluate(sysm, "Pc", xv, pv, sv)
             except ZeroDivisionError:
                 continue
-            if mp.im(Tv) == 0 and mp.im(Pv) == 0 and Tv > 0 and Pv > 0:
+            if mp.im(Tv) == 0 and mp.im(Pv) == 0 and mp.isfinite(Tv) and mp.isfinite(Pv):
                 out.append((float(xv), float(Tv), float(Pv)))
     return out
 
@@ -748,10 +779,17 @@ def polynomial_thresholds(family, coupling: str, interval, **fixed) -> list:
         else:
             below = _physical_roots(sysm, {**sub, c: _rational(fv - h)})
             above = _physical_roots(sysm, {**sub, c: _rational(fv + h)})
-            if below is None or above is None or len(below) == len(above):
+            if below is None or above is None:
                 continue
-            change = (f"{len(below)} -> {len(above)} physical critical point(s) "
-                      f"(T_c > 0, P_c > 0) across it")
+            below, above = _tally(below), _tally(above)
+            pole = "denominator" in method
+            if not _real_change(kind, below, above, pole):
+                continue
+            change = (f"{below[3]} -> {above[3]} physical critical point(s) "
+                      f"(T_c > 0, P_c > 0) across it, of {below[0]} -> {above[0]} positive "
+                      f"root(s)" + ("; the critical point passes through a pole of "
+                                    f"{'T_c' if 'T_c' in method else 'P_c'} "
+                                    "(-> +-infinity), not through zero" if pole else ""))
         del vals
         with _LOCK, mp.workdps(_DPS):
             fval = abs(sp.N(f.subs(c, sp.Rational(fv)), _DPS))
@@ -773,19 +811,19 @@ def polynomial_thresholds(family, coupling: str, interval, **fixed) -> list:
     return events
 
 
-def _count_numeric(sysm, params: np.ndarray) -> int:
-    """Number of physical critical points (genuine positive roots of N with T_c > 0 and
-    P_c > 0) at one point of coupling space, in double precision (for tracing curves)."""
+def _count_numeric(sysm, params: np.ndarray) -> tuple:
+    """The counts of :func:`_tally` (genuine positive roots of N; with T_c > 0; with P_c > 0;
+    physical) at one point of coupling space, in double precision (for tracing curves)."""
     fnp = sysm.fn["np"]
     coeffs = np.array([complex(v) for v in np.broadcast_arrays(*fnp["coeffs"](*params))],
                       dtype=complex).real
     nz = np.nonzero(np.abs(coeffs) > 1e-300)[0]
     if len(nz) == 0:
-        return -1
+        return (-1, -1, -1, -1)
     coeffs = coeffs[nz[0]:]
     roots = np.roots(coeffs) if len(coeffs) > 1 else np.array([])
     ys = roots[(np.abs(roots.imag) <= 1e-9 * np.abs(roots)) & (roots.real > 0)].real
-    count = 0
+    found = []
     with np.errstate(all="ignore"):
         for yv in ys:
             xv = yv ** (1.0 / sysm.m)
@@ -800,9 +838,9 @@ def _count_numeric(sysm, params: np.ndarray) -> int:
                     continue
                 extra = (sv,)
             Tv, Pv = fnp["Tc"](xv, *params, *extra), fnp["Pc"](xv, *params, *extra)
-            if np.isfinite(Tv) and np.isfinite(Pv) and Tv > 0 and Pv > 0:
-                count += 1
-    return count
+            if np.isfinite(Tv) and np.isfinite(Pv):
+                found.append((xv, Tv, Pv))
+    return _tally(found)
 
 
 def polynomial_threshold_curves(family, couplings, box, n: int = 161, **fixed) -> list:
@@ -880,7 +918,9 @@ def polynomial_threshold_curves(family, couplings, box, n: int = 161, **fixed) -
                         else:
                             hx = 1e-6 * (hi1 - lo1)
                             lo_p[i1], hi_p[i1] = p1 - hx, p1 + hx
-                        ok = _count_numeric(sysm, lo_p) != _count_numeric(sysm, hi_p)
+                        ok = _real_change(kind, _count_numeric(sysm, lo_p),
+                                          _count_numeric(sysm, hi_p),
+                                          "denominator" in method)
                     if ok:
                         seg.append((p1, p2))
                     elif len(seg) > 1:
