@@ -68,6 +68,15 @@ def test_born_infeld_threshold_one_over_sqrt8():
     appear there (Q = 1), exact sqrt(2)/4, and the engine's scanned search (no polynomial)
     agrees on the count below (none)."""
     events = polynomial_thresholds("born-infeld-ads", "b", (0.3, 0.6), Q=1.0)
+    # two events: the pair appears (critical-count; the resultant with T_c shares the factor
+    # 8 b^2 - 1 but no critical point crosses T = 0 there, so it is not reported), and the
+    # one of lower P_c crosses P = 0 at bQ = sqrt(3 + 2 sqrt(3))/6 = 0.4237 (GKM 2012 give
+    # this upper end of the two-critical-point window; from memory)
+    assert [e.kind for e in events] == ["critical-count", "critical-pressure-zero"]
+    upper = sp.sqrt(3 + 2 * sp.sqrt(3)) / 6
+    assert sp.simplify(sp.sympify(events[1].exact) - upper) == 0
+    assert abs(events[1].value - float(upper)) <= 1e-15 * float(upper)
+    assert "2 -> 1 physical" in events[1].message
     (ev,) = [e for e in events if e.kind == "critical-count"]
     assert ev.exact == "sqrt(2)/4"
     assert abs(ev.value - 1 / math.sqrt(8)) <= 1e-12 / math.sqrt(8)
