@@ -53,7 +53,7 @@ from __future__ import annotations
 
 import math
 import threading
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import mpmath as mp
 import numpy as np
@@ -767,7 +767,6 @@ def polynomial_thresholds(family, coupling: str, interval, **fixed) -> list:
         fv = float(v)
         others = [abs(o - fv) for o in values if abs(o - fv) > 1e-13 * max(1.0, abs(fv))]
         h = min(1e-7 * max(abs(fv), width), min(others, default=width) / 3)
-        vals = {c: None, **sub}
         if kind == "isolated-critical-point":
             if exact is None:
                 continue
@@ -790,7 +789,6 @@ def polynomial_thresholds(family, coupling: str, interval, **fixed) -> list:
                       f"root(s)" + ("; the critical point passes through a pole of "
                                     f"{'T_c' if 'T_c' in method else 'P_c'} "
                                     "(-> +-infinity), not through zero" if pole else ""))
-        del vals
         with _LOCK, mp.workdps(_DPS):
             fval = abs(sp.N(f.subs(c, sp.Rational(fv)), _DPS))
             scale = sum(abs(sp.N(t.subs(c, sp.Rational(fv)), _DPS))
