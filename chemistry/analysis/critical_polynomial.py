@@ -535,26 +535,33 @@ def _real_roots_in(F, c, lo, hi):
     if F == 0 or not F.has(c):
         return []
     found = []
-    for f, _ in sp.factor_list(F)[1]:
-        if not f.has(c):
-            continue
-        pf = sp.Poly(f, c)
-        rational = pf.domain.is_ZZ or pf.domain.is_QQ
-        if rational:
-            roots = [(_radical(r, pf), mp.mpf(str(sp.N(r, _DPS + 10))))
-                     for r in pf.real_roots()]
-        else:
-            roots = [(None, mp.mpf(str(sp.re(r)))) for r in pf.nroots(n=_DPS + 10)
-                     if abs(sp.im(r)) <= 1e-30 * (1 + abs(sp.re(r)))]
-            if pf.degree() <= 2:
-                exact = [e for e in sp.solve(f, c) if e.is_real]
-                roots = [(min(exact, key=lambda e: abs(sp.N(e, _DPS) - v)) if exact
-                          else None, v) for _, v in roots]
-        for r, v in roots:
-            if lo <= v <= hi:
-                if r is not None and pf.degree() <= 2:
-                    r = sp.nsimplify(sp.radsimp(r))
-                found.append((r, v, f))
+    with _LOCK, mp.workdps(_DPS + 10):     # the values carry 50 digits
+        for f, _ in sp.factor_list(F)[1]:
+            if f.has(c):
+                found += _factor_roots(f, c, lo, hi)
+    return found
+
+
+def _factor_roots(f, c, lo, hi) -> list:
+    """_real_roots_in for one irreducible factor (inside ``mp.workdps``)."""
+    found = []
+    pf = sp.Poly(f, c)
+    rational = pf.domain.is_ZZ or pf.domain.is_QQ
+    if rational:
+        roots = [(_radical(r, pf), mp.mpf(str(sp.N(r, _DPS + 10))))
+                 for r in pf.real_roots()]
+    else:
+        roots = [(None, mp.mpf(str(sp.re(r)))) for r in pf.nroots(n=_DPS + 10)
+                 if abs(sp.im(r)) <= 1e-30 * (1 + abs(sp.re(r)))]
+        if pf.degree() <= 2:
+            exact = [e for e in sp.solve(f, c) if e.is_real]
+            roots = [(min(exact, key=lambda e: abs(sp.N(e, _DPS) - v)) if exact
+                      else None, v) for _, v in roots]
+    for r, v in roots:
+        if lo <= v <= hi:
+            if r is not None and pf.degree() <= 2:
+                r = sp.nsimplify(sp.radsimp(r))
+            found.append((r, v, f))
     return found
 
 
