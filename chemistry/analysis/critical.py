@@ -1097,10 +1097,16 @@ def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
     return replace(cp, scale_free=scale_free_values(th, cp))
 
 
-def _power_label(name: str, e: sp.Rational) -> str:
+def power_label(name: str, e) -> str:
+    """``Q``, ``Q^2`` or ``Q^(1/2)``: a parameter name raised to a rational power e > 0, as in
+    the labels of :func:`scale_free_values` (``P_c*Q^2``)."""
+    e = sp.nsimplify(e)
     if e == 1:
         return name
     return f"{name}^{e}" if e.q == 1 and e > 0 else f"{name}^({e})"
+
+
+_power_label = power_label  # the name used inside this module before it was public
 
 
 def scale_free_values(th: Thermodynamics, cp: CriticalPoint) -> dict:

@@ -59,7 +59,8 @@ import mpmath as mp
 import numpy as np
 import sympy as sp
 
-from bhchem.analysis.critical import RESIDUAL_TOLERANCE, linear_isotherm, positive_roots
+from bhchem.analysis.critical import (RESIDUAL_TOLERANCE, linear_isotherm, positive_roots,
+                                      power_label)
 from bhchem.analysis.events import EventCurve, StructureEvent
 from bhchem.core.compiled import Thermodynamics, bind
 from bhchem.core.results import Result
@@ -338,13 +339,6 @@ def _reference(th, der):
                  if n != 0 and th.values[nm] != 0), None)
 
 
-def _label(name: str, power) -> str:
-    power = sp.nsimplify(power)
-    if power == 0:
-        return name
-    if power == 1:
-        return name
-    return f"{name}^{power}" if power.q == 1 else f"{name}^({power})"
 
 
 def _scale_free_map(th, sysm):
@@ -359,15 +353,15 @@ def _scale_free_map(th, sysm):
     labels = {}
     s_dim = der.dimension - 2 if sysm.x.name == "S" else 1
     e = sp.nsimplify(s_dim) / n
-    labels[sysm.x.name] = (f"{sysm.x.name}/{_label(name, e)}" if e > 0 else
-                           f"{sysm.x.name}*{_label(name, -e)}")
+    labels[sysm.x.name] = (f"{sysm.x.name}/{power_label(name, e)}" if e > 0 else
+                           f"{sysm.x.name}*{power_label(name, -e)}")
     for q in sysm.params:
         mq = sp.nsimplify(der.length_dimensions.get(q.name, 0))
         if q.name == name or mq == 0:
             continue
         e = mq / n
-        labels[q.name] = (f"{q.name}/{_label(name, e)}" if e > 0 else
-                          f"{q.name}*{_label(name, -e)}")
+        labels[q.name] = (f"{q.name}/{power_label(name, e)}" if e > 0 else
+                          f"{q.name}*{power_label(name, -e)}")
     return sub, labels
 
 
@@ -691,7 +685,7 @@ def _event_scale_free(th, values: dict) -> dict:
         if nm == name or m == 0:
             continue
         e = sp.nsimplify(m) / sp.nsimplify(n)
-        label = (f"{nm}/{_label(name, e)}" if e > 0 else f"{nm}*{_label(name, -e)}")
+        label = (f"{nm}/{power_label(name, e)}" if e > 0 else f"{nm}*{power_label(name, -e)}")
         out[label] = float(values[nm]) / ell**m
     return out
 
