@@ -63,6 +63,7 @@ from bhchem.analysis.critical import (RESIDUAL_TOLERANCE, linear_isotherm, posit
                                       power_label)
 from bhchem.analysis.events import EventCurve, StructureEvent
 from bhchem.core.compiled import Thermodynamics, bind
+from bhchem.core.identity_cache import MISSING, IdentityCache
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError, InvalidArgumentError
 
@@ -146,23 +147,19 @@ class _System:
     fn: dict                 # mpmath functions of (x, *params)
 
 
-_CACHE: dict = {}
+_SYSTEMS = IdentityCache(32)
 
 
 def _system(der):
     """(system, None) or (None, reason); cached per derivation."""
-    hit = _CACHE.get(id(der))
-    if hit is not None and hit[0] is der:
-        return hit[1]
+    hit = _SYSTEMS.get(der)
+    if hit is not MISSING:
+        return hit
     try:
         out = _build(der)
     except (TypeError, ValueError, NotImplementedError, sp.PolynomialError) as exc:
         out = (None, f"no polynomial form ({type(exc).__name__}: {exc})")
-    with _LOCK:
-        if len(_CACHE) > 32:
-            _CACHE.clear()
-        _CACHE[id(der)] = (der, out)
-    return out
+    return _SYSTEMS.put(der, out)
 
 
 def _radicand(expr, x):
