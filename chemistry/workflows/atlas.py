@@ -27,6 +27,20 @@ each critical point; :func:`classification`), every change is located by bisecti
 point) is listed with ``converged: false`` and a one-line note, never dropped.  The
 ``structures`` list names every structure that occurs in the rows or the boundaries.
 
+Methods: ``diagrams`` classifies every distinct scale-free grid point by its own full phase
+diagram (above).  ``events`` (1D grids) locates the structure events along the axis first
+(:func:`bhchem.analysis.structure_events.structure_events`: continuation + Newton, each event
+to ~1e-14), cuts the axis at them, and computes full phase diagrams only for one
+representative grid point per interval plus a seeded random check sample of
+``min(CHECK_SAMPLE, n)`` further grid points; every other point takes the structure,
+``n_critical`` and critical-point kinds of its interval (its row says ``from_interval``; the
+per-point numbers, critical values and triple point, are left empty there).  A check point
+whose classification differs from its interval's is listed in ``checks`` (and on stderr through
+``notify``), never hidden; the events (with the structures below and above) are in
+``events`` and drawn on the figure.  ``auto`` (the default) takes ``events`` for a linear 1D
+grid of at least EVENTS_MIN_POINTS points (below that per-point diagrams cost about as much
+as the representatives and checks) and ``diagrams`` otherwise.
+
 Files: the table (atlas.csv, atlas.json) is the result.  The figure (atlas.png) is drawn
 first; if it cannot be written (matplotlib missing, disk full) the table says so in
 ``figure_error`` and no figure of an earlier run is left behind.
@@ -72,6 +86,13 @@ MAX_GRID_POINTS = 100_000
 #: chunks are recomputed after a kill)
 MANIFEST_EVERY = 16
 ATLAS_ANCHORS = 48  # isobar anchors per phase diagram (narrow reentrant windows need them)
+#: grid points checked by a full diagram in the events method (seeded, see scan)
+CHECK_SAMPLE = 8
+#: the seed of the check sample (fixed: a rerun checks the same points)
+CHECK_SEED = 17
+#: ``method="auto"`` uses events for a linear 1D grid of at least this many points
+EVENTS_MIN_POINTS = 16
+METHODS = ("auto", "diagrams", "events")
 
 
 @dataclass(frozen=True)
@@ -198,7 +219,8 @@ def family_source_sha256(fam):
 
 
 #: manifest keys that identify a scan (``chunks`` holds the checksums and may grow)
-_IDENTITY = ("family", "family_file", "grid", "fixed", "chunk_size", "anchors", "conditions")
+_IDENTITY = ("family", "family_file", "grid", "fixed", "chunk_size", "anchors", "conditions",
+             "method")
 
 
 def _resume_manifest(man_path, manifest, out_dir, say) -> dict:
@@ -321,7 +343,8 @@ def _as_completed(executor, futures):
 
 def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, workers=1,
          executor=None, chunk_size=CHUNK_SIZE, refine=8, quiet=True,
-         stop_after_chunks=None, notify=None, conditions=None, without=()) -> dict:
+         stop_after_chunks=None, notify=None, conditions=None, without=(),
+         method="auto") -> dict:
     """Run (or resume) an atlas scan; write atlas.csv, atlas.json, atlas.png into out_dir.
 
     Returns the atlas document (as written to atlas.json).  ``stop_after_chunks`` stops
@@ -336,6 +359,10 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
 
     ``conditions`` and ``without`` choose which states count at every point (as in
     :func:`bhchem.bind`); the selection is part of the scan's identity and of atlas.json.
+
+    ``method`` is ``"diagrams"`` (a full phase diagram per distinct point), ``"events"``
+    (1D: structure events, then diagrams for one representative per interval and a check
+    sample; see the module docstring) or ``"auto"``.
     """
     fixed = dict(fixed or {})
     fam = _family(family_name, family_file)
@@ -360,6 +387,14 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         raise BhchemError(f"the grid has {total:,} points; one scan takes at most "
                           f"{MAX_GRID_POINTS:,} (a row per point stays in memory): coarsen it or "
                           f"split it into several scans")
+    if method not in METHODS:
+        raise BhchemError(f"method {method!r}: choose one of {', '.join(METHODS)}")
+    if method == "auto":
+        method = "events" if (len(axes) == 1 and axes[0].spacing == "linear"
+                              and len(axes[0].values) >= EVENTS_MIN_POINTS) else "diagrams"
+    if method == "events" and len(axes) != 1:
+        raise BhchemError("--method events needs exactly one --grid axis (use diagrams for "
+                          "2D and 3D grids)")
     points = [dict(zip(names, combo)) for combo in itertools.product(*(a.values for a in axes))]
     # scale invariance: one computation per distinct set of scale-free combinations
     keys = [scale_free_key(bind(fam, **{**fixed, **p})) for p in points]
@@ -368,10 +403,15 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         if k not in rep_of:
             rep_of[k] = i
             reps.append(i)
+    plan = None
+    if method == "events":
+        plan = _event_plan(fam, axes[0], fixed, admissible)
+        need = {rep_of[keys[i]] for i in plan["computed"]}
+        reps = [i for i in reps if i in need]
     manifest = {"family": family_name, "family_file": os.path.abspath(family_file) if family_file else None,
                 "grid": [a.spec for a in axes], "fixed": fixed, "chunk_size": chunk_size,
                 "anchors": ATLAS_ANCHORS, "version": __version__,
-                "conditions": adm.to_dict(),
+                "conditions": adm.to_dict(), "method": method,
                 "family_source_sha256": family_source_sha256(fam)}
     out_dir = os.path.abspath(out_dir)
     chunk_dir = os.path.join(out_dir, "chunks")
@@ -462,11 +502,15 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                 computed[r["index"]] = r
         rows = []
         for i, p in enumerate(points):
-            r = dict(computed[rep_of[keys[i]]])
+            src = computed.get(rep_of[keys[i]])
+            r = dict(src) if src is not None else {}
             r.update({"index": i, **p})
             rows.append(r)
-        boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine, executor,
-                                 admissible)
+        if plan is None:
+            boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine,
+                                     executor, admissible)
+        else:
+            boundaries = _apply_plan(plan, axes[0], rows, say)
     finally:
         if own is not None:
             own.shutdown(wait=True, cancel_futures=True)
@@ -474,9 +518,106 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             progress.close()
     doc = _assemble(family_name, fam, axes, fixed, rows, boundaries)
     doc["conditions"] = adm.to_dict()
-    doc["distinct_scale_free_points"] = len(reps)
+    doc["distinct_scale_free_points"] = len(set(rep_of.values()))
+    doc["method"] = method
+    if plan is not None:
+        doc["events"] = plan["events"]
+        doc["checks"] = plan["checks"]
+        doc["unexplained"] = plan["unexplained"]
+        doc["diagrams_computed"] = len(reps)
     _write_outputs(out_dir, doc, axes)
     return doc
+
+
+# -- the events method (1D) ---------------------------------------------------------------------
+def _event_plan(fam, axis, fixed, admissible) -> dict:
+    """Events along the axis, the interval of every grid point, the representatives and the
+    seeded check sample (grid indices whose full diagrams are computed)."""
+    from bhchem.analysis.structure_events import structure_events
+    lo, hi = axis.values[0], axis.values[-1]
+    if lo > hi:
+        lo, hi = hi, lo
+    found = structure_events(fam, axis.name, (lo, hi), **fixed)
+    cuts = [e.value for e in found.events]
+    vals = np.array(axis.values)
+    interval = np.searchsorted(np.array(cuts), vals, side="right") if cuts else \
+        np.zeros(len(vals), int)
+    on_event = [i for i, v in enumerate(vals)
+                if any(abs(v - c) <= 1e-12 * max(1.0, abs(c)) for c in cuts)]
+    reps = {}
+    for k in sorted(set(interval.tolist())):
+        members = [i for i in range(len(vals)) if interval[i] == k and i not in on_event]
+        if not members:
+            continue
+        mid = 0.5 * (vals[members[0]] + vals[members[-1]])
+        reps[k] = min(members, key=lambda i: abs(vals[i] - mid))
+    rest = [i for i in range(len(vals)) if i not in reps.values()]
+    rng = np.random.default_rng(CHECK_SEED)
+    n_check = min(CHECK_SAMPLE, len(rest))
+    checks = sorted(int(i) for i in rng.choice(rest, size=n_check, replace=False)) \
+        if n_check else []
+    computed = sorted(set(reps.values()) | set(checks) | set(on_event))
+    return {"found": found, "interval": interval.tolist(), "reps": reps, "checks": checks,
+            "computed": computed, "on_event": on_event}
+
+
+def _apply_plan(plan, axis, rows, say) -> list:
+    """Fill every row from its interval's representative, compare the check sample, fill the
+    events' ``below``/``above``; returns the boundaries (one per event)."""
+    from dataclasses import replace
+    reps, interval = plan["reps"], plan["interval"]
+    keep = ("structure", "n_critical", "cp1:kind", "cp2:kind", "cp3:kind")
+    for i, r in enumerate(rows):
+        if "structure" in r:
+            r["from_interval"] = False
+            continue
+        src = rows[reps[interval[i]]]
+        for k in keep:
+            if k in src:
+                r[k] = src[k]
+        r["error"] = src.get("error", "")
+        r["from_interval"] = True
+    checks = []
+    for i in plan["checks"]:
+        k = interval[i]
+        want, got = classification(rows[reps[k]]), classification(rows[i])
+        agree = want == got and not rows[i]["error"]
+        checks.append({"index": i, axis.name: axis.values[i], "interval": k, "agree": agree,
+                       "expected": want, "found": got, "error": rows[i]["error"]})
+        if not agree:
+            say(f"atlas check disagrees at {axis.name}={axis.values[i]!r}: the interval's "
+                f"structure is {want['structure']}, its own diagram gives {got['structure']}")
+    events, boundaries = [], []
+    ks = sorted(reps)
+    for j, e in enumerate(plan["found"].events):
+        below = next((rows[reps[k]] for k in reversed(ks) if k <= j), None)
+        above = next((rows[reps[k]] for k in ks if k >= j + 1), None)
+        sb = below["structure"] if below else None
+        sa = above["structure"] if above else None
+        kind = e.kind
+        if kind == "critical-leaves-preferred" and sb and sa and \
+                ("triple-point" in sb) != ("triple-point" in sa):
+            kind = "triple-point"
+        e = replace(e, kind=kind, below=sb, above=sa)
+        events.append(e.to_dict())
+        cb = classification(below) if below else {"structure": sb}
+        ca = classification(above) if above else {"structure": sa}
+        b = _boundary(axis.name, {}, e.value, e.value, cb, ca, 0, False, e.converged,
+                      f"{e.kind} ({e.method})")
+        b["event"] = e.kind
+        boundaries.append(b)
+    found = plan["found"]
+    plan["events"] = events
+    plan["checks"] = {"seed": CHECK_SEED, "sample": len(checks),
+                      "disagreements": sum(not c["agree"] for c in checks), "points": checks}
+    plan["unexplained"] = [dict(u) for u in found.unexplained]
+    for u in found.unexplained:
+        say(f"structure events: unexplained change in {axis.name} {u['bracket']}: {u['what']}")
+    for e in events:
+        if not e["converged"]:
+            say(f"structure events: the {e['kind']} event at {axis.name}={e['value']!r} did "
+                f"not converge (residuals {e['residuals']})")
+    return boundaries
 
 
 #: most boundaries located along one grid edge before the rest of it is reported unresolved
