@@ -830,9 +830,19 @@ def _figure(out_dir, doc, axes):
             for s in structures:
                 m = np.array([r["structure"] == s for r in rows])
                 ax.scatter(x[m], np.zeros(m.sum()), s=60, marker="s", color=color[s], label=s)
-            for b in doc["boundaries"]:
+            events = doc.get("events") or []
+            for b in ([] if events else doc["boundaries"]):
                 if b["converged"]:
                     ax.axvline(b["point"][axes[0].name], color="black", lw=0.8, ls="--")
+            styles = ("-", "--", ":", "-.")
+            kinds = sorted({e["kind"] for e in events})
+            for e in events:  # one line per event, labelled by its kind (one legend entry)
+                j = kinds.index(e["kind"])
+                label = e["kind"] if e is next(f for f in events if f["kind"] == e["kind"]) \
+                    else None
+                ax.axvline(e["value"], color="black", lw=1.0, ls=styles[j % len(styles)],
+                           label=label if e["converged"] else f"{label} (not converged)"
+                           if label else None)
             ax.set_yticks([])
             ax.set_xlabel(axes[0].name)
             if axes[0].spacing == "log":
