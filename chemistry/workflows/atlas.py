@@ -38,8 +38,9 @@ per-point numbers, critical values and triple point, are left empty there).  A c
 whose classification differs from its interval's is listed in ``checks`` (and on stderr through
 ``notify``), never hidden; the events (with the structures below and above) are in
 ``events`` and drawn on the figure.  ``auto`` (the default) takes ``events`` for a linear 1D
-grid of at least EVENTS_MIN_POINTS points (below that per-point diagrams cost about as much
-as the representatives and checks) and ``diagrams`` otherwise.
+grid of at least EVENTS_MIN_POINTS points with the default state conditions (below that
+per-point diagrams cost about as much as the representatives and checks) and ``diagrams``
+otherwise.
 
 Files: the table (atlas.csv, atlas.json) is the result.  The figure (atlas.png) is drawn
 first; if it cannot be written (matplotlib missing, disk full) the table says so in
@@ -220,7 +221,7 @@ def family_source_sha256(fam):
 
 #: manifest keys that identify a scan (``chunks`` holds the checksums and may grow)
 _IDENTITY = ("family", "family_file", "grid", "fixed", "chunk_size", "anchors", "conditions",
-             "method")
+             "method", "checks")
 
 
 def _resume_manifest(man_path, manifest, out_dir, say) -> dict:
@@ -344,7 +345,7 @@ def _as_completed(executor, futures):
 def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, workers=1,
          executor=None, chunk_size=CHUNK_SIZE, refine=8, quiet=True,
          stop_after_chunks=None, notify=None, conditions=None, without=(),
-         method="auto") -> dict:
+         method="auto", checks=CHECK_SAMPLE) -> dict:
     """Run (or resume) an atlas scan; write atlas.csv, atlas.json, atlas.png into out_dir.
 
     Returns the atlas document (as written to atlas.json).  ``stop_after_chunks`` stops
@@ -362,7 +363,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
 
     ``method`` is ``"diagrams"`` (a full phase diagram per distinct point), ``"events"``
     (1D: structure events, then diagrams for one representative per interval and a check
-    sample; see the module docstring) or ``"auto"``.
+    sample of ``min(checks, n)`` points; see the module docstring) or ``"auto"``.
     """
     fixed = dict(fixed or {})
     fam = _family(family_name, family_file)
@@ -391,10 +392,14 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         raise BhchemError(f"method {method!r}: choose one of {', '.join(METHODS)}")
     if method == "auto":
         method = "events" if (len(axes) == 1 and axes[0].spacing == "linear"
-                              and len(axes[0].values) >= EVENTS_MIN_POINTS) else "diagrams"
+                              and len(axes[0].values) >= EVENTS_MIN_POINTS
+                              and conditions is None and not without) else "diagrams"
     if method == "events" and len(axes) != 1:
         raise BhchemError("--method events needs exactly one --grid axis (use diagrams for "
                           "2D and 3D grids)")
+    if method == "events" and (conditions is not None or without):
+        raise BhchemError("--method events uses the family's default state conditions; use "
+                          "--method diagrams with --conditions/--without")
     points = [dict(zip(names, combo)) for combo in itertools.product(*(a.values for a in axes))]
     # scale invariance: one computation per distinct set of scale-free combinations
     keys = [scale_free_key(bind(fam, **{**fixed, **p})) for p in points]
@@ -405,13 +410,14 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             reps.append(i)
     plan = None
     if method == "events":
-        plan = _event_plan(fam, axes[0], fixed, admissible)
+        plan = _event_plan(fam, axes[0], fixed, max(int(checks), 0))
         need = {rep_of[keys[i]] for i in plan["computed"]}
         reps = [i for i in reps if i in need]
     manifest = {"family": family_name, "family_file": os.path.abspath(family_file) if family_file else None,
                 "grid": [a.spec for a in axes], "fixed": fixed, "chunk_size": chunk_size,
                 "anchors": ATLAS_ANCHORS, "version": __version__,
                 "conditions": adm.to_dict(), "method": method,
+                "checks": checks if method == "events" else None,
                 "family_source_sha256": family_source_sha256(fam)}
     out_dir = os.path.abspath(out_dir)
     chunk_dir = os.path.join(out_dir, "chunks")
@@ -530,7 +536,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
 
 
 # -- the events method (1D) ---------------------------------------------------------------------
-def _event_plan(fam, axis, fixed, admissible) -> dict:
+def _event_plan(fam, axis, fixed, n_checks) -> dict:
     """Events along the axis, the interval of every grid point, the representatives and the
     seeded check sample (grid indices whose full diagrams are computed)."""
     from bhchem.analysis.structure_events import structure_events
@@ -553,7 +559,7 @@ def _event_plan(fam, axis, fixed, admissible) -> dict:
         reps[k] = min(members, key=lambda i: abs(vals[i] - mid))
     rest = [i for i in range(len(vals)) if i not in reps.values()]
     rng = np.random.default_rng(CHECK_SEED)
-    n_check = min(CHECK_SAMPLE, len(rest))
+    n_check = min(n_checks, len(rest))
     checks = sorted(int(i) for i in rng.choice(rest, size=n_check, replace=False)) \
         if n_check else []
     computed = sorted(set(reps.values()) | set(checks) | set(on_event))

@@ -1,0 +1,137 @@
+"""Structure events (issue 17, part B): thresholds along a coupling located by continuation
+and Newton on each event's own system, checked against papers and against mpmath solutions of
+the same conditions written here from the papers' formulas.
+
+Normalisation (Born-Infeld): Gunasekaran, Kubiznak & Mann, JHEP 11 (2012) 110,
+arXiv:1208.6251 (GKM), whose b (maximal field strength) and Q (charge, f ~ Q^2/r^2 as
+b -> infinity) the bundled born-infeld-ads family uses unchanged; only bQ matters.
+"""
+import math
+
+import mpmath as mp
+import pytest
+import sympy as sp
+
+from bhchem.analysis.structure_events import structure_events
+from bhchem.workflows.atlas import parse_grid, scan
+
+mp.mp.dps = 30
+
+
+def _bi_T(r, P, b, Q=1):
+    """GKM Sec. 4: T = (1 + 8 pi P r^2 + 2 b^2 r^2 (1 - sqrt(1 + Q^2/(b^2 r^4)))) / (4 pi r)."""
+    sqrt, pi = (sp.sqrt, sp.pi) if isinstance(r, sp.Basic) else (mp.sqrt, mp.pi)
+    return (1 + 8 * pi * P * r**2 + 2 * b**2 * r**2
+            - 2 * b * sqrt(b**2 * r**4 + Q**2)) / (4 * pi * r)
+
+
+_r, _P, _b = sp.symbols("r P b", positive=True)
+
+
+def _d(f, k):
+    """d^k T / dr^k, exact (sympy), evaluated by mpmath."""
+    return sp.lambdify((_r, _P, _b), sp.diff(f(_r, _P, _b, sp.Integer(1)), _r, k), "mpmath")
+
+
+def _assert_converged(e, tol=1e-11):
+    assert e.converged and max(e.residuals.values()) <= tol, e.residuals
+
+
+def test_born_infeld_two_critical_points_appear_at_one_over_sqrt8():
+    """GKM: two critical points appear at bQ = 1/sqrt(8).  The event is the fold of the
+    critical branch (T_r = T_rr = T_rrr = 0); mpmath solves that system at 30 digits from the
+    formula above and gives 1/sqrt(8); the event agrees to 1e-12 (found from two samples)."""
+    T1, T2, T3 = _d(_bi_T, 1), _d(_bi_T, 2), _d(_bi_T, 3)
+    r, P, b = mp.findroot(lambda r, P, b: [T1(r, P, b), T2(r, P, b), T3(r, P, b)],
+                          (1.7, 0.004, 0.35))
+    assert abs(b - 1 / mp.sqrt(8)) < 1e-25
+    ev = structure_events("born-infeld-ads", "b", (0.34, 0.37), n_samples=2, Q=1.0)
+    (e,) = ev.events
+    assert ev.converged and ev.counts == (0, 2)
+    assert e.kind == "critical-count"
+    assert abs(e.value - 1 / math.sqrt(8)) <= 1e-12 / math.sqrt(8)
+    assert list(e.scale_free.values()) == [pytest.approx(e.value, rel=1e-15)]  # bQ, Q = 1
+    _assert_converged(e)
+    assert "T_xxx = 0" in e.message and f"x = {float(r):.6g}"[:8] in e.message
+
+
+def test_born_infeld_reentrant_window_upper_edge_is_one_half():
+    """GKM (from memory): the reentrant phase transition disappears at bQ = 1/2, where the
+    small-r behaviour of T changes (T -> +inf below, -inf above).  The event's equation,
+    lim_{r->0} r T = (1 - 2bQ)/(4 pi) = 0, is solved exactly (1/2) and by Newton (1e-10)."""
+    ev = structure_events("born-infeld-ads", "b", (0.48, 0.52), n_samples=2, Q=1.0)
+    (e,) = ev.events
+    assert e.kind == "small-state-asymptote" and e.exact == "1/2"
+    assert abs(e.value - 0.5) <= 1e-10 * 0.5
+    _assert_converged(e)
+    assert mp.limit(lambda r: r * _bi_T(r, 0.001, e.value), 0) == pytest.approx(0, abs=1e-14)
+
+
+def test_born_infeld_lower_edge_of_one_critical_point_window():
+    """Between bQ = 1/sqrt(8) and 1/2 the lower critical point reaches P = 0 at b1 and the
+    structure turns from two critical points + reentrance to one + reentrance.  The event
+    (continuation + Newton on x T_x = x^2 T_xx = 0 at P = 0) agrees with mpmath's 30-digit
+    solution of T_r = T_rr = 0 at P = 0 (formula above) to 1e-12; the full-diagram bisection
+    of the same edge is in benchmarks/bench_structure_map.py."""
+    T1, T2 = _d(_bi_T, 1), _d(_bi_T, 2)
+    r, b = mp.findroot(lambda r, b: [T1(r, 0, b), T2(r, 0, b)], (1.0, 0.42))
+    ev = structure_events("born-infeld-ads", "b", (0.41, 0.44), n_samples=2, Q=1.0)
+    (e,) = ev.events
+    assert ev.counts == (2, 1)
+    assert e.kind == "critical-pressure-zero"
+    assert abs(e.value - float(b)) <= 1e-12 * float(b)
+    _assert_converged(e)
+
+
+def test_events_do_not_depend_on_the_detector_sampling():
+    """An event is the root of its own system, not a bracket: with 2 or 4 samples the
+    located value is the same to 1e-13."""
+    a = structure_events("born-infeld-ads", "b", (0.41, 0.44), n_samples=2, Q=1.0).events
+    b = structure_events("born-infeld-ads", "b", (0.40, 0.45), n_samples=4, Q=1.0).events
+    assert len(a) == len(b) == 1 and abs(a[0].value - b[0].value) <= 1e-13
+
+
+@pytest.mark.parametrize("lo, hi, theirs", [(0.35, 0.365, 0.1705), (0.40, 0.415, 0.1946)])
+def test_charged_gauss_bonnet_6d_triple_point_window_ends(lo, hi, theirs):
+    """Wei & Liu, PRD 90 (2014) 044057, arXiv:1402.2837: in d = 6 with alpha~ = 1 a triple
+    point exists for their charge in (0.1705, 0.1946).  Mapping (as in
+    tests/test_family_analyses.py): alpha~ = 1 is our alpha = 1/6, their charge is
+    3 Q/(2 pi) in our normalisation.  Each end of the window is the event where a critical
+    point lies on another first-order line (the swallowtail's triple point shrinks into it);
+    in their normalisation the ends agree with their 4-digit values to 1.1e-4 (the lower end
+    is 0.17040, printed as 0.1705)."""
+    ev = structure_events("gauss-bonnet-ads", "Q", (lo, hi), n_samples=2, d=6, k=1,
+                          alpha=1 / 6)
+    (e,) = ev.events
+    assert e.kind == "critical-leaves-preferred"
+    _assert_converged(e)
+    assert abs(3 * e.value / (2 * math.pi) - theirs) <= 1.1e-4
+
+
+def test_atlas_from_events_born_infeld(tmp_path):
+    """The 1D map from the events (replaces the per-point bisection tests of the atlas, which
+    located 1/sqrt(8) and 1/2 to 1e-3 from full diagrams): 19 values of bQ in [0.345, 0.525]
+    (Q = 1).  Full diagrams only for the four interval representatives and one seeded check
+    point, which agrees; the structures between the events are GKM's four cases: none,
+    two critical points + reentrance, one critical point + reentrance, van der Waals."""
+    doc = scan("born-infeld-ads", [parse_grid("b=0.345:0.525:19")], {"Q": 1.0}, tmp_path / "e",
+               checks=1)
+    assert doc["method"] == "events" and doc["diagrams_computed"] == 5
+    ev = doc["events"]
+    assert [e["kind"] for e in ev] == ["critical-count", "critical-pressure-zero",
+                                       "small-state-asymptote"]
+    assert all(e["converged"] for e in ev)
+    assert abs(ev[0]["value"] - 1 / math.sqrt(8)) <= 1e-12 and ev[2]["value"] == 0.5
+    structures = ["no-transition", "multiple-critical-points+reentrant+vdw-like",
+                  "reentrant+vdw-like", "vdw-like"]
+    assert [e["below"] for e in ev] == structures[:3]
+    assert [e["above"] for e in ev] == structures[1:]
+    assert doc["checks"]["sample"] == 1 and doc["checks"]["disagreements"] == 0
+    cuts = [e["value"] for e in ev]
+    for r in doc["rows"]:
+        k = sum(r["b"] > c for c in cuts)
+        assert r["structure"] == structures[k] and r["n_critical"] == [0, 2, 1, 1][k]
+    assert sum(not r["from_interval"] for r in doc["rows"]) == 5
+    assert [b["between"] for b in doc["boundaries"]] == [list(p) for p in
+                                                           zip(structures, structures[1:])]
+    assert (tmp_path / "e" / "atlas.png").stat().st_size > 1000
