@@ -111,12 +111,12 @@ def test_charged_gauss_bonnet_6d_triple_point_window_ends(lo, hi, theirs):
 def test_atlas_from_events_born_infeld(tmp_path):
     """The 1D map from the events (replaces the per-point bisection tests of the atlas, which
     located 1/sqrt(8) and 1/2 to 1e-3 from full diagrams): 19 values of bQ in [0.345, 0.525]
-    (Q = 1).  Full diagrams only for the four interval representatives and one seeded check
-    point, which agrees; the structures between the events are GKM's four cases: none,
+    (Q = 1).  Full diagrams only for the four interval representatives (the check sample is
+    tested below); the structures between the events are GKM's four cases: none,
     two critical points + reentrance, one critical point + reentrance, van der Waals."""
     doc = scan("born-infeld-ads", [parse_grid("b=0.345:0.525:19")], {"Q": 1.0}, tmp_path / "e",
-               checks=1)
-    assert doc["method"] == "events" and doc["diagrams_computed"] == 5
+               checks=0)
+    assert doc["method"] == "events" and doc["diagrams_computed"] == 4
     ev = doc["events"]
     assert [e["kind"] for e in ev] == ["critical-count", "critical-pressure-zero",
                                        "small-state-asymptote"]
@@ -126,12 +126,43 @@ def test_atlas_from_events_born_infeld(tmp_path):
                   "reentrant+vdw-like", "vdw-like"]
     assert [e["below"] for e in ev] == structures[:3]
     assert [e["above"] for e in ev] == structures[1:]
-    assert doc["checks"]["sample"] == 1 and doc["checks"]["disagreements"] == 0
     cuts = [e["value"] for e in ev]
     for r in doc["rows"]:
         k = sum(r["b"] > c for c in cuts)
         assert r["structure"] == structures[k] and r["n_critical"] == [0, 2, 1, 1][k]
-    assert sum(not r["from_interval"] for r in doc["rows"]) == 5
+    assert sum(not r["from_interval"] for r in doc["rows"]) == 4
     assert [b["between"] for b in doc["boundaries"]] == [list(p) for p in
                                                            zip(structures, structures[1:])]
     assert (tmp_path / "e" / "atlas.png").stat().st_size > 1000
+
+
+def test_atlas_check_sample_reports_disagreements(tmp_path, monkeypatch):
+    """A check point whose own diagram disagrees with its interval is reported in ``checks``
+    and through ``notify`` (never hidden).  The per-point analysis is replaced by a stand-in
+    that puts a false change of structure at b = 0.36 (no event there); the events are real."""
+    import bhchem.workflows.atlas as atlas
+
+    def fake(family_name, family_file, params, admissible=(None, ())):
+        b = params["b"]
+        n = 0 if b < 1 / math.sqrt(8) else 2
+        s = "none" if b < 1 / math.sqrt(8) else ("two" if b < 0.36 else "false-change")
+        return {"error": "", "n_critical": n, "structure": s}
+
+    monkeypatch.setattr(atlas, "analyse_point", fake)
+    said = []
+    doc = scan("born-infeld-ads", [parse_grid("b=0.34:0.37:31")], {"Q": 1.0}, tmp_path / "c",
+               checks=8, notify=said.append)
+    (e,) = doc["events"]
+    assert e["kind"] == "critical-count" and e["below"] == "none"
+    chk = doc["checks"]
+    checked = {c["index"] for c in chk["points"]}
+    rep = next(r for r in doc["rows"] if not r["from_interval"] and r["b"] > e["value"]
+               and r["index"] not in checked)
+    assert chk["sample"] == 8 and chk["seed"] == 17 and len(chk["points"]) == 8
+    bad = {c["index"] for c in chk["points"] if not c["agree"]}
+    # exactly the check points on the other side of the false change from their interval's
+    # representative disagree
+    want = {c["index"] for c in chk["points"]
+            if c["b"] > e["value"] and (c["b"] < 0.36) != (rep["b"] < 0.36)}
+    assert bad == want and chk["disagreements"] == len(bad) > 0
+    assert len([s for s in said if "atlas check disagrees" in s]) == len(bad)

@@ -390,13 +390,19 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                           f"split it into several scans")
     if method not in METHODS:
         raise BhchemError(f"method {method!r}: choose one of {', '.join(METHODS)}")
+    continuous = {p.name for p in bind(fam, **{**fixed, **{a.name: a.values[0] for a in axes}}
+                                       ).derivation.parameters}
     if method == "auto":
         method = "events" if (len(axes) == 1 and axes[0].spacing == "linear"
+                              and axes[0].name in continuous
                               and len(axes[0].values) >= EVENTS_MIN_POINTS
                               and conditions is None and not without) else "diagrams"
     if method == "events" and len(axes) != 1:
         raise BhchemError("--method events needs exactly one --grid axis (use diagrams for "
                           "2D and 3D grids)")
+    if method == "events" and axes[0].name not in continuous:
+        raise BhchemError(f"--method events needs a continuous coupling; {axes[0].name} is "
+                          f"discrete (use --method diagrams)")
     if method == "events" and (conditions is not None or without):
         raise BhchemError("--method events uses the family's default state conditions; use "
                           "--method diagrams with --conditions/--without")
