@@ -106,8 +106,9 @@ class StructureEvents(Result):
 
 
 # -- the numeric model with the coupling free ---------------------------------------------------
-class _Model:
-    """Compiled T, G and their derivatives as functions of (x, P, c)."""
+class CouplingModel:
+    """Compiled T, G and their derivatives as functions of (x, P, c), c the coupling
+    (the other parameters fixed): ``model(name, x, P, c)``."""
 
     def __init__(self, family, coupling, fixed, c0):
         self.family, self.coupling, self.fixed = family, coupling, dict(fixed)
@@ -289,10 +290,11 @@ def solve_fold(model, c, u, P):
                   _scale_free(model, c)), (u, P)
 
 
-def solve_pressure_zero(model, c, u):
-    """A critical point reaches P = 0: x T_x = x^2 T_xx = 0 at P = 0 in (log x, c)."""
-    z, res, ok = newton(lambda z: model.critical(z[0], 0.0, z[1]), [u, c], max_step=0.2)
-    f = model.critical(z[0], 0.0, z[1])
+def solve_pressure_zero(model, c, u, level=0.0):
+    """A critical point reaches P = level (0: the event): x T_x = x^2 T_xx = 0 at P = level
+    in (log x, c)."""
+    z, res, ok = newton(lambda z: model.critical(z[0], level, z[1]), [u, c], max_step=0.2)
+    f = model.critical(z[0], level, z[1])
     x = math.exp(z[0])
     return _event("critical-pressure-zero", model, z[1],
                   {"x T_x / T": abs(f[0]), "x^2 T_xx / T": abs(f[1])}, ok,
@@ -464,7 +466,7 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
     if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
         raise BhchemError(f"interval {interval!r}: need two finite numbers, low < high")
     samples = np.linspace(lo, hi, max(int(n_samples), 2))
-    model = _Model(family, coupling, fixed, lo)
+    model = CouplingModel(family, coupling, fixed, lo)
     pts = [_physical_points(family, coupling, c, fixed) for c in samples]
     events, notes = [], []
 
