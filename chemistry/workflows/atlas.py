@@ -60,7 +60,7 @@ import signal
 import sys
 import warnings
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -69,6 +69,7 @@ from concurrent.futures import as_completed as futures_as_completed
 
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.phases import phase_diagram
+from bhchem.analysis.structure_events import structure_events
 from bhchem.core.compiled import bind, parse_number, resolve_ensemble, validate_values
 from bhchem.declare.registry import get_family, load_family_file
 from bhchem.errors import BhchemError, BhchemWarning
@@ -545,7 +546,6 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
 def _event_plan(fam, axis, fixed, n_checks) -> dict:
     """Events along the axis, the interval of every grid point, the representatives and the
     seeded check sample (grid indices whose full diagrams are computed)."""
-    from bhchem.analysis.structure_events import structure_events
     lo, hi = axis.values[0], axis.values[-1]
     if lo > hi:
         lo, hi = hi, lo
@@ -576,7 +576,6 @@ def _event_plan(fam, axis, fixed, n_checks) -> dict:
 def _apply_plan(plan, axis, rows, say) -> list:
     """Fill every row from its interval's representative, compare the check sample, fill the
     events' ``below``/``above``; returns the boundaries (one per event)."""
-    from dataclasses import replace
     reps, interval = plan["reps"], plan["interval"]
     keep = ("structure", "n_critical", "cp1:kind", "cp2:kind", "cp3:kind")
     for i, r in enumerate(rows):
