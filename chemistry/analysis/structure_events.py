@@ -47,7 +47,7 @@ points between two samples that no continued point accounts for is in ``unexplai
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import sympy as sp
@@ -290,6 +290,75 @@ def solve_fold(model, c, u, P):
                   _scale_free(model, c)), (u, P)
 
 
+def _symbolic_T(model):
+    """(T, state symbol, P symbol, coupling symbol) with the other parameters substituted
+    exactly (cached on the model)."""
+    if getattr(model, "_sym", None) is None:
+        der = model.th.derivation
+        csym = next(s for s in der.parameters if s.name == model.coupling)
+        Psym = next(a for a in der.arguments if a.name == "P")
+        subs = {s: sp.nsimplify(model.th.values[s.name]) for s in der.parameters
+                if s.name != model.coupling}
+        model._sym = (der.quantities["T"].subs(subs), der.state, Psym, csym)
+    return model._sym
+
+
+def solve_isolated(model, c, u):
+    """Two critical points merging where T is 0/0: a double root x of T's denominator D
+    (D = D_x = 0 in (log x, c)) at which the numerator N vanishes too (fixes P).
+
+    Near such a point T is the ratio of two small numbers and the fold system cannot be
+    solved in double precision; this system is regular.  The classic case is the isolated
+    critical point of hyperbolic third-order Lovelock black holes (Dolan, Kostouki, Kubiznak
+    & Mann, CQG 31 (2014) 242001).  Returns None when T has no such denominator.
+    """
+    T, xs, Psym, csym = _symbolic_T(model)
+    num, den = sp.fraction(sp.together(T))
+    den = sp.Mul(*[f for f in sp.Mul.make_args(sp.factor_terms(den)) if f.has(xs)])
+    if den.has(Psym) or not den.has(csym) or not num.has(Psym):
+        return None
+    D = sp.lambdify((xs, csym), den, "math")
+    Dx = sp.lambdify((xs, csym), xs * sp.diff(den, xs), "math")
+    Dn = sp.lambdify((xs, csym), sum(abs(t) for t in sp.Add.make_args(sp.expand(den))),
+                     "math")
+
+    def F(z):
+        x = math.exp(z[0])
+        n = Dn(x, z[1])
+        return np.array([D(x, z[1]) / n, Dx(x, z[1]) / n])
+    try:
+        z, res, ok = newton(F, [u, c], max_step=0.2)
+    except (ValueError, OverflowError, ZeroDivisionError):
+        return None
+    x, cv = math.exp(z[0]), float(z[1])
+    Nf = sp.lambdify((xs, Psym, csym), num, "math")
+    Nn = sp.lambdify((xs, Psym, csym), sum(abs(t) for t in sp.Add.make_args(sp.expand(num))),
+                     "math")
+    zp, resp, okp = newton(lambda w: np.array([Nf(x, w[0], cv) / Nn(x, w[0], cv)]),
+                           [0.0], max_iter=60)
+    P = float(zp[0])
+    exact = None
+    try:
+        for sol in sp.solve([den, sp.diff(den, xs)], [xs, csym], dict=True):
+            v = sol.get(csym)
+            if v is not None and v.is_real and abs(float(v) - cv) <= 1e-9 * max(1, abs(cv)):
+                exact, cv = str(sp.nsimplify(v)), float(v)
+                break
+    except Exception:  # no closed form: the Newton root stands
+        pass
+    f = F([math.log(x), cv])
+    resid = {"D / |D|": abs(f[0]), "x D_x / |D|": abs(f[1]),
+             "N / |N|": abs(Nf(x, P, cv) / Nn(x, P, cv))}
+    ev = _event("isolated-critical-point", model, cv, resid,
+                ok and okp and P > 0 and max(resid.values()) <= EVENT_RESIDUAL_TOLERANCE,
+                "continuation + Newton on the double root of T's denominator (D, D_x) and "
+                "the numerator (P)",
+                f"two critical points merge at x = {x:.12g}, P = {P:.12g}, a double root of "
+                f"T's denominator where the numerator vanishes too (T = 0/0: an isolated "
+                f"critical point)", _scale_free(model, cv))
+    return replace(ev, exact=exact)
+
+
 def solve_pressure_zero(model, c, u, level=0.0):
     """A critical point reaches P = level (0: the event): x T_x = x^2 T_xx = 0 at P = level
     in (log x, c)."""
@@ -483,7 +552,11 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
                 path = continue_critical(model, a, b, u, P)
                 cs, us, Ps = path.points[-1]
                 if path.stop == "fold":
-                    add(solve_fold(model, cs, us, Ps)[0])
+                    ev = solve_fold(model, cs, us, Ps)[0]
+                    if not ev.converged:  # T may be 0/0 where the two points merge
+                        iso = solve_isolated(model, cs, us)
+                        ev = iso if iso is not None and iso.converged else ev
+                    add(ev)
                 elif path.stop == "pressure":
                     cl, ul, Pl = path.points[-2]
                     add(solve_pressure_zero(model, cl - Pl * (cs - cl) / (Ps - Pl), ul))
@@ -505,7 +578,7 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
     unexplained = list(notes)
     for k in range(len(samples) - 1):
         n0, n1 = len(pts[k]), len(pts[k + 1])
-        inside = [e for e in events if samples[k] < e.value < samples[k + 1]
+        inside = [e for e in events if samples[k] <= e.value <= samples[k + 1]
                   and e.kind.startswith("critical-") and e.kind != "critical-leaves-preferred"]
         if n0 != n1 and not inside:
             unexplained.append({"bracket": [float(samples[k]), float(samples[k + 1])],
