@@ -166,3 +166,24 @@ def test_atlas_check_sample_reports_disagreements(tmp_path, monkeypatch):
             if c["b"] > e["value"] and (c["b"] < 0.36) != (rep["b"] < 0.36)}
     assert bad == want and chk["disagreements"] == len(bad) > 0
     assert len([s for s in said if "atlas check disagrees" in s]) == len(bad)
+
+
+def test_lovelock_isolated_critical_point_event():
+    """Dolan, Kostouki, Kubiznak & Mann, CQG 31 (2014) 242001: hyperbolic (k = -1) third-order
+    Lovelock in d = 7 has an isolated critical point at alpha~3 = alpha~2^2/3, at
+    r_c = sqrt(alpha~2), P_c = (d-1)(d-2)/(48 pi alpha~2) (alpha~2 = (d-3)(d-4) alpha2,
+    alpha~3 = (d-3)(d-4)(d-5)(d-6) alpha3).  Along alpha3 (alpha2 = 1) two critical points are
+    born there; T is 0/0 at the merge, and the event is the double root of T's denominator,
+    exact: alpha3 = 2."""
+    d, a2 = 7, 1.0
+    at2 = (d - 3) * (d - 4) * a2
+    ev = structure_events("lovelock3-ads", "alpha3", (1.9, 2.2), n_samples=2, d=d, k=-1,
+                          alpha2=a2, Q=0.0)
+    (e,) = ev.events
+    assert ev.converged and ev.counts == (0, 2)
+    assert e.kind == "isolated-critical-point" and e.exact == "2"
+    at3 = (d - 3) * (d - 4) * (d - 5) * (d - 6) * e.value
+    assert abs(at3 - at2**2 / 3) <= 1e-12 * at3
+    _assert_converged(e)
+    assert f"x = {math.sqrt(at2):.12g}" in e.message
+    assert f"P = {(d - 1) * (d - 2) / (48 * math.pi * at2):.12g}" in e.message

@@ -62,6 +62,9 @@ from bhchem.errors import BhchemError
 STEP_TOLERANCE = 1e-14
 #: an event is converged when its largest relative residual is below this
 EVENT_RESIDUAL_TOLERANCE = 1e-11
+#: the kinds that change the number of physical critical points
+_COUNT_KINDS = ("critical-count", "critical-pressure-zero", "critical-temperature-zero",
+                "isolated-critical-point")
 #: default number of full critical-point searches along the interval (the detector)
 N_SAMPLES = 13
 
@@ -579,7 +582,7 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
     for k in range(len(samples) - 1):
         n0, n1 = len(pts[k]), len(pts[k + 1])
         inside = [e for e in events if samples[k] <= e.value <= samples[k + 1]
-                  and e.kind.startswith("critical-") and e.kind != "critical-leaves-preferred"]
+                  and e.kind in _COUNT_KINDS]
         if n0 != n1 and not inside:
             unexplained.append({"bracket": [float(samples[k]), float(samples[k + 1])],
                                 "what": f"{n0} -> {n1} physical critical points, no event "
