@@ -18,7 +18,13 @@ their b and Q, which the bundled family uses: only bQ matters), 10^4 values of b
   counts a critical point only above the scanned search's pressure floor (P0 * 1e-5), so its
   edge is where P_c reaches that floor; the same Newton system at P = floor reproduces it.
 
-Run:  python benchmarks/bench_structure_map.py [--subset N] [--no-bisection]
+With ``--2d``: third-order Lovelock, d = 7, k = -1, Q = 0, a 100 x 100 grid over
+(alpha3, alpha2) (bare couplings; alpha~2 = 12 alpha2, alpha~3 = 24 alpha3 in Dolan et al.'s
+normalisation, CQG 31 (2014) 242001), events along alpha3 at every alpha2 traced as curves;
+printed: time on 2 workers, cells, checks, and the largest distance of the
+isolated-critical-point curve from alpha~3 = alpha~2^2 / 3 (alpha3 = 2 alpha2^2).
+
+Run:  python benchmarks/bench_structure_map.py [--subset N] [--no-bisection] [--2d [--only-2d]]
 """
 from __future__ import annotations
 
@@ -81,8 +87,15 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--subset", type=int, default=8, help="grid points for today's atlas")
     ap.add_argument("--no-bisection", action="store_true")
+    ap.add_argument("--2d", dest="two_d", action="store_true")
+    ap.add_argument("--only-2d", action="store_true")
+    ap.add_argument("--n2d", type=int, default=100)
     args = ap.parse_args()
     warnings.simplefilter("ignore", BhchemWarning)
+    if args.two_d or args.only_2d:
+        lovelock_2d(args.n2d)
+        if args.only_2d:
+            return
     print(f"== structure map: born-infeld-ads, Q = 1, {N} values of b in [{LO}, {HI}] ==")
     axes = [parse_grid(f"b={LO}:{HI}:{N}")]
     te, doc = timed_scan(family_name="born-infeld-ads", axes=axes, fixed={"Q": 1.0},
@@ -125,6 +138,26 @@ def main() -> None:
         print(f"  the critical search's pressure floor there is P = {floor:.3e}; the critical "
               f"point reaches it at b = {at_floor:.12f} (same Newton system, P = floor): "
               f"|midpoint - that| = {abs(mid - at_floor):.1e}")
+
+
+def lovelock_2d(n):
+    import numpy as np
+    print(f"== 2D structure map: lovelock3-ads d = 7, k = -1, Q = 0, {n} x {n} "
+          f"(alpha3 in [0.5, 4], alpha2 in [0.6, 1.4]) ==")
+    axes = [parse_grid(f"alpha3=0.5:4:{n}"), parse_grid(f"alpha2=0.6:1.4:{n}")]
+    t, doc = timed_scan(family_name="lovelock3-ads", axes=axes,
+                        fixed={"d": 7, "k": -1, "Q": 0.0}, workers=2, method="events")
+    print(f"events map   : {t:8.1f} s on 2 workers, {doc['checks']['cells']} cells, "
+          f"{doc['diagrams_computed']} full diagrams, {doc['checks']['disagreements']} of "
+          f"{doc['checks']['sample']} checks disagree, {len(doc['unexplained'])} unexplained")
+    for c in doc["event_curves"]:
+        p = np.array(c["points"], float).reshape(-1, 2)
+        line = (f"  {c['kind']:<24} {len(p):4d} points, converged {c['converged']}, "
+                f"largest residual {max(c['residuals']) if len(c['residuals']) else 0:.1e}")
+        if c["kind"] == "isolated-critical-point":
+            dev = np.max(np.abs(p[:, 0] / (2 * p[:, 1] ** 2) - 1))
+            line += f"; max |alpha3 / (2 alpha2^2) - 1| = {dev:.1e} (Dolan et al.)"
+        print(line)
 
 
 if __name__ == "__main__":

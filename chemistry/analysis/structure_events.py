@@ -362,6 +362,39 @@ def solve_isolated(model, c, u):
     return replace(ev, exact=exact)
 
 
+def solve_pressure_infinite(model, c, u):
+    """A critical point runs off to P -> infinity: with B(x) = lim_{P->inf} T/P (sympy),
+    x B_x = x^2 B_xx = 0 in (log x, c) (T is linear in P for the families at hand; then the
+    critical conditions at large P are those of B).  Returns None when the limit is not a
+    finite function of x."""
+    T, xs, Psym, csym = _symbolic_T(model)
+    try:
+        B = sp.limit(T / Psym, Psym, sp.oo)
+    except Exception:  # sympy cannot take the limit: no event of this kind is claimed
+        return None
+    if B == 0 or not B.is_finite and B.is_finite is not None or not B.has(xs):
+        return None
+    Bf = sp.lambdify((xs, csym), B, "math")
+    B1 = sp.lambdify((xs, csym), xs * sp.diff(B, xs), "math")
+    B2 = sp.lambdify((xs, csym), xs**2 * sp.diff(B, xs, 2), "math")
+
+    def F(z):
+        x = math.exp(z[0])
+        b = Bf(x, z[1])
+        return np.array([B1(x, z[1]) / b, B2(x, z[1]) / b])
+    try:
+        z, res, ok = newton(F, [u, c], max_step=0.2)
+    except (ValueError, OverflowError, ZeroDivisionError):
+        return None
+    f = F(z)
+    return _event("critical-count", model, z[1],
+                  {"x B_x / B": abs(f[0]), "x^2 B_xx / B": abs(f[1])}, ok,
+                  "continuation + Newton on the P -> infinity limit B = T/P: "
+                  "(x B_x, x^2 B_xx) = 0",
+                  f"a critical point runs off to P -> infinity at x = {math.exp(z[0]):.12g} "
+                  f"(and comes back at negative P)", _scale_free(model, z[1]))
+
+
 def solve_pressure_zero(model, c, u, level=0.0):
     """A critical point reaches P = level (0: the event): x T_x = x^2 T_xx = 0 at P = level
     in (log x, c)."""
@@ -556,6 +589,9 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
                 cs, us, Ps = path.points[-1]
                 if path.stop == "fold":
                     ev = solve_fold(model, cs, us, Ps)[0]
+                    if not ev.converged and Ps > 100 * P:  # running off to P -> infinity
+                        inf = solve_pressure_infinite(model, cs, us)
+                        ev = inf if inf is not None and inf.converged else ev
                     if not ev.converged:  # T may be 0/0 where the two points merge
                         iso = solve_isolated(model, cs, us)
                         ev = iso if iso is not None and iso.converged else ev

@@ -62,6 +62,7 @@ import warnings
 import time
 from dataclasses import dataclass, replace
 
+import networkx as nx
 import numpy as np
 
 from concurrent.futures import ProcessPoolExecutor
@@ -69,6 +70,7 @@ from concurrent.futures import as_completed as futures_as_completed
 
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.phases import phase_diagram
+from bhchem.analysis.events import EventCurve
 from bhchem.analysis.structure_events import structure_events
 from bhchem.core.compiled import bind, parse_number, resolve_ensemble, validate_values
 from bhchem.declare.registry import get_family, load_family_file
@@ -95,6 +97,9 @@ CHECK_SEED = 17
 #: ``method="auto"`` uses events for a linear 1D grid of at least this many points
 EVENTS_MIN_POINTS = 16
 METHODS = ("auto", "diagrams", "events")
+#: full critical-point searches per row of a 2D events map (continuation covers the rest; a
+#: pair of critical points born and gone between two samples of a row would be missed)
+EVENT_SAMPLES_2D = 7
 
 
 @dataclass(frozen=True)
@@ -398,12 +403,13 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                               and axes[0].name in continuous
                               and len(axes[0].values) >= EVENTS_MIN_POINTS
                               and conditions is None and not without) else "diagrams"
-    if method == "events" and len(axes) != 1:
-        raise BhchemError("--method events needs exactly one --grid axis (use diagrams for "
-                          "2D and 3D grids)")
-    if method == "events" and axes[0].name not in continuous:
-        raise BhchemError(f"--method events needs a continuous coupling; {axes[0].name} is "
-                          f"discrete (use --method diagrams)")
+    if method == "events" and len(axes) > 2:
+        raise BhchemError("--method events takes one or two --grid axes (use diagrams for "
+                          "3D grids)")
+    if method == "events" and any(a.name not in continuous for a in axes):
+        raise BhchemError(f"--method events needs continuous couplings; "
+                          f"{', '.join(a.name for a in axes if a.name not in continuous)} "
+                          f"is discrete (use --method diagrams)")
     if method == "events" and (conditions is not None or without):
         raise BhchemError("--method events uses the family's default state conditions; use "
                           "--method diagrams with --conditions/--without")
@@ -417,7 +423,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             reps.append(i)
     plan = None
     if method == "events":
-        plan = _event_plan(fam, axes[0], fixed, max(int(checks), 0))
+        plan = (_event_plan(fam, axes[0], fixed, max(int(checks), 0)) if len(axes) == 1 else
+                _event_plan_2d(fam, axes, fixed, max(int(checks), 0), executor, workers))
         need = {rep_of[keys[i]] for i in plan["computed"]}
         reps = [i for i in reps if i in need]
     manifest = {"family": family_name, "family_file": os.path.abspath(family_file) if family_file else None,
@@ -523,7 +530,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine,
                                      executor, admissible)
         else:
-            boundaries = _apply_plan(plan, axes[0], rows, say)
+            boundaries = (_apply_plan(plan, axes[0], rows, say) if len(axes) == 1 else
+                          _apply_plan_2d(plan, axes, rows, say))
     finally:
         if own is not None:
             own.shutdown(wait=True, cancel_futures=True)
@@ -537,6 +545,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         doc["events"] = plan["events"]
         doc["checks"] = plan["checks"]
         doc["unexplained"] = plan["unexplained"]
+        if "curves" in plan:
+            doc["event_curves"] = plan["curves"]
         doc["diagrams_computed"] = len(reps)
     _write_outputs(out_dir, doc, axes)
     return doc
@@ -629,6 +639,120 @@ def _apply_plan(plan, axis, rows, say) -> list:
             say(f"structure events: the {e['kind']} event at {axis.name}={e['value']!r} did "
                 f"not converge (residuals {e['residuals']})")
     return boundaries
+
+
+def _event_plan_2d(fam, axes, fixed, n_checks, executor, workers) -> dict:
+    """2D: the events along the first axis at every value of the second (each located by
+    continuation + Newton; rows in parallel), chained into EventCurves; cells are the
+    connected components (networkx) of the grid graph with every edge cut that an event
+    crosses; one representative per cell plus a seeded check sample."""
+    ax, ay = axes
+    lo, hi = sorted((ax.values[0], ax.values[-1]))
+    tasks = [(fam, ax.name, (lo, hi), EVENT_SAMPLES_2D) for _ in ay.values]
+    kws = [{**fixed, ay.name: y} for y in ay.values]
+    own = None
+    if executor is None and workers > 1:
+        own = executor = ProcessPoolExecutor(max_workers=workers, initializer=worker_setup,
+                                             initargs=(os.getpid(),))
+    try:
+        if executor is None:
+            found = [structure_events(*t, **kw) for t, kw in zip(tasks, kws)]
+        else:
+            futs = [executor.submit(structure_events, *t, **kw) for t, kw in zip(tasks, kws)]
+            found = [f.result() for f in futs]
+    finally:
+        if own is not None:
+            own.shutdown(wait=True)
+    nx_, ny = len(ax.values), len(ay.values)
+    xs = np.array(ax.values)
+    # event labels of a grid point: for each kind, how many events of that kind lie below x
+    kinds = sorted({e.kind for f in found for e in f.events})
+
+    def label(i, j):
+        return tuple(sum(1 for e in found[j].events if e.kind == k and e.value < xs[i])
+                     for k in kinds)
+    g = nx.Graph()
+    g.add_nodes_from(range(nx_ * ny))
+    lab = {(i, j): label(i, j) for i in range(nx_) for j in range(ny)}
+    for i in range(nx_):
+        for j in range(ny):
+            for (a, b) in ((i + 1, j), (i, j + 1)):
+                if a < nx_ and b < ny and lab[(i, j)] == lab[(a, b)]:
+                    g.add_edge(i * ny + j, a * ny + b)
+    cells = sorted((sorted(c) for c in nx.connected_components(g)), key=lambda c: c[0])
+    cell_of, reps = {}, {}
+    for k, members in enumerate(cells):
+        for m in members:
+            cell_of[m] = k
+        ci = np.mean([m // ny for m in members])
+        cj = np.mean([m % ny for m in members])
+        reps[k] = min(members, key=lambda m: (m // ny - ci) ** 2 + (m % ny - cj) ** 2)
+    rest = [m for m in range(nx_ * ny) if m not in set(reps.values())]
+    rng = np.random.default_rng(CHECK_SEED)
+    n_check = min(n_checks, len(rest))
+    checks = sorted(int(i) for i in rng.choice(rest, size=n_check, replace=False)) \
+        if n_check else []
+    # curves: events of one kind, the n-th of that kind in each row, chained along y
+    curves = []
+    for k in kinds:
+        for n in range(max(sum(1 for e in f.events if e.kind == k) for f in found)):
+            pts, res, ok = [], [], True
+            for j, f in enumerate(found):
+                evs = [e for e in f.events if e.kind == k]
+                if n < len(evs):
+                    pts.append((evs[n].value, ay.values[j]))
+                    res.append(max(evs[n].residuals.values()) if evs[n].residuals else 0.0)
+                    ok &= evs[n].converged
+            exact = {e.exact for f in found for e in f.events if e.kind == k and e.exact}
+            curves.append(EventCurve(
+                kind=k, couplings=(ax.name, ay.name), points=np.array(pts),
+                residuals=np.array(res), converged=bool(ok),
+                method="the 1D event located by continuation + Newton at every grid value of "
+                       f"{ay.name}", message=f"{len(pts)} points; exact values at some points: "
+                                             f"{', '.join(sorted(exact)[:3])}" if exact else
+                f"{len(pts)} points").to_dict())
+    unexplained = [dict(u, **{ay.name: ay.values[j]}) for j, f in enumerate(found)
+                   for u in f.unexplained]
+    # grid index of (i, j) in the scan's row order (axes[0] outer, axes[1] inner)
+    return {"cells": cells, "cell_of": cell_of, "reps": reps, "checks": checks,
+            "computed": sorted(set(reps.values()) | set(checks)), "curves": curves,
+            "unexplained": unexplained, "events_per_row": [
+                [e.to_dict() for e in f.events] for f in found]}
+
+
+def _apply_plan_2d(plan, axes, rows, say) -> list:
+    """Fill every row from its cell's representative and compare the check sample."""
+    keep = ("structure", "n_critical", "cp1:kind", "cp2:kind", "cp3:kind")
+    for m, r in enumerate(rows):
+        r["cell"] = plan["cell_of"][m]
+        if "structure" in r:
+            r["from_interval"] = False
+            continue
+        src = rows[plan["reps"][plan["cell_of"][m]]]
+        for k in keep:
+            if k in src:
+                r[k] = src[k]
+        r["error"] = src.get("error", "")
+        r["from_interval"] = True
+    checks = []
+    for m in plan["checks"]:
+        k = plan["cell_of"][m]
+        want, got = classification(rows[plan["reps"][k]]), classification(rows[m])
+        agree = want == got and not rows[m]["error"]
+        checks.append({"index": m, **{a.name: rows[m][a.name] for a in axes}, "cell": k,
+                       "agree": agree, "expected": want, "found": got,
+                       "error": rows[m]["error"]})
+        if not agree:
+            say(f"atlas check disagrees at {', '.join(f'{a.name}={rows[m][a.name]!r}' for a in axes)}: "
+                f"the cell's structure is {want['structure']}, its own diagram gives "
+                f"{got['structure']}")
+    plan["events"] = [e for row in plan["events_per_row"] for e in row]
+    plan["checks"] = {"seed": CHECK_SEED, "sample": len(checks),
+                      "disagreements": sum(not c["agree"] for c in checks), "points": checks,
+                      "cells": len(plan["cells"])}
+    for u in plan["unexplained"]:
+        say(f"structure events: unexplained change {u}")
+    return []
 
 
 #: most boundaries located along one grid edge before the rest of it is reported unresolved
@@ -872,7 +996,16 @@ def _figure(out_dir, doc, axes):
             located = [b for b in doc["boundaries"] if b["converged"]]
             bx = [b["point"][a0.name] for b in located]
             by = [b["point"][a1.name] for b in located]
-            ax.plot(bx, by, ".", color="black", ms=3, label="refined boundary")
+            if located:
+                ax.plot(bx, by, ".", color="black", ms=3, label="refined boundary")
+            styles = ("-", "--", ":", "-.")
+            kinds = sorted({c["kind"] for c in doc.get("event_curves") or []})
+            for c in doc.get("event_curves") or []:
+                pts = np.array(c["points"], float).reshape(-1, 2)
+                first = c is next(d for d in doc["event_curves"] if d["kind"] == c["kind"])
+                ax.plot(pts[:, 0], pts[:, 1], color="black", lw=1.2,
+                        ls=styles[kinds.index(c["kind"]) % len(styles)],
+                        label=c["kind"] if first else None)
             for s in structures:
                 ax.plot([], [], "s", color=color[s], label=s)
             ax.set_xlabel(a0.name)
