@@ -187,3 +187,37 @@ def test_lovelock_isolated_critical_point_event():
     _assert_converged(e)
     assert f"x = {math.sqrt(at2):.12g}" in e.message
     assert f"P = {(d - 1) * (d - 2) / (48 * math.pi * at2):.12g}" in e.message
+
+
+def test_atlas_2d_event_curves_and_cells(tmp_path, monkeypatch):
+    """2D map from events: Born-Infeld over (b, Q).  The 1D event along b at each Q traces the
+    curve bQ = 1/sqrt(8) (GKM); the cut grid graph has two cells, one diagram each (the
+    per-point analysis is a cheap stand-in classifying by bQ, so that the test checks the
+    cells and the report, not the diagrams, which the 1D test covers)."""
+    import bhchem.workflows.atlas as atlas
+
+    def fake(family_name, family_file, params, admissible=(None, ())):
+        two = params["b"] * params["Q"] > 1 / math.sqrt(8)
+        return {"error": "", "n_critical": 2 if two else 0,
+                "structure": "two" if two else "none"}
+
+    monkeypatch.setattr(atlas, "analyse_point", fake)
+    doc = scan("born-infeld-ads", [parse_grid("b=0.3:0.4:6"), parse_grid("Q=0.95:1.05:2")],
+               {}, tmp_path / "m", method="events", checks=4)
+    (curve,) = [c for c in doc["event_curves"] if c["kind"] == "critical-count"]
+    assert curve["converged"] and len(curve["points"]) == 2
+    for b, Q in curve["points"]:
+        assert abs(b * Q - 1 / math.sqrt(8)) <= 1e-12
+    assert doc["checks"]["cells"] == 2 and doc["diagrams_computed"] == 2 + 4
+    assert doc["checks"]["disagreements"] == 0
+    for r in doc["rows"]:
+        assert r["structure"] == ("two" if r["b"] * r["Q"] > 1 / math.sqrt(8) else "none")
+    assert (tmp_path / "m" / "atlas.png").stat().st_size > 1000
+
+
+def test_cli_scan_events_on_a_discrete_axis_is_refused(capsys, tmp_path):
+    from bhchem.cli.main import main
+    code = main(["scan", "schwarzschild-ads", "--grid", "d=4:7:4", "--method", "events",
+                 "-o", str(tmp_path / "x")])
+    err = capsys.readouterr().err
+    assert code == 2 and "d is discrete" in err and len(err.strip().splitlines()) == 1
