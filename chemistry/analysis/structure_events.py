@@ -46,6 +46,8 @@ points between two samples that no continued point accounts for is in ``unexplai
 """
 from __future__ import annotations
 
+import importlib
+import importlib.util
 import math
 from dataclasses import dataclass, field, replace
 
@@ -562,7 +564,7 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
     Born-Infeld-AdS at Q = 1: two critical points appear at bQ = 1/sqrt(8) (Gunasekaran,
     Kubiznak & Mann, JHEP 11 (2012) 110).
 
-    >>> ev = structure_events("born-infeld-ads", "b", (0.3, 0.4), n_samples=5, Q=1.0)
+    >>> ev = structure_events("born-infeld-ads", "b", (0.34, 0.37), n_samples=2, Q=1.0)
     >>> e = ev.events[0]
     >>> e.kind, abs(e.value - 8 ** -0.5) < 1e-12
     ('critical-count', True)
@@ -612,6 +614,7 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
                     _line_crossings(model, path, add)
     for ev in small_state_events(model, lo, hi, samples)[0]:
         add(ev)
+    notes_poly = _merge_polynomial(family, coupling, (lo, hi), fixed, events)
     events.sort(key=lambda e: e.value)
     # the count of physical critical points between samples must be explained
     unexplained = list(notes)
@@ -626,12 +629,42 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
     ok = all(e.converged for e in events) and not unexplained
     msg = (f"{len(events)} events; every one converged" if ok else
            f"{len(events)} events; {sum(not e.converged for e in events)} not converged, "
-           f"{len(unexplained)} unexplained changes")
+           f"{len(unexplained)} unexplained changes") + notes_poly
     return StructureEvents(family=model.th.family.name, coupling=coupling, interval=(lo, hi),
                            fixed=dict(fixed), events=tuple(events),
                            samples=tuple(float(s) for s in samples),
                            counts=tuple(len(p) for p in pts), unexplained=tuple(unexplained),
                            converged=ok, message=msg)
+
+
+#: the optional exact producer (issue 17 part A); used only when it is installed
+_POLYNOMIAL_MODULE = "bhchem.analysis.critical_polynomial"
+
+
+def _merge_polynomial(family, coupling, interval, fixed, events) -> str:
+    """Optional: exact thresholds from the critical polynomial
+    (``polynomial_thresholds(family, coupling, interval, **fixed)``), when that module is
+    installed.  An exact event that matches one of ours (kind and value to 1e-9) lends it its
+    ``exact`` text; one we did not find is added as it is.  A failure of that producer is
+    said in the message (our events stand)."""
+    if importlib.util.find_spec(_POLYNOMIAL_MODULE) is None:
+        return ""
+    try:
+        exact = importlib.import_module(_POLYNOMIAL_MODULE).polynomial_thresholds(
+            family, coupling, interval, **fixed)
+    except Exception as exc:  # the optional producer failed: ours stand, and we say so
+        return f"; the critical-polynomial thresholds failed ({type(exc).__name__}: {exc})"
+    added = 0
+    for ev in exact:
+        match = [k for k, e in enumerate(events) if _same(ev, e, 1e-9)]
+        if match:
+            k = match[0]
+            if events[k].exact is None and ev.exact:
+                events[k] = replace(events[k], exact=ev.exact)
+        elif interval[0] <= ev.value <= interval[1]:
+            events.append(ev)
+            added += 1
+    return f"; {len(exact)} critical-polynomial thresholds ({added} added)" if exact else ""
 
 
 def _line_crossings(model, path, add):
