@@ -402,6 +402,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         raise BhchemError(f"method {method!r}: choose one of {', '.join(METHODS)}")
     continuous = {p.name for p in bind(fam, **{**fixed, **{a.name: a.values[0] for a in axes}}
                                        ).derivation.parameters}
+    auto = method == "auto"
     if method == "auto":
         method = "events" if (len(axes) == 1 and axes[0].spacing == "linear"
                               and axes[0].name in continuous
@@ -427,8 +428,20 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             reps.append(i)
     plan = None
     if method == "events":
-        plan = (_event_plan(fam, axes[0], fixed, max(int(checks), 0)) if len(axes) == 1 else
-                _event_plan_2d(fam, axes, fixed, max(int(checks), 0), executor, workers))
+        try:
+            plan = (_event_plan(fam, axes[0], fixed, max(int(checks), 0)) if len(axes) == 1
+                    else _event_plan_2d(fam, axes, fixed, max(int(checks), 0), executor,
+                                        workers))
+        except Exception as exc:  # events unavailable here: said, never silently swapped
+            if not auto:
+                raise BhchemError(f"--method events: the structure events could not be "
+                                  f"located ({type(exc).__name__}: {exc}); use --method "
+                                  f"diagrams") from None
+            (notify or (lambda line: None))(
+                f"structure events could not be located ({type(exc).__name__}: {exc}); "
+                f"computing a full diagram per point instead")
+            method = "diagrams"
+    if plan is not None:
         need = {rep_of[keys[i]] for i in plan["computed"]}
         reps = [i for i in reps if i in need]
     manifest = {"family": family_name, "family_file": os.path.abspath(family_file) if family_file else None,
