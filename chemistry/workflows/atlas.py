@@ -38,7 +38,7 @@ per-point numbers, critical values and triple point, are left empty there).  A c
 whose classification differs from its interval's is listed in ``checks`` (and on stderr through
 ``notify``), never hidden; the events (with the structures below and above) are in
 ``events`` and drawn on the figure.  2D grids: the events along the first axis are located at
-every value of the second and chained into :class:`~bhchem.analysis.events.EventCurve`\ s
+every value of the second and chained into :class:`~bhchem.analysis.events.EventCurve` objects
 (``event_curves``, drawn as curves); the cells are the connected components (networkx) of the
 grid graph whose edges are cut where an event lies between their two ends (the events below
 x differ), one representative diagram per cell plus the check sample.  ``auto`` (the default) takes ``events`` for a linear 1D
