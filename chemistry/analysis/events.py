@@ -40,6 +40,9 @@ EVENT_KINDS = {
     "hawking-page-meets-first-order": "a Hawking--Page line meets a first-order line",
     "isolated-critical-point": "the critical points degenerate into an isolated critical "
                                "point (nonstandard exponents)",
+    "small-state-asymptote": "the leading coefficient of T at the small end of the state "
+                             "variable (lim x -> 0 of x T) changes sign: a branch appears or "
+                             "disappears at the small end, with the lines that end on it",
 }
 
 

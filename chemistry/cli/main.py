@@ -335,7 +335,7 @@ def cmd_scan(args) -> int:
         doc = scan(args.family, axes, fixed, args.output, family_file=family_file,
                    workers=args.workers, executor=executor, quiet=args.quiet,
                    refine=args.refine, notify=_note, conditions=args.conditions,
-                   without=_without(args))
+                   without=_without(args), method=args.method)
     except OSError as exc:  # e.g. disk full or a read-only folder: say what is missing
         print(f"bhchem: error: the atlas table in {args.output} was not written ({exc}); "
               f"a rerun reuses any finished chunks in {args.output}/chunks",
@@ -489,6 +489,11 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--scheduler-timeout", metavar="DURATION", default="10s",
                    help="how long to try to reach the Dask scheduler (network I/O; 10s)")
     add_condition_args(p)
+    p.add_argument("--method", choices=("auto", "diagrams", "events"), default="auto",
+                   help="events: locate the structure events along a 1D axis and compute full "
+                        "diagrams for one point per interval plus a check sample; diagrams: "
+                        "a full diagram per point; auto (default): events for a linear 1D grid "
+                        "of 16 or more points")
     p.add_argument("--refine", type=int, default=8,
                    help="bisection steps per boundary (8; 0: bracket by the grid only)")
     p.add_argument("--quiet", action="store_true", help="no progress display")

@@ -27,6 +27,25 @@ each critical point; :func:`classification`), every change is located by bisecti
 point) is listed with ``converged: false`` and a one-line note, never dropped.  The
 ``structures`` list names every structure that occurs in the rows or the boundaries.
 
+Methods: ``diagrams`` classifies every distinct scale-free grid point by its own full phase
+diagram (above).  ``events`` (1D grids) locates the structure events along the axis first
+(:func:`bhchem.analysis.structure_events.structure_events`: continuation + Newton, each event
+to ~1e-14), cuts the axis at them, and computes full phase diagrams only for one
+representative grid point per interval plus a seeded random check sample of
+``min(CHECK_SAMPLE, n)`` further grid points; every other point takes the structure,
+``n_critical`` and critical-point kinds of its interval (its row says ``from_interval``; the
+per-point numbers, critical values and triple point, are left empty there).  A check point
+whose classification differs from its interval's is listed in ``checks`` (and on stderr through
+``notify``), never hidden; the events (with the structures below and above) are in
+``events`` and drawn on the figure.  2D grids: the events along the first axis are located at
+every value of the second and chained into :class:`~bhchem.analysis.events.EventCurve` objects
+(``event_curves``, drawn as curves); the cells are the connected components (networkx) of the
+grid graph whose edges are cut where an event lies between their two ends (the events below
+x differ), one representative diagram per cell plus the check sample.  ``auto`` (the default) takes ``events`` for a linear 1D
+grid of at least EVENTS_MIN_POINTS points with the default state conditions (below that
+per-point diagrams cost about as much as the representatives and checks) and ``diagrams``
+otherwise.
+
 Files: the table (atlas.csv, atlas.json) is the result.  The figure (atlas.png) is drawn
 first; if it cannot be written (matplotlib missing, disk full) the table says so in
 ``figure_error`` and no figure of an earlier run is left behind.
@@ -45,8 +64,9 @@ import signal
 import sys
 import warnings
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
+import networkx as nx
 import numpy as np
 
 from concurrent.futures import ProcessPoolExecutor
@@ -54,6 +74,8 @@ from concurrent.futures import as_completed as futures_as_completed
 
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.phases import phase_diagram
+from bhchem.analysis.events import EventCurve
+from bhchem.analysis.structure_events import structure_events
 from bhchem.core.compiled import bind, parse_number, resolve_ensemble, validate_values
 from bhchem.declare.registry import get_family, load_family_file
 from bhchem.errors import BhchemError, BhchemWarning
@@ -72,6 +94,16 @@ MAX_GRID_POINTS = 100_000
 #: chunks are recomputed after a kill)
 MANIFEST_EVERY = 16
 ATLAS_ANCHORS = 48  # isobar anchors per phase diagram (narrow reentrant windows need them)
+#: grid points checked by a full diagram in the events method (seeded, see scan)
+CHECK_SAMPLE = 8
+#: the seed of the check sample (fixed: a rerun checks the same points)
+CHECK_SEED = 17
+#: ``method="auto"`` uses events for a linear 1D grid of at least this many points
+EVENTS_MIN_POINTS = 16
+METHODS = ("auto", "diagrams", "events")
+#: full critical-point searches per row of a 2D events map (continuation covers the rest; a
+#: pair of critical points born and gone between two samples of a row would be missed)
+EVENT_SAMPLES_2D = 7
 
 
 @dataclass(frozen=True)
@@ -198,7 +230,8 @@ def family_source_sha256(fam):
 
 
 #: manifest keys that identify a scan (``chunks`` holds the checksums and may grow)
-_IDENTITY = ("family", "family_file", "grid", "fixed", "chunk_size", "anchors", "conditions")
+_IDENTITY = ("family", "family_file", "grid", "fixed", "chunk_size", "anchors", "conditions",
+             "method", "checks")
 
 
 def _resume_manifest(man_path, manifest, out_dir, say) -> dict:
@@ -321,7 +354,8 @@ def _as_completed(executor, futures):
 
 def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, workers=1,
          executor=None, chunk_size=CHUNK_SIZE, refine=8, quiet=True,
-         stop_after_chunks=None, notify=None, conditions=None, without=()) -> dict:
+         stop_after_chunks=None, notify=None, conditions=None, without=(),
+         method="auto", checks=CHECK_SAMPLE) -> dict:
     """Run (or resume) an atlas scan; write atlas.csv, atlas.json, atlas.png into out_dir.
 
     Returns the atlas document (as written to atlas.json).  ``stop_after_chunks`` stops
@@ -336,6 +370,10 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
 
     ``conditions`` and ``without`` choose which states count at every point (as in
     :func:`bhchem.bind`); the selection is part of the scan's identity and of atlas.json.
+
+    ``method`` is ``"diagrams"`` (a full phase diagram per distinct point), ``"events"``
+    (1D: structure events, then diagrams for one representative per interval and a check
+    sample of ``min(checks, n)`` points; see the module docstring) or ``"auto"``.
     """
     fixed = dict(fixed or {})
     fam = _family(family_name, family_file)
@@ -360,6 +398,26 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         raise BhchemError(f"the grid has {total:,} points; one scan takes at most "
                           f"{MAX_GRID_POINTS:,} (a row per point stays in memory): coarsen it or "
                           f"split it into several scans")
+    if method not in METHODS:
+        raise BhchemError(f"method {method!r}: choose one of {', '.join(METHODS)}")
+    continuous = {p.name for p in bind(fam, **{**fixed, **{a.name: a.values[0] for a in axes}}
+                                       ).derivation.parameters}
+    auto = method == "auto"
+    if method == "auto":
+        method = "events" if (len(axes) == 1 and axes[0].spacing == "linear"
+                              and axes[0].name in continuous
+                              and len(axes[0].values) >= EVENTS_MIN_POINTS
+                              and conditions is None and not without) else "diagrams"
+    if method == "events" and len(axes) > 2:
+        raise BhchemError("--method events takes one or two --grid axes (use diagrams for "
+                          "3D grids)")
+    if method == "events" and any(a.name not in continuous for a in axes):
+        raise BhchemError(f"--method events needs continuous couplings; "
+                          f"{', '.join(a.name for a in axes if a.name not in continuous)} "
+                          f"is discrete (use --method diagrams)")
+    if method == "events" and (conditions is not None or without):
+        raise BhchemError("--method events uses the family's default state conditions; use "
+                          "--method diagrams with --conditions/--without")
     points = [dict(zip(names, combo)) for combo in itertools.product(*(a.values for a in axes))]
     # scale invariance: one computation per distinct set of scale-free combinations
     keys = [scale_free_key(bind(fam, **{**fixed, **p})) for p in points]
@@ -368,10 +426,29 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
         if k not in rep_of:
             rep_of[k] = i
             reps.append(i)
+    plan = None
+    if method == "events":
+        try:
+            plan = (_event_plan(fam, axes[0], fixed, max(int(checks), 0)) if len(axes) == 1
+                    else _event_plan_2d(fam, axes, fixed, max(int(checks), 0), executor,
+                                        workers))
+        except Exception as exc:  # events unavailable here: said, never silently swapped
+            if not auto:
+                raise BhchemError(f"--method events: the structure events could not be "
+                                  f"located ({type(exc).__name__}: {exc}); use --method "
+                                  f"diagrams") from None
+            (notify or (lambda line: None))(
+                f"structure events could not be located ({type(exc).__name__}: {exc}); "
+                f"computing a full diagram per point instead")
+            method = "diagrams"
+    if plan is not None:
+        need = {rep_of[keys[i]] for i in plan["computed"]}
+        reps = [i for i in reps if i in need]
     manifest = {"family": family_name, "family_file": os.path.abspath(family_file) if family_file else None,
                 "grid": [a.spec for a in axes], "fixed": fixed, "chunk_size": chunk_size,
                 "anchors": ATLAS_ANCHORS, "version": __version__,
-                "conditions": adm.to_dict(),
+                "conditions": adm.to_dict(), "method": method,
+                "checks": checks if method == "events" else None,
                 "family_source_sha256": family_source_sha256(fam)}
     out_dir = os.path.abspath(out_dir)
     chunk_dir = os.path.join(out_dir, "chunks")
@@ -462,11 +539,16 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                 computed[r["index"]] = r
         rows = []
         for i, p in enumerate(points):
-            r = dict(computed[rep_of[keys[i]]])
+            src = computed.get(rep_of[keys[i]])
+            r = dict(src) if src is not None else {}
             r.update({"index": i, **p})
             rows.append(r)
-        boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine, executor,
-                                 admissible)
+        if plan is None:
+            boundaries = _boundaries(family_name, family_file, fixed, axes, rows, refine,
+                                     executor, admissible)
+        else:
+            boundaries = (_apply_plan(plan, axes[0], rows, say) if len(axes) == 1 else
+                          _apply_plan_2d(plan, axes, rows, say))
     finally:
         if own is not None:
             own.shutdown(wait=True, cancel_futures=True)
@@ -474,9 +556,220 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             progress.close()
     doc = _assemble(family_name, fam, axes, fixed, rows, boundaries)
     doc["conditions"] = adm.to_dict()
-    doc["distinct_scale_free_points"] = len(reps)
+    doc["distinct_scale_free_points"] = len(set(rep_of.values()))
+    doc["method"] = method
+    if plan is not None:
+        doc["events"] = plan["events"]
+        doc["checks"] = plan["checks"]
+        doc["unexplained"] = plan["unexplained"]
+        if "curves" in plan:
+            doc["event_curves"] = plan["curves"]
+        doc["diagrams_computed"] = len(reps)
     _write_outputs(out_dir, doc, axes)
     return doc
+
+
+# -- the events method (1D) ---------------------------------------------------------------------
+def _event_plan(fam, axis, fixed, n_checks) -> dict:
+    """Events along the axis, the interval of every grid point, the representatives and the
+    seeded check sample (grid indices whose full diagrams are computed)."""
+    lo, hi = axis.values[0], axis.values[-1]
+    if lo > hi:
+        lo, hi = hi, lo
+    found = structure_events(fam, axis.name, (lo, hi), **fixed)
+    cuts = [e.value for e in found.events]
+    vals = np.array(axis.values)
+    interval = np.searchsorted(np.array(cuts), vals, side="right") if cuts else \
+        np.zeros(len(vals), int)
+    on_event = [i for i, v in enumerate(vals)
+                if any(abs(v - c) <= 1e-12 * max(1.0, abs(c)) for c in cuts)]
+    reps = {}
+    for k in sorted(set(interval.tolist())):
+        members = [i for i in range(len(vals)) if interval[i] == k and i not in on_event]
+        if not members:
+            continue
+        mid = 0.5 * (vals[members[0]] + vals[members[-1]])
+        reps[k] = min(members, key=lambda i: abs(vals[i] - mid))
+    rest = [i for i in range(len(vals)) if i not in reps.values()]
+    rng = np.random.default_rng(CHECK_SEED)
+    n_check = min(n_checks, len(rest))
+    checks = sorted(int(i) for i in rng.choice(rest, size=n_check, replace=False)) \
+        if n_check else []
+    computed = sorted(set(reps.values()) | set(checks) | set(on_event))
+    return {"found": found, "interval": interval.tolist(), "reps": reps, "checks": checks,
+            "computed": computed, "on_event": on_event}
+
+
+def _apply_plan(plan, axis, rows, say) -> list:
+    """Fill every row from its interval's representative, compare the check sample, fill the
+    events' ``below``/``above``; returns the boundaries (one per event)."""
+    reps, interval = plan["reps"], plan["interval"]
+    keep = ("structure", "n_critical", "cp1:kind", "cp2:kind", "cp3:kind")
+    for i, r in enumerate(rows):
+        if "structure" in r:
+            r["from_interval"] = False
+            continue
+        src = rows[reps[interval[i]]]
+        for k in keep:
+            if k in src:
+                r[k] = src[k]
+        r["error"] = src.get("error", "")
+        r["from_interval"] = True
+    checks = []
+    for i in plan["checks"]:
+        k = interval[i]
+        want, got = classification(rows[reps[k]]), classification(rows[i])
+        agree = want == got and not rows[i]["error"]
+        checks.append({"index": i, axis.name: axis.values[i], "interval": k, "agree": agree,
+                       "expected": want, "found": got, "error": rows[i]["error"]})
+        if not agree:
+            say(f"atlas check disagrees at {axis.name}={axis.values[i]!r}: the interval's "
+                f"structure is {want['structure']}, its own diagram gives {got['structure']}")
+    events, boundaries = [], []
+    ks = sorted(reps)
+    for j, e in enumerate(plan["found"].events):
+        below = next((rows[reps[k]] for k in reversed(ks) if k <= j), None)
+        above = next((rows[reps[k]] for k in ks if k >= j + 1), None)
+        sb = below["structure"] if below else None
+        sa = above["structure"] if above else None
+        kind = e.kind
+        if kind == "critical-leaves-preferred" and sb and sa and \
+                ("triple-point" in sb) != ("triple-point" in sa):
+            kind = "triple-point"
+        e = replace(e, kind=kind, below=sb, above=sa)
+        events.append(e.to_dict())
+        cb = classification(below) if below else {"structure": sb}
+        ca = classification(above) if above else {"structure": sa}
+        b = _boundary(axis.name, {}, e.value, e.value, cb, ca, 0, False, e.converged,
+                      f"{e.kind} ({e.method})")
+        b["event"] = e.kind
+        boundaries.append(b)
+    found = plan["found"]
+    plan["events"] = events
+    plan["checks"] = {"seed": CHECK_SEED, "sample": len(checks),
+                      "disagreements": sum(not c["agree"] for c in checks), "points": checks}
+    plan["unexplained"] = [dict(u) for u in found.unexplained]
+    for u in found.unexplained:
+        say(f"structure events: unexplained change in {axis.name} {u['bracket']}: {u['what']}")
+    for e in events:
+        if not e["converged"]:
+            say(f"structure events: the {e['kind']} event at {axis.name}={e['value']!r} did "
+                f"not converge (residuals {e['residuals']})")
+    return boundaries
+
+
+def _event_plan_2d(fam, axes, fixed, n_checks, executor, workers) -> dict:
+    """2D: the events along the first axis at every value of the second (each located by
+    continuation + Newton; rows in parallel), chained into EventCurves; cells are the
+    connected components (networkx) of the grid graph with every edge cut that an event
+    crosses; one representative per cell plus a seeded check sample."""
+    ax, ay = axes
+    lo, hi = sorted((ax.values[0], ax.values[-1]))
+    tasks = [(fam, ax.name, (lo, hi), EVENT_SAMPLES_2D) for _ in ay.values]
+    kws = [{**fixed, ay.name: y} for y in ay.values]
+    own = None
+    if executor is None and workers > 1:
+        own = executor = ProcessPoolExecutor(max_workers=workers, initializer=worker_setup,
+                                             initargs=(os.getpid(),))
+    try:
+        if executor is None:
+            found = [structure_events(*t, **kw) for t, kw in zip(tasks, kws)]
+        else:
+            futs = [executor.submit(structure_events, *t, **kw) for t, kw in zip(tasks, kws)]
+            found = [f.result() for f in futs]
+    finally:
+        if own is not None:
+            own.shutdown(wait=True)
+    nx_, ny = len(ax.values), len(ay.values)
+    xs = np.array(ax.values)
+    # event labels of a grid point: for each kind, how many events of that kind lie below x
+    kinds = sorted({e.kind for f in found for e in f.events})
+
+    def label(i, j):
+        return tuple(sum(1 for e in found[j].events if e.kind == k and e.value < xs[i])
+                     for k in kinds)
+    g = nx.Graph()
+    g.add_nodes_from(range(nx_ * ny))
+    lab = {(i, j): label(i, j) for i in range(nx_) for j in range(ny)}
+    for i in range(nx_):
+        for j in range(ny):
+            for (a, b) in ((i + 1, j), (i, j + 1)):
+                if a < nx_ and b < ny and lab[(i, j)] == lab[(a, b)]:
+                    g.add_edge(i * ny + j, a * ny + b)
+    cells = sorted((sorted(c) for c in nx.connected_components(g)), key=lambda c: c[0])
+    cell_of, reps = {}, {}
+    for k, members in enumerate(cells):
+        for m in members:
+            cell_of[m] = k
+        ci = np.mean([m // ny for m in members])
+        cj = np.mean([m % ny for m in members])
+        reps[k] = min(members, key=lambda m: (m // ny - ci) ** 2 + (m % ny - cj) ** 2)
+    rest = [m for m in range(nx_ * ny) if m not in set(reps.values())]
+    rng = np.random.default_rng(CHECK_SEED)
+    n_check = min(n_checks, len(rest))
+    checks = sorted(int(i) for i in rng.choice(rest, size=n_check, replace=False)) \
+        if n_check else []
+    # curves: events of one kind, the n-th of that kind in each row, chained along y
+    curves = []
+    for k in kinds:
+        for n in range(max(sum(1 for e in f.events if e.kind == k) for f in found)):
+            pts, res, ok = [], [], True
+            for j, f in enumerate(found):
+                evs = [e for e in f.events if e.kind == k]
+                if n < len(evs):
+                    pts.append((evs[n].value, ay.values[j]))
+                    res.append(max(evs[n].residuals.values()) if evs[n].residuals else 0.0)
+                    ok &= evs[n].converged
+            exact = {e.exact for f in found for e in f.events if e.kind == k and e.exact}
+            curves.append(EventCurve(
+                kind=k, couplings=(ax.name, ay.name), points=np.array(pts),
+                residuals=np.array(res), converged=bool(ok),
+                method="the 1D event located by continuation + Newton at every grid value of "
+                       f"{ay.name}", message=f"{len(pts)} points; exact values at some points: "
+                                             f"{', '.join(sorted(exact)[:3])}" if exact else
+                f"{len(pts)} points").to_dict())
+    unexplained = [dict(u, **{ay.name: ay.values[j]}) for j, f in enumerate(found)
+                   for u in f.unexplained]
+    # grid index of (i, j) in the scan's row order (axes[0] outer, axes[1] inner)
+    return {"cells": cells, "cell_of": cell_of, "reps": reps, "checks": checks,
+            "computed": sorted(set(reps.values()) | set(checks)), "curves": curves,
+            "unexplained": unexplained, "events_per_row": [
+                [e.to_dict() for e in f.events] for f in found]}
+
+
+def _apply_plan_2d(plan, axes, rows, say) -> list:
+    """Fill every row from its cell's representative and compare the check sample."""
+    keep = ("structure", "n_critical", "cp1:kind", "cp2:kind", "cp3:kind")
+    for m, r in enumerate(rows):
+        r["cell"] = plan["cell_of"][m]
+        if "structure" in r:
+            r["from_interval"] = False
+            continue
+        src = rows[plan["reps"][plan["cell_of"][m]]]
+        for k in keep:
+            if k in src:
+                r[k] = src[k]
+        r["error"] = src.get("error", "")
+        r["from_interval"] = True
+    checks = []
+    for m in plan["checks"]:
+        k = plan["cell_of"][m]
+        want, got = classification(rows[plan["reps"][k]]), classification(rows[m])
+        agree = want == got and not rows[m]["error"]
+        checks.append({"index": m, **{a.name: rows[m][a.name] for a in axes}, "cell": k,
+                       "agree": agree, "expected": want, "found": got,
+                       "error": rows[m]["error"]})
+        if not agree:
+            say(f"atlas check disagrees at {', '.join(f'{a.name}={rows[m][a.name]!r}' for a in axes)}: "
+                f"the cell's structure is {want['structure']}, its own diagram gives "
+                f"{got['structure']}")
+    plan["events"] = [e for row in plan["events_per_row"] for e in row]
+    plan["checks"] = {"seed": CHECK_SEED, "sample": len(checks),
+                      "disagreements": sum(not c["agree"] for c in checks), "points": checks,
+                      "cells": len(plan["cells"])}
+    for u in plan["unexplained"]:
+        say(f"structure events: unexplained change {u}")
+    return []
 
 
 #: most boundaries located along one grid edge before the rest of it is reported unresolved
@@ -689,9 +982,19 @@ def _figure(out_dir, doc, axes):
             for s in structures:
                 m = np.array([r["structure"] == s for r in rows])
                 ax.scatter(x[m], np.zeros(m.sum()), s=60, marker="s", color=color[s], label=s)
-            for b in doc["boundaries"]:
+            events = doc.get("events") or []
+            for b in ([] if events else doc["boundaries"]):
                 if b["converged"]:
                     ax.axvline(b["point"][axes[0].name], color="black", lw=0.8, ls="--")
+            styles = ("-", "--", ":", "-.")
+            kinds = sorted({e["kind"] for e in events})
+            for e in events:  # one line per event, labelled by its kind (one legend entry)
+                j = kinds.index(e["kind"])
+                label = e["kind"] if e is next(f for f in events if f["kind"] == e["kind"]) \
+                    else None
+                ax.axvline(e["value"], color="black", lw=1.0, ls=styles[j % len(styles)],
+                           label=label if e["converged"] else f"{label} (not converged)"
+                           if label else None)
             ax.set_yticks([])
             ax.set_xlabel(axes[0].name)
             if axes[0].spacing == "log":
@@ -710,7 +1013,16 @@ def _figure(out_dir, doc, axes):
             located = [b for b in doc["boundaries"] if b["converged"]]
             bx = [b["point"][a0.name] for b in located]
             by = [b["point"][a1.name] for b in located]
-            ax.plot(bx, by, ".", color="black", ms=3, label="refined boundary")
+            if located:
+                ax.plot(bx, by, ".", color="black", ms=3, label="refined boundary")
+            styles = ("-", "--", ":", "-.")
+            kinds = sorted({c["kind"] for c in doc.get("event_curves") or []})
+            for c in doc.get("event_curves") or []:
+                pts = np.array(c["points"], float).reshape(-1, 2)
+                first = c is next(d for d in doc["event_curves"] if d["kind"] == c["kind"])
+                ax.plot(pts[:, 0], pts[:, 1], color="black", lw=1.2,
+                        ls=styles[kinds.index(c["kind"]) % len(styles)],
+                        label=c["kind"] if first else None)
             for s in structures:
                 ax.plot([], [], "s", color=color[s], label=s)
             ax.set_xlabel(a0.name)

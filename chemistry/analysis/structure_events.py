@@ -1,0 +1,693 @@
+"""Structure events along one coupling, located by continuation and Newton.
+
+The phase structure of a family changes at isolated values of a coupling c (the other
+parameters fixed).  This module finds those values from the objects whose change makes the
+structure change, continued in c, and solves each event's own equation by Newton on an
+extended system (never by bisection between grid points):
+
+*critical points* (x T_x = 0, x^2 T_xx = 0; :mod:`bhchem.analysis.critical`) are found by a
+full search at a few sample couplings and continued between them (natural-parameter
+continuation with step control: a predictor from the last two points, Newton in
+(log x, P), the step halved when Newton fails or jumps).  A continued point stops
+
+- at a **fold** of the critical branch (two critical points merge and disappear,
+  kind ``critical-count``): Newton on the extended system in (log x, P, c)
+
+  .. math:: \\frac{x T_x}{T} = 0, \\quad \\frac{x^2 T_{xx}}{T} = 0, \\quad
+            \\det \\frac{\\partial (x T_x, x^2 T_{xx})/T}{\\partial(\\log x, P)} = 0,
+
+  at a critical point the determinant is -x^4 T_xP T_xxx / T^2, so the fold is
+  T_x = T_xx = T_xxx = 0 (two critical points merge) or T_x = T_xx = T_xP = 0;
+- where its **pressure or temperature crosses zero** (``critical-pressure-zero``: x T_x = x^2
+  T_xx = 0 at P = 0 in (log x, c); ``critical-temperature-zero``: T = x T_x = x^2 T_xx = 0
+  in (log x, P, c), scaled by a fixed temperature);
+
+*a critical point meeting another first-order line*: along the critical isotherm T = T_c
+every other locally stable state x_1 has Delta G = G(x_1) - G(x_c); where Delta G changes
+sign the critical point leaves (or joins) the lowest-G branch, and a triple point of the
+swallowtail it ends appears or disappears there.  Newton on (log x_1, log x_c, P, c):
+
+.. math:: T(x_1) = T(x_c), \\quad G(x_1) = G(x_c), \\quad x_c T_x(x_c) = 0, \\quad
+          x_c^2 T_{xx}(x_c) = 0
+
+(kind ``critical-leaves-preferred``; the structure map renames it ``triple-point`` when the
+structure signatures on its two sides differ in a triple point);
+
+*the small-state asymptote*: where the leading coefficient lim_{x -> 0} x T(x, P) changes
+sign (sympy limit, root by Newton, exact by sympy where it can), the small-x end of every
+isotherm turns from T -> +inf to T -> -inf: a branch appears at the small end and with it
+the lines that end on that branch (e.g. a zeroth-order line whose window closes at P -> 0).
+Kind ``small-state-asymptote``.
+
+Each event carries its residuals (the extended system at the solution, relative), a
+``converged`` flag (Newton step and residual below tolerance) and the method.  What the
+detector cannot explain is listed, not dropped: a change in the number of physical critical
+points between two samples that no continued point accounts for is in ``unexplained``.
+"""
+from __future__ import annotations
+
+import importlib
+import importlib.util
+import math
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+import sympy as sp
+
+from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.events import StructureEvent
+from bhchem.core.compiled import bind
+from bhchem.core.results import Result
+from bhchem.errors import BhchemError
+
+#: Newton on an extended system stops when the step is below this (relative to the unknowns)
+STEP_TOLERANCE = 1e-14
+#: an event is converged when its largest relative residual is below this
+EVENT_RESIDUAL_TOLERANCE = 1e-11
+#: the kinds that change the number of physical critical points
+_COUNT_KINDS = ("critical-count", "critical-pressure-zero", "critical-temperature-zero",
+                "isolated-critical-point")
+#: default number of full critical-point searches along the interval (the detector)
+N_SAMPLES = 13
+
+
+@dataclass(frozen=True, repr=False)
+class StructureEvents(Result):
+    """The events along one coupling (see the module docstring).
+
+    Attributes
+    ----------
+    family, coupling : str
+    interval : tuple of float
+    fixed : dict
+        The other parameters.
+    events : tuple of StructureEvent
+        Sorted by value.
+    samples : tuple of float
+        The couplings of the full critical-point searches (the detector).
+    counts : tuple of int
+        Physical critical points at each sample.
+    unexplained : tuple of dict
+        Changes seen by the detector that no event accounts for (bracket and what changed).
+    converged : bool
+        Every event converged and nothing is unexplained.
+    message : str
+    """
+
+    family: str
+    coupling: str
+    interval: tuple
+    fixed: dict
+    events: tuple
+    samples: tuple
+    counts: tuple
+    unexplained: tuple = ()
+    converged: bool = True
+    message: str = ""
+
+    def summary(self) -> str:
+        kinds = ", ".join(e.summary() for e in self.events) or "no events"
+        return f"{self.family} along {self.coupling}: {kinds}"
+
+
+# -- the numeric model with the coupling free ---------------------------------------------------
+class CouplingModel:
+    """Compiled T, G and their derivatives as functions of (x, P, c), c the coupling
+    (the other parameters fixed): ``model(name, x, P, c)``."""
+
+    def __init__(self, family, coupling, fixed, c0):
+        self.family, self.coupling, self.fixed = family, coupling, dict(fixed)
+        th = bind(family, **{**fixed, coupling: c0})
+        self.th = th
+        names = [s.name for s in th.derivation.parameters]
+        if coupling not in names:
+            raise BhchemError(f"{coupling!r} is not a continuous parameter of "
+                              f"{th.family.name} ({', '.join(names)})")
+        self.i = names.index(coupling)
+        self.base = list(th.parameter_values)
+        cd = th.compiled
+        self.f = {"T": cd.function("T"), "G": cd.function("G"), "S": cd.function("S"),
+                  "M": cd.function("M")}
+        for w in ("x", "xx", "xxx", "xP", "xxP"):
+            self.f["T" + w] = cd.derivative("T", w)
+
+    def __call__(self, name, x, P, c):
+        p = list(self.base)
+        p[self.i] = c
+        with np.errstate(all="ignore"):
+            return float(self.f[name](float(x), float(P), *p))
+
+    def binding(self, c):
+        return bind(self.family, **{**self.fixed, self.coupling: float(c)})
+
+    def critical(self, u, P, c, scale=None):
+        x = math.exp(u)
+        T = self("T", x, P, c) if scale is None else scale
+        return np.array([x * self("Tx", x, P, c) / T, x * x * self("Txx", x, P, c) / T])
+
+    def fold(self, u, P, c):
+        x = math.exp(u)
+        T, Tx, Txx = self("T", x, P, c), self("Tx", x, P, c), self("Txx", x, P, c)
+        Txxx, TxP, TxxP = self("Txxx", x, P, c), self("TxP", x, P, c), self("TxxP", x, P, c)
+        a11, a12 = (x * Tx + x * x * Txx) / T, x * TxP / T
+        a21, a22 = (2 * x * x * Txx + x**3 * Txxx) / T, x * x * TxxP / T
+        return np.array([x * Tx / T, x * x * Txx / T, a11 * a22 - a12 * a21])
+
+    def physical(self, x, P, c) -> bool:
+        if not (P > 0 and self("T", x, P, c) > 0):
+            return False
+        th = self.binding(c)
+        return all(bool(th.condition_holds(cn.name, x, P)) for cn in th.active_conditions)
+
+
+def newton(F, z0, max_iter: int = 60, max_step=None):
+    """Newton on F(z) = 0 with a central-difference Jacobian.
+
+    Returns (z, residual, converged): converged when the last step is below
+    STEP_TOLERANCE relative to z and the residual (max |F|) below
+    EVENT_RESIDUAL_TOLERANCE.  ``max_step`` damps a step (max norm).
+    """
+    z = np.array(z0, float)
+    n = len(z)
+    small = False
+    for _ in range(max_iter):
+        f = F(z)
+        if not np.all(np.isfinite(f)):
+            return z, math.inf, False
+        J = np.empty((len(f), n))
+        for j in range(n):
+            h = 1e-7 * max(1.0, abs(z[j]))
+            e = np.zeros(n)
+            e[j] = h
+            J[:, j] = (F(z + e) - F(z - e)) / (2 * h)
+        if not np.all(np.isfinite(J)):
+            return z, math.inf, False
+        try:
+            dz = np.linalg.solve(J, -f)
+        except np.linalg.LinAlgError:
+            dz = np.linalg.lstsq(J, -f, rcond=None)[0]
+        m = float(np.max(np.abs(dz)))
+        if max_step is not None and m > max_step:
+            dz *= max_step / m
+        z = z + dz
+        if m <= STEP_TOLERANCE * (1 + float(np.max(np.abs(z)))):
+            small = True
+            break
+    f = F(z)
+    res = float(np.max(np.abs(f))) if np.all(np.isfinite(f)) else math.inf
+    return z, res, bool(small and res <= EVENT_RESIDUAL_TOLERANCE) or res <= 1e-15
+
+
+# -- continuation of one critical point ----------------------------------------------------------
+@dataclass
+class _Path:
+    points: list = field(default_factory=list)  # (c, u, P)
+    stop: str = "reached"  # reached | fold | pressure | temperature | domain
+
+
+def _solve_critical(model, c, u, P, scale=None):
+    z, res, ok = newton(lambda z: model.critical(z[0], z[1], c, scale), [u, P], max_iter=30,
+                        max_step=0.3)
+    return z, res
+
+
+def continue_critical(model, c0, c1, u0, P0, n_steps: int = 8, min_step_rel: float = 1e-7):
+    """Natural-parameter continuation of one critical point from c0 to c1 with step control.
+
+    Returns a :class:`_Path`; ``stop`` says why it ended before c1 (a fold: Newton no longer
+    converges however small the step; a crossing of P = 0, T = 0 or the physical domain
+    inside the last step).
+    """
+    path = _Path([(c0, u0, P0)])
+    span = c1 - c0
+    h = span / n_steps
+    hmin = abs(span) * min_step_rel
+    c, u, P = c0, u0, P0
+    while (c1 - c) * np.sign(span) > 0:
+        if abs(h) > abs(c1 - c):
+            h = c1 - c
+        if len(path.points) >= 2:
+            (ca, ua, Pa), (cb, ub, Pb) = path.points[-2], path.points[-1]
+            s = h / (cb - ca)
+            ug, Pg = ub + s * (ub - ua), Pb + s * (Pb - Pa)
+        else:
+            ug, Pg = u, P
+        z, res = _solve_critical(model, c + h, ug, Pg)
+        good = res < 1e-12 and abs(z[0] - u) < 0.25 and abs(z[1] - P) < 0.5 * max(abs(P), P0)
+        if good:
+            x, Pn, cn = math.exp(z[0]), z[1], c + h
+            Tn = model("T", x, Pn, cn)
+            if Pn <= 0:
+                path.stop = "pressure"
+            elif Tn <= 0:
+                path.stop = "temperature"
+            elif not model.physical(x, Pn, cn):
+                path.stop = "domain"
+            if path.stop != "reached":
+                path.points.append((cn, z[0], Pn))  # the point beyond (a seed)
+                return path
+            c, u, P = cn, z[0], Pn
+            path.points.append((c, u, P))
+            h *= 1.5
+            if abs(h) > abs(span) / n_steps:
+                h = span / n_steps
+        else:
+            h /= 2
+            if abs(h) < hmin:
+                path.stop = "fold"
+                return path
+    return path
+
+
+# -- event systems ------------------------------------------------------------------------------
+def _event(kind, model, c, residuals, ok, method, message, scale_free=None):
+    return StructureEvent(kind=kind, coupling=model.coupling, value=float(c),
+                          fixed=dict(model.fixed), residuals=residuals, converged=bool(ok),
+                          method=method, message=message, scale_free=scale_free or {})
+
+
+def _scale_free(model, c):
+    """The coupling as a scale-free combination (e.g. b*Q^1 for Born-Infeld)."""
+    th = model.binding(c)
+    dims = th.derivation.length_dimensions
+    n = dims.get(model.coupling, 0)
+    ref = next(((nm, m) for nm, m in dims.items()
+                if nm != model.coupling and m != 0 and th.values[nm] != 0), None)
+    if not n or ref is None:
+        return {}
+    ell = abs(float(th.values[ref[0]])) ** (1.0 / ref[1])
+    return {f"{model.coupling}/{ref[0]}^({n}/{ref[1]})": float(c) / ell ** n}
+
+
+def solve_fold(model, c, u, P):
+    """Where two critical points merge: Newton on (x T_x, x^2 T_xx, det J)/T in (log x, P, c)."""
+    z, res, ok = newton(lambda z: model.fold(z[0], z[1], z[2]), [u, P, c], max_step=0.2)
+    u, P, c = z
+    f = model.fold(u, P, c)
+    x = math.exp(u)
+    resid = {"x T_x / T": abs(f[0]), "x^2 T_xx / T": abs(f[1]), "det / T^2": abs(f[2])}
+    txxx = x**3 * model("Txxx", x, P, c) / model("T", x, P, c)
+    msg = (f"two critical points merge at x = {x:.12g}, P = {P:.12g} "
+           f"(x^3 T_xxx / T = {txxx:.3g}: "
+           f"{'T_x = T_xx = T_xxx = 0' if abs(txxx) < 1e-8 else 'T_x = T_xx = T_xP = 0'})")
+    return _event("critical-count", model, c, resid, ok and P > 0,
+                  "continuation + Newton on the fold system (x T_x, x^2 T_xx, det J)", msg,
+                  _scale_free(model, c)), (u, P)
+
+
+def _symbolic_T(model):
+    """(T, state symbol, P symbol, coupling symbol) with the other parameters substituted
+    exactly (cached on the model)."""
+    if getattr(model, "_sym", None) is None:
+        der = model.th.derivation
+        csym = next(s for s in der.parameters if s.name == model.coupling)
+        Psym = next(a for a in der.arguments if a.name == "P")
+        subs = {s: sp.nsimplify(model.th.values[s.name]) for s in der.parameters
+                if s.name != model.coupling}
+        model._sym = (der.quantities["T"].subs(subs), der.state, Psym, csym)
+    return model._sym
+
+
+def solve_isolated(model, c, u):
+    """Two critical points merging where T is 0/0: a double root x of T's denominator D
+    (D = D_x = 0 in (log x, c)) at which the numerator N vanishes too (fixes P).
+
+    Near such a point T is the ratio of two small numbers and the fold system cannot be
+    solved in double precision; this system is regular.  The classic case is the isolated
+    critical point of hyperbolic third-order Lovelock black holes (Dolan, Kostouki, Kubiznak
+    & Mann, CQG 31 (2014) 242001).  Returns None when T has no such denominator.
+    """
+    T, xs, Psym, csym = _symbolic_T(model)
+    num, den = sp.fraction(sp.together(T))
+    den = sp.Mul(*[f for f in sp.Mul.make_args(sp.factor_terms(den)) if f.has(xs)])
+    if den.has(Psym) or not den.has(csym) or not num.has(Psym):
+        return None
+    D = sp.lambdify((xs, csym), den, "math")
+    Dx = sp.lambdify((xs, csym), xs * sp.diff(den, xs), "math")
+    Dn = sp.lambdify((xs, csym), sum(abs(t) for t in sp.Add.make_args(sp.expand(den))),
+                     "math")
+
+    def F(z):
+        x = math.exp(z[0])
+        n = Dn(x, z[1])
+        return np.array([D(x, z[1]) / n, Dx(x, z[1]) / n])
+    try:
+        z, res, ok = newton(F, [u, c], max_step=0.2)
+    except (ValueError, OverflowError, ZeroDivisionError):
+        return None
+    x, cv = math.exp(z[0]), float(z[1])
+    Nf = sp.lambdify((xs, Psym, csym), num, "math")
+    Nn = sp.lambdify((xs, Psym, csym), sum(abs(t) for t in sp.Add.make_args(sp.expand(num))),
+                     "math")
+    zp, resp, okp = newton(lambda w: np.array([Nf(x, w[0], cv) / Nn(x, w[0], cv)]),
+                           [0.0], max_iter=60)
+    P = float(zp[0])
+    exact = None
+    try:
+        for sol in sp.solve([den, sp.diff(den, xs)], [xs, csym], dict=True):
+            v = sol.get(csym)
+            if v is not None and v.is_real and abs(float(v) - cv) <= 1e-9 * max(1, abs(cv)):
+                exact, cv = str(sp.nsimplify(v)), float(v)
+                break
+    except Exception:  # no closed form: the Newton root stands
+        pass
+    f = F([math.log(x), cv])
+    resid = {"D / |D|": abs(f[0]), "x D_x / |D|": abs(f[1]),
+             "N / |N|": abs(Nf(x, P, cv) / Nn(x, P, cv))}
+    ev = _event("isolated-critical-point", model, cv, resid,
+                ok and okp and P > 0 and max(resid.values()) <= EVENT_RESIDUAL_TOLERANCE,
+                "continuation + Newton on the double root of T's denominator (D, D_x) and "
+                "the numerator (P)",
+                f"two critical points merge at x = {x:.12g}, P = {P:.12g}, a double root of "
+                f"T's denominator where the numerator vanishes too (T = 0/0: an isolated "
+                f"critical point)", _scale_free(model, cv))
+    return replace(ev, exact=exact)
+
+
+def solve_pressure_infinite(model, c, u):
+    """A critical point runs off to P -> infinity: with B(x) = lim_{P->inf} T/P (sympy),
+    x B_x = x^2 B_xx = 0 in (log x, c) (T is linear in P for the families at hand; then the
+    critical conditions at large P are those of B).  Returns None when the limit is not a
+    finite function of x."""
+    T, xs, Psym, csym = _symbolic_T(model)
+    try:
+        B = sp.limit(T / Psym, Psym, sp.oo)
+    except Exception:  # sympy cannot take the limit: no event of this kind is claimed
+        return None
+    if B == 0 or not B.is_finite and B.is_finite is not None or not B.has(xs):
+        return None
+    Bf = sp.lambdify((xs, csym), B, "math")
+    B1 = sp.lambdify((xs, csym), xs * sp.diff(B, xs), "math")
+    B2 = sp.lambdify((xs, csym), xs**2 * sp.diff(B, xs, 2), "math")
+
+    def F(z):
+        x = math.exp(z[0])
+        b = Bf(x, z[1])
+        return np.array([B1(x, z[1]) / b, B2(x, z[1]) / b])
+    try:
+        z, res, ok = newton(F, [u, c], max_step=0.2)
+    except (ValueError, OverflowError, ZeroDivisionError):
+        return None
+    f = F(z)
+    return _event("critical-count", model, z[1],
+                  {"x B_x / B": abs(f[0]), "x^2 B_xx / B": abs(f[1])}, ok,
+                  "continuation + Newton on the P -> infinity limit B = T/P: "
+                  "(x B_x, x^2 B_xx) = 0",
+                  f"a critical point runs off to P -> infinity at x = {math.exp(z[0]):.12g} "
+                  f"(and comes back at negative P)", _scale_free(model, z[1]))
+
+
+def solve_pressure_zero(model, c, u, level=0.0):
+    """A critical point reaches P = level (0: the event): x T_x = x^2 T_xx = 0 at P = level
+    in (log x, c)."""
+    z, res, ok = newton(lambda z: model.critical(z[0], level, z[1]), [u, c], max_step=0.2)
+    f = model.critical(z[0], level, z[1])
+    x = math.exp(z[0])
+    return _event("critical-pressure-zero", model, z[1],
+                  {"x T_x / T": abs(f[0]), "x^2 T_xx / T": abs(f[1])}, ok,
+                  "continuation + Newton on (x T_x, x^2 T_xx) = 0 at P = 0",
+                  f"a critical point reaches P = 0 at x = {x:.12g}, "
+                  f"T = {model('T', x, 0.0, z[1]):.12g}", _scale_free(model, z[1]))
+
+
+def solve_temperature_zero(model, c, u, P, T_ref):
+    def F(z):
+        x = math.exp(z[0])
+        return np.array([model("T", x, z[1], z[2]) / T_ref,
+                         *model.critical(z[0], z[1], z[2], scale=T_ref)])
+    z, res, ok = newton(F, [u, P, c], max_step=0.2)
+    f = F(z)
+    return _event("critical-temperature-zero", model, z[2],
+                  {"T / T_ref": abs(f[0]), "x T_x / T_ref": abs(f[1]),
+                   "x^2 T_xx / T_ref": abs(f[2])}, ok,
+                  "continuation + Newton on (T, x T_x, x^2 T_xx) = 0",
+                  f"a critical point reaches T = 0 at x = {math.exp(z[0]):.12g}, P = {z[1]:.12g}",
+                  _scale_free(model, z[2]))
+
+
+def _other_states(model, c, xc, P, T):
+    """Other locally stable states on the critical isotherm T(x, P) = T (roots on a log grid,
+    polished by Newton): list of log x."""
+    xs = xc * np.geomspace(1e-3, 1e3, 1201)
+    p = list(model.base)
+    p[model.i] = c
+    with np.errstate(all="ignore"):
+        g = model.f["T"](xs, P, *p) - T
+    out = []
+    for k in np.nonzero(np.isfinite(g[:-1]) & np.isfinite(g[1:]) & (g[:-1] * g[1:] < 0))[0]:
+        if abs(math.log(xs[k] / xc)) < 0.05:
+            continue
+        z, res, _ = newton(lambda z: np.array([model("T", math.exp(z[0]), P, c) / T - 1]),
+                           [math.log(math.sqrt(xs[k] * xs[k + 1]))], max_iter=40, max_step=0.1)
+        x1 = math.exp(z[0])
+        if res < 1e-12 and abs(math.log(x1 / xc)) > 0.01 and model("Tx", x1, P, c) > 0 \
+                and model.physical(x1, P, c):
+            out.append(z[0])
+    return out
+
+
+def _delta_G(model, u1, xc, P, c):
+    x1 = math.exp(u1)
+    G1, Gc = model("G", x1, P, c), model("G", xc, P, c)
+    scale = abs(Gc) + abs(model("T", xc, P, c) * model("S", xc, P, c))
+    return (G1 - Gc) / scale
+
+
+def solve_critical_on_line(model, c, u1, uc, P):
+    """A critical point on another first-order line: Newton in (log x1, log xc, P, c) on
+    T(x1) = T(xc), G(x1) = G(xc), x T_x(xc) = 0, x^2 T_xx(xc) = 0 (T, G relative)."""
+    x0 = math.exp(uc)
+    g_scale = abs(model("G", x0, P, c)) + abs(model("T", x0, P, c) * model("S", x0, P, c))
+
+    def F(z):
+        x1, xc = math.exp(z[0]), math.exp(z[1])
+        Tc = model("T", xc, z[2], z[3])
+        return np.array([model("T", x1, z[2], z[3]) / Tc - 1,
+                         (model("G", x1, z[2], z[3]) - model("G", xc, z[2], z[3])) / g_scale,
+                         *model.critical(z[1], z[2], z[3])])
+    z, res, ok = newton(F, [u1, uc, P, c], max_step=0.1)
+    f = F(z)
+    x1, xc = math.exp(z[0]), math.exp(z[1])
+    return _event("critical-leaves-preferred", model, z[3],
+                  {"T1/Tc - 1": abs(f[0]), "(G1 - Gc)/G_scale": abs(f[1]),
+                   "x T_x / T": abs(f[2]), "x^2 T_xx / T": abs(f[3])}, ok,
+                  "continuation + Newton on (T1 - Tc, G1 - Gc, x T_x, x^2 T_xx)",
+                  f"the critical point at x = {xc:.12g}, P = {z[2]:.12g} lies on the "
+                  f"first-order line through the state x = {x1:.12g} (equal T and G)",
+                  _scale_free(model, z[3]))
+
+
+# -- the small-state asymptote -------------------------------------------------------------------
+def small_state_events(model, lo, hi, samples):
+    """Roots in [lo, hi] of a(c) = lim_{x -> 0} x T(x, P) (sympy), by Newton (exact where
+    sympy solves a(c) = 0)."""
+    der = model.th.derivation
+    xs = der.state
+    csym = next(s for s in der.parameters if s.name == model.coupling)
+    subs = {s: sp.nsimplify(model.th.values[s.name]) for s in der.parameters
+            if s.name != model.coupling}
+    expr = der.quantities["T"].subs(subs)
+    try:
+        a = sp.limit(xs * expr, xs, 0, "+")
+    except Exception:  # sympy cannot take the limit: no event of this kind is claimed
+        return [], ["small-state asymptote: sympy could not take lim x -> 0 of x T"]
+    if not a.is_finite or not a.has(csym) or a.has(sp.Symbol("P")) or a.free_symbols - {csym}:
+        return [], []
+    fa = sp.lambdify(csym, a, "math")
+    da = sp.lambdify(csym, sp.diff(a, csym), "math")
+    vals = [fa(float(s)) for s in samples]
+    out = []
+    for s0, s1, v0, v1 in zip(samples[:-1], samples[1:], vals[:-1], vals[1:]):
+        if not (v0 * v1 < 0 or v1 == 0):
+            continue
+        c = 0.5 * (s0 + s1)
+        for _ in range(60):
+            step = fa(c) / da(c)
+            c -= step
+            if abs(step) <= 1e-16 * abs(c):
+                break
+        exact = None
+        try:
+            sols = [r for r in sp.solve(sp.Eq(a, 0), csym) if r.is_real
+                    and abs(float(r) - c) <= 1e-9 * max(1.0, abs(c))]
+            if sols:
+                exact = str(sp.nsimplify(sols[0]))
+                c = float(sols[0])
+        except Exception:  # no closed form: the Newton root stands
+            pass
+        ev = StructureEvent(
+            kind="small-state-asymptote", coupling=model.coupling, value=float(c),
+            fixed=dict(model.fixed), exact=exact, scale_free=_scale_free(model, c),
+            residuals={"lim x T (relative)": abs(fa(c)) / (abs(fa(s0)) + abs(fa(s1)))},
+            converged=True, method="sympy limit lim_{x->0} x T + Newton",
+            message=f"lim x->0 x T = {sp.sstr(sp.nsimplify(a))} changes sign: the small end "
+                    f"of every isotherm turns from T -> {'+' if v0 > 0 else '-'}inf to "
+                    f"T -> {'-' if v0 > 0 else '+'}inf")
+        out.append(ev)
+    return out, []
+
+
+# -- the detector and the whole ------------------------------------------------------------------
+def _physical_points(family, coupling, c, fixed):
+    s = find_critical_points(family, **{**fixed, coupling: float(c)})
+    return [(math.log(cp.x), cp.P, cp.T) for cp in s.physical if cp.kind == "standard"]
+
+
+def _same(a, b, rel=1e-8):
+    return a.kind == b.kind and abs(a.value - b.value) <= rel * max(1.0, abs(a.value))
+
+
+def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES,
+                     **fixed) -> StructureEvents:
+    """Every structure event of ``family`` along ``coupling`` in ``interval``.
+
+    Parameters
+    ----------
+    family : str or Family
+    coupling : str
+        The parameter that moves.
+    interval : (float, float)
+    n_samples : int
+        Full critical-point searches along the interval (the detector); continuation
+        covers the values between them.
+    **fixed
+        The other parameters.
+
+    Returns
+    -------
+    StructureEvents
+        Events sorted by value, each located by Newton on its own system (see the module
+        docstring), with residuals and ``converged``.
+
+    Examples
+    --------
+    Born-Infeld-AdS at Q = 1: two critical points appear at bQ = 1/sqrt(8) (Gunasekaran,
+    Kubiznak & Mann, JHEP 11 (2012) 110).
+
+    >>> ev = structure_events("born-infeld-ads", "b", (0.34, 0.37), n_samples=2, Q=1.0)
+    >>> e = ev.events[0]
+    >>> e.kind, abs(e.value - 8 ** -0.5) < 1e-12
+    ('critical-count', True)
+    """
+    lo, hi = (float(v) for v in interval)
+    if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
+        raise BhchemError(f"interval {interval!r}: need two finite numbers, low < high")
+    samples = np.linspace(lo, hi, max(int(n_samples), 2))
+    model = CouplingModel(family, coupling, fixed, lo)
+    pts = [_physical_points(family, coupling, c, fixed) for c in samples]
+    events, notes = [], []
+
+    def add(ev):
+        if ev.converged and not (lo <= ev.value <= hi):
+            return
+        if not any(_same(ev, e) for e in events):
+            events.append(ev)
+
+    for k in range(len(samples) - 1):
+        for (a, b, sa) in ((samples[k], samples[k + 1], pts[k]),
+                           (samples[k + 1], samples[k], pts[k + 1])):
+            for (u, P, T) in sa:
+                path = continue_critical(model, a, b, u, P)
+                cs, us, Ps = path.points[-1]
+                if path.stop == "fold":
+                    ev = solve_fold(model, cs, us, Ps)[0]
+                    if not ev.converged and Ps > 100 * P:  # running off to P -> infinity
+                        inf = solve_pressure_infinite(model, cs, us)
+                        ev = inf if inf is not None and inf.converged else ev
+                    if not ev.converged:  # T may be 0/0 where the two points merge
+                        iso = solve_isolated(model, cs, us)
+                        ev = iso if iso is not None and iso.converged else ev
+                    add(ev)
+                elif path.stop == "pressure":
+                    cl, ul, Pl = path.points[-2]
+                    add(solve_pressure_zero(model, cl - Pl * (cs - cl) / (Ps - Pl), ul))
+                elif path.stop == "temperature":
+                    cl, ul, Pl = path.points[-2]
+                    add(solve_temperature_zero(model, cl, ul, Pl, T))
+                elif path.stop == "domain":
+                    notes.append({"bracket": sorted([path.points[-2][0], cs]),
+                                  "what": "a critical point leaves the physical domain "
+                                          "(a state condition); no event equation, bracket "
+                                          "only"})
+                # a critical point crossing another first-order line along this path
+                if a < b:
+                    _line_crossings(model, path, add)
+    for ev in small_state_events(model, lo, hi, samples)[0]:
+        add(ev)
+    notes_poly = _merge_polynomial(family, coupling, (lo, hi), fixed, events)
+    events.sort(key=lambda e: e.value)
+    # the count of physical critical points between samples must be explained
+    unexplained = list(notes)
+    for k in range(len(samples) - 1):
+        n0, n1 = len(pts[k]), len(pts[k + 1])
+        inside = [e for e in events if samples[k] <= e.value <= samples[k + 1]
+                  and e.kind in _COUNT_KINDS]
+        if n0 != n1 and not inside:
+            unexplained.append({"bracket": [float(samples[k]), float(samples[k + 1])],
+                                "what": f"{n0} -> {n1} physical critical points, no event "
+                                        f"found between the samples"})
+    ok = all(e.converged for e in events) and not unexplained
+    msg = (f"{len(events)} events; every one converged" if ok else
+           f"{len(events)} events; {sum(not e.converged for e in events)} not converged, "
+           f"{len(unexplained)} unexplained changes") + notes_poly
+    return StructureEvents(family=model.th.family.name, coupling=coupling, interval=(lo, hi),
+                           fixed=dict(fixed), events=tuple(events),
+                           samples=tuple(float(s) for s in samples),
+                           counts=tuple(len(p) for p in pts), unexplained=tuple(unexplained),
+                           converged=ok, message=msg)
+
+
+#: the optional exact producer (issue 17 part A); used only when it is installed
+_POLYNOMIAL_MODULE = "bhchem.analysis.critical_polynomial"
+
+
+def _merge_polynomial(family, coupling, interval, fixed, events) -> str:
+    """Optional: exact thresholds from the critical polynomial
+    (``polynomial_thresholds(family, coupling, interval, **fixed)``), when that module is
+    installed.  An exact event that matches one of ours (kind and value to 1e-9) lends it its
+    ``exact`` text; one we did not find is added as it is.  A failure of that producer is
+    said in the message (our events stand)."""
+    if importlib.util.find_spec(_POLYNOMIAL_MODULE) is None:
+        return ""
+    try:
+        exact = importlib.import_module(_POLYNOMIAL_MODULE).polynomial_thresholds(
+            family, coupling, interval, **fixed)
+    except Exception as exc:  # the optional producer failed: ours stand, and we say so
+        return f"; the critical-polynomial thresholds failed ({type(exc).__name__}: {exc})"
+    added = 0
+    for ev in exact:
+        match = [k for k, e in enumerate(events) if _same(ev, e, 1e-9)]
+        if match:
+            k = match[0]
+            if events[k].exact is None and ev.exact:
+                events[k] = replace(events[k], exact=ev.exact)
+        elif interval[0] <= ev.value <= interval[1]:
+            events.append(ev)
+            added += 1
+    return f"; {len(exact)} critical-polynomial thresholds ({added} added)" if exact else ""
+
+
+def _line_crossings(model, path, add):
+    """Along a continued critical point: where Delta G to another stable state on its
+    isotherm changes sign, solve the critical-point-on-line system."""
+    pts = [p for p in path.points if p[2] > 0]
+    if path.stop != "reached":
+        pts = pts[:-1]
+    if len(pts) < 2:
+        return
+    prev = None
+    for (c, u, P) in pts:
+        xc = math.exp(u)
+        T = model("T", xc, P, c)
+        others = _other_states(model, c, xc, P, T)
+        cur = [(u1, _delta_G(model, u1, xc, P, c)) for u1 in others]
+        if prev is not None:
+            pc, pu, pP, pcur = prev
+            for u1, d1 in cur:
+                match = [(u0, d0) for u0, d0 in pcur if abs(u0 - u1) < 0.3]
+                if match and match[0][1] * d1 < 0:
+                    u0, d0 = match[0]
+                    w = d0 / (d0 - d1)
+                    add(solve_critical_on_line(model, pc + w * (c - pc), u0 + w * (u1 - u0),
+                                               pu + w * (u - pu), pP + w * (P - pP)))
+        prev = (c, u, P, cur)

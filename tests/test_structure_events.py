@@ -1,0 +1,223 @@
+"""Structure events (issue 17, part B): thresholds along a coupling located by continuation
+and Newton on each event's own system, checked against papers and against mpmath solutions of
+the same conditions written here from the papers' formulas.
+
+Normalisation (Born-Infeld): Gunasekaran, Kubiznak & Mann, JHEP 11 (2012) 110,
+arXiv:1208.6251 (GKM), whose b (maximal field strength) and Q (charge, f ~ Q^2/r^2 as
+b -> infinity) the bundled born-infeld-ads family uses unchanged; only bQ matters.
+"""
+import math
+
+import mpmath as mp
+import pytest
+import sympy as sp
+
+from bhchem.analysis.structure_events import structure_events
+from bhchem.workflows.atlas import parse_grid, scan
+
+mp.mp.dps = 30
+
+
+def _bi_T(r, P, b, Q=1):
+    """GKM Sec. 4: T = (1 + 8 pi P r^2 + 2 b^2 r^2 (1 - sqrt(1 + Q^2/(b^2 r^4)))) / (4 pi r)."""
+    sqrt, pi = (sp.sqrt, sp.pi) if isinstance(r, sp.Basic) else (mp.sqrt, mp.pi)
+    return (1 + 8 * pi * P * r**2 + 2 * b**2 * r**2
+            - 2 * b * sqrt(b**2 * r**4 + Q**2)) / (4 * pi * r)
+
+
+_r, _P, _b = sp.symbols("r P b", positive=True)
+
+
+def _d(f, k):
+    """d^k T / dr^k, exact (sympy), evaluated by mpmath."""
+    return sp.lambdify((_r, _P, _b), sp.diff(f(_r, _P, _b, sp.Integer(1)), _r, k), "mpmath")
+
+
+def _assert_converged(e, tol=1e-11):
+    assert e.converged and max(e.residuals.values()) <= tol, e.residuals
+
+
+def test_born_infeld_two_critical_points_appear_at_one_over_sqrt8():
+    """GKM: two critical points appear at bQ = 1/sqrt(8).  The event is the fold of the
+    critical branch (T_r = T_rr = T_rrr = 0); mpmath solves that system at 30 digits from the
+    formula above and gives 1/sqrt(8); the event agrees to 1e-12 (found from two samples)."""
+    T1, T2, T3 = _d(_bi_T, 1), _d(_bi_T, 2), _d(_bi_T, 3)
+    r, P, b = mp.findroot(lambda r, P, b: [T1(r, P, b), T2(r, P, b), T3(r, P, b)],
+                          (1.7, 0.004, 0.35))
+    assert abs(b - 1 / mp.sqrt(8)) < 1e-25
+    ev = structure_events("born-infeld-ads", "b", (0.34, 0.37), n_samples=2, Q=1.0)
+    (e,) = ev.events
+    assert ev.converged and ev.counts == (0, 2)
+    assert e.kind == "critical-count"
+    assert abs(e.value - 1 / math.sqrt(8)) <= 1e-12 / math.sqrt(8)
+    assert list(e.scale_free.values()) == [pytest.approx(e.value, rel=1e-15)]  # bQ, Q = 1
+    _assert_converged(e)
+    assert "T_xxx = 0" in e.message and f"x = {float(r):.6g}"[:8] in e.message
+
+
+def test_born_infeld_reentrant_window_upper_edge_is_one_half():
+    """GKM (from memory): the reentrant phase transition disappears at bQ = 1/2, where the
+    small-r behaviour of T changes (T -> +inf below, -inf above).  The event's equation,
+    lim_{r->0} r T = (1 - 2bQ)/(4 pi) = 0, is solved exactly (1/2) and by Newton (1e-10)."""
+    ev = structure_events("born-infeld-ads", "b", (0.48, 0.52), n_samples=2, Q=1.0)
+    (e,) = ev.events
+    assert e.kind == "small-state-asymptote" and e.exact == "1/2"
+    assert abs(e.value - 0.5) <= 1e-10 * 0.5
+    _assert_converged(e)
+    assert mp.limit(lambda r: r * _bi_T(r, 0.001, e.value), 0) == pytest.approx(0, abs=1e-14)
+
+
+def test_born_infeld_lower_edge_of_one_critical_point_window():
+    """Between bQ = 1/sqrt(8) and 1/2 the lower critical point reaches P = 0 at b1 and the
+    structure turns from two critical points + reentrance to one + reentrance.  The event
+    (continuation + Newton on x T_x = x^2 T_xx = 0 at P = 0) agrees with mpmath's 30-digit
+    solution of T_r = T_rr = 0 at P = 0 (formula above) to 1e-12; the full-diagram bisection
+    of the same edge is in benchmarks/bench_structure_map.py."""
+    T1, T2 = _d(_bi_T, 1), _d(_bi_T, 2)
+    r, b = mp.findroot(lambda r, b: [T1(r, 0, b), T2(r, 0, b)], (1.0, 0.42))
+    ev = structure_events("born-infeld-ads", "b", (0.41, 0.44), n_samples=2, Q=1.0)
+    (e,) = ev.events
+    assert ev.counts == (2, 1)
+    assert e.kind == "critical-pressure-zero"
+    assert abs(e.value - float(b)) <= 1e-12 * float(b)
+    _assert_converged(e)
+
+
+def test_events_do_not_depend_on_the_detector_sampling():
+    """An event is the root of its own system, not a bracket: with 2 or 4 samples the
+    located value is the same to 1e-13."""
+    a = structure_events("born-infeld-ads", "b", (0.41, 0.44), n_samples=2, Q=1.0).events
+    b = structure_events("born-infeld-ads", "b", (0.40, 0.45), n_samples=4, Q=1.0).events
+    assert len(a) == len(b) == 1 and abs(a[0].value - b[0].value) <= 1e-13
+
+
+@pytest.mark.parametrize("lo, hi, theirs", [(0.35, 0.365, 0.1705), (0.40, 0.415, 0.1946)])
+def test_charged_gauss_bonnet_6d_triple_point_window_ends(lo, hi, theirs):
+    """Wei & Liu, PRD 90 (2014) 044057, arXiv:1402.2837: in d = 6 with alpha~ = 1 a triple
+    point exists for their charge in (0.1705, 0.1946).  Mapping (as in
+    tests/test_family_analyses.py): alpha~ = 1 is our alpha = 1/6, their charge is
+    3 Q/(2 pi) in our normalisation.  Each end of the window is the event where a critical
+    point lies on another first-order line (the swallowtail's triple point shrinks into it);
+    in their normalisation the ends agree with their 4-digit values to 1.1e-4 (the lower end
+    is 0.17040, printed as 0.1705)."""
+    ev = structure_events("gauss-bonnet-ads", "Q", (lo, hi), n_samples=2, d=6, k=1,
+                          alpha=1 / 6)
+    (e,) = ev.events
+    assert e.kind == "critical-leaves-preferred"
+    _assert_converged(e)
+    assert abs(3 * e.value / (2 * math.pi) - theirs) <= 1.1e-4
+
+
+def test_atlas_from_events_born_infeld(tmp_path):
+    """The 1D map from the events (replaces the per-point bisection tests of the atlas, which
+    located 1/sqrt(8) and 1/2 to 1e-3 from full diagrams): 19 values of bQ in [0.345, 0.525]
+    (Q = 1).  Full diagrams only for the four interval representatives (the check sample is
+    tested below); the structures between the events are GKM's four cases: none,
+    two critical points + reentrance, one critical point + reentrance, van der Waals."""
+    doc = scan("born-infeld-ads", [parse_grid("b=0.345:0.525:19")], {"Q": 1.0}, tmp_path / "e",
+               checks=0)
+    assert doc["method"] == "events" and doc["diagrams_computed"] == 4
+    ev = doc["events"]
+    assert [e["kind"] for e in ev] == ["critical-count", "critical-pressure-zero",
+                                       "small-state-asymptote"]
+    assert all(e["converged"] for e in ev)
+    assert abs(ev[0]["value"] - 1 / math.sqrt(8)) <= 1e-12 and ev[2]["value"] == 0.5
+    structures = ["no-transition", "multiple-critical-points+reentrant+vdw-like",
+                  "reentrant+vdw-like", "vdw-like"]
+    assert [e["below"] for e in ev] == structures[:3]
+    assert [e["above"] for e in ev] == structures[1:]
+    cuts = [e["value"] for e in ev]
+    for r in doc["rows"]:
+        k = sum(r["b"] > c for c in cuts)
+        assert r["structure"] == structures[k] and r["n_critical"] == [0, 2, 1, 1][k]
+    assert sum(not r["from_interval"] for r in doc["rows"]) == 4
+    assert [b["between"] for b in doc["boundaries"]] == [list(p) for p in
+                                                           zip(structures, structures[1:])]
+    assert (tmp_path / "e" / "atlas.png").stat().st_size > 1000
+
+
+def test_atlas_check_sample_reports_disagreements(tmp_path, monkeypatch):
+    """A check point whose own diagram disagrees with its interval is reported in ``checks``
+    and through ``notify`` (never hidden).  The per-point analysis is replaced by a stand-in
+    that puts a false change of structure at b = 0.36 (no event there); the events are real."""
+    import bhchem.workflows.atlas as atlas
+
+    def fake(family_name, family_file, params, admissible=(None, ())):
+        b = params["b"]
+        n = 0 if b < 1 / math.sqrt(8) else 2
+        s = "none" if b < 1 / math.sqrt(8) else ("two" if b < 0.36 else "false-change")
+        return {"error": "", "n_critical": n, "structure": s}
+
+    monkeypatch.setattr(atlas, "analyse_point", fake)
+    said = []
+    doc = scan("born-infeld-ads", [parse_grid("b=0.34:0.37:31")], {"Q": 1.0}, tmp_path / "c",
+               checks=8, notify=said.append)
+    (e,) = doc["events"]
+    assert e["kind"] == "critical-count" and e["below"] == "none"
+    chk = doc["checks"]
+    checked = {c["index"] for c in chk["points"]}
+    rep = next(r for r in doc["rows"] if not r["from_interval"] and r["b"] > e["value"]
+               and r["index"] not in checked)
+    assert chk["sample"] == 8 and chk["seed"] == 17 and len(chk["points"]) == 8
+    bad = {c["index"] for c in chk["points"] if not c["agree"]}
+    # exactly the check points on the other side of the false change from their interval's
+    # representative disagree
+    want = {c["index"] for c in chk["points"]
+            if c["b"] > e["value"] and (c["b"] < 0.36) != (rep["b"] < 0.36)}
+    assert bad == want and chk["disagreements"] == len(bad) > 0
+    assert len([s for s in said if "atlas check disagrees" in s]) == len(bad)
+
+
+def test_lovelock_isolated_critical_point_event():
+    """Dolan, Kostouki, Kubiznak & Mann, CQG 31 (2014) 242001: hyperbolic (k = -1) third-order
+    Lovelock in d = 7 has an isolated critical point at alpha~3 = alpha~2^2/3, at
+    r_c = sqrt(alpha~2), P_c = (d-1)(d-2)/(48 pi alpha~2) (alpha~2 = (d-3)(d-4) alpha2,
+    alpha~3 = (d-3)(d-4)(d-5)(d-6) alpha3).  Along alpha3 (alpha2 = 1) two critical points are
+    born there; T is 0/0 at the merge, and the event is the double root of T's denominator,
+    exact: alpha3 = 2."""
+    d, a2 = 7, 1.0
+    at2 = (d - 3) * (d - 4) * a2
+    ev = structure_events("lovelock3-ads", "alpha3", (1.9, 2.2), n_samples=2, d=d, k=-1,
+                          alpha2=a2, Q=0.0)
+    (e,) = ev.events
+    assert ev.converged and ev.counts == (0, 2)
+    assert e.kind == "isolated-critical-point" and e.exact == "2"
+    at3 = (d - 3) * (d - 4) * (d - 5) * (d - 6) * e.value
+    assert abs(at3 - at2**2 / 3) <= 1e-12 * at3
+    _assert_converged(e)
+    assert f"x = {math.sqrt(at2):.12g}" in e.message
+    assert f"P = {(d - 1) * (d - 2) / (48 * math.pi * at2):.12g}" in e.message
+
+
+def test_atlas_2d_event_curves_and_cells(tmp_path, monkeypatch):
+    """2D map from events: Born-Infeld over (b, Q).  The 1D event along b at each Q traces the
+    curve bQ = 1/sqrt(8) (GKM); the cut grid graph has two cells, one diagram each (the
+    per-point analysis is a cheap stand-in classifying by bQ, so that the test checks the
+    cells and the report, not the diagrams, which the 1D test covers)."""
+    import bhchem.workflows.atlas as atlas
+
+    def fake(family_name, family_file, params, admissible=(None, ())):
+        two = params["b"] * params["Q"] > 1 / math.sqrt(8)
+        return {"error": "", "n_critical": 2 if two else 0,
+                "structure": "two" if two else "none"}
+
+    monkeypatch.setattr(atlas, "analyse_point", fake)
+    doc = scan("born-infeld-ads", [parse_grid("b=0.3:0.4:6"), parse_grid("Q=0.95:1.05:2")],
+               {}, tmp_path / "m", method="events", checks=4)
+    (curve,) = [c for c in doc["event_curves"] if c["kind"] == "critical-count"]
+    assert curve["converged"] and len(curve["points"]) == 2
+    for b, Q in curve["points"]:
+        assert abs(b * Q - 1 / math.sqrt(8)) <= 1e-12
+    assert doc["checks"]["cells"] == 2 and doc["diagrams_computed"] == 2 + 4
+    assert doc["checks"]["disagreements"] == 0
+    for r in doc["rows"]:
+        assert r["structure"] == ("two" if r["b"] * r["Q"] > 1 / math.sqrt(8) else "none")
+    assert (tmp_path / "m" / "atlas.png").stat().st_size > 1000
+
+
+def test_cli_scan_events_on_a_discrete_axis_is_refused(capsys, tmp_path):
+    from bhchem.cli.main import main
+    code = main(["scan", "schwarzschild-ads", "--grid", "d=4:7:4", "--method", "events",
+                 "-o", str(tmp_path / "x")])
+    err = capsys.readouterr().err
+    assert code == 2 and "d is discrete" in err and len(err.strip().splitlines()) == 1
