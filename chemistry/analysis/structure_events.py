@@ -46,8 +46,6 @@ points between two samples that no continued point accounts for is in ``unexplai
 """
 from __future__ import annotations
 
-import importlib
-import importlib.util
 import math
 from dataclasses import dataclass, field, replace
 
@@ -55,6 +53,7 @@ import numpy as np
 import sympy as sp
 
 from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical_polynomial import NoPolynomialFormError, polynomial_thresholds
 from bhchem.analysis.events import StructureEvent
 from bhchem.core.compiled import bind
 from bhchem.core.results import Result
@@ -637,26 +636,23 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
                            converged=ok, message=msg)
 
 
-#: the optional exact producer (issue 17 part A); used only when it is installed
-_POLYNOMIAL_MODULE = "bhchem.analysis.critical_polynomial"
-
-
 def _merge_polynomial(family, coupling, interval, fixed, events) -> str:
-    """Optional: exact thresholds from the critical polynomial
-    (``polynomial_thresholds(family, coupling, interval, **fixed)``), when that module is
-    installed.  An exact event that matches one of ours (kind and value to 1e-9) lends it its
-    ``exact`` text; one we did not find is added as it is.  A failure of that producer is
-    said in the message (our events stand)."""
-    if importlib.util.find_spec(_POLYNOMIAL_MODULE) is None:
-        return ""
+    """Exact thresholds from the critical polynomial
+    (:func:`bhchem.analysis.critical_polynomial.polynomial_thresholds`), where the family has
+    one.  An exact threshold at the value of one of ours (to 1e-9, whatever its kind: the
+    polynomial names an isolated critical point also as a change of the count) lends it its
+    ``exact`` text; one we did not find is added as it is.  A family without a polynomial
+    form, or a failure of that producer, is said in the message (our events stand)."""
     try:
-        exact = importlib.import_module(_POLYNOMIAL_MODULE).polynomial_thresholds(
-            family, coupling, interval, **fixed)
-    except Exception as exc:  # the optional producer failed: ours stand, and we say so
+        exact = polynomial_thresholds(family, coupling, interval, **fixed)
+    except NoPolynomialFormError as exc:
+        return f"; no critical-polynomial thresholds ({exc})"
+    except (BhchemError, ValueError, NotImplementedError, ArithmeticError) as exc:
         return f"; the critical-polynomial thresholds failed ({type(exc).__name__}: {exc})"
     added = 0
     for ev in exact:
-        match = [k for k, e in enumerate(events) if _same(ev, e, 1e-9)]
+        match = [k for k, e in enumerate(events)
+                 if abs(ev.value - e.value) <= 1e-9 * max(1.0, abs(ev.value))]
         if match:
             k = match[0]
             if events[k].exact is None and ev.exact:
