@@ -217,6 +217,8 @@ def _domain_relation(domain: Domain, expr):
 # -- the family of the new ensemble ----------------------------------------------------------
 _ENTRIES = 64
 _built: dict = {}
+#: (family key, parameter values) already verified -> the family (holds it alive: ids stay unique)
+_verified: dict = {}
 _lock = threading.Lock()
 
 
@@ -311,8 +313,16 @@ def fixed_potential_family(family: Family, charges, *, values=None, **discrete) 
                 _built.pop(next(iter(_built)))
             _built[key] = hit
     if values:
-        _verify(family, hit[2], hit[3], {**vals, **{k: float(v) for k, v in values.items()
-                                                     if k not in disc}})
+        at = {**vals, **{k: float(v) for k, v in values.items() if k not in disc}}
+        checked = (key, tuple(sorted(at.items())))
+        with _lock:
+            done = checked in _verified and _verified[checked] is family
+        if not done:
+            _verify(family, hit[2], hit[3], at)
+            with _lock:
+                while len(_verified) >= 4 * _ENTRIES:
+                    _verified.pop(next(iter(_verified)))
+                _verified[checked] = family
     return hit[1]
 
 

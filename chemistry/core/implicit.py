@@ -19,7 +19,7 @@ derivatives are those of the implicit-function theorem,
 numeric value is found per state by a certified root solve (:func:`solve_root`):
 
 1. *isolation*: F is evaluated on a fixed grid of q over the charge's domain (0 and
-   +-4^k, k = -30 ... 30, inside the domain); a state whose finite values change sign
+   +-16^k, k = -15 ... 15, inside the domain); a state whose finite values change sign
    exactly once has an isolated root; none means no charge gives this potential (NaN: no
    such state), more than one means the root is not unique (NaN, counted in
    :func:`diagnostics`; the ensemble refuses a family where this happens at a sampled
@@ -54,9 +54,9 @@ import sympy as sp
 from sympy.core.function import FunctionClass
 
 #: the isolation grid: 0 and +-GRID_BASE^k for |k| <= GRID_POWERS (inside the domain)
-GRID_BASE = 4.0
-GRID_POWERS = 30
-#: most refinement steps (bisection alone halves a factor-4 bracket to 8 ulp in ~55)
+GRID_BASE = 16.0
+GRID_POWERS = 15
+#: most refinement steps (bisection alone closes a factor-16 bracket to 8 ulp in ~55)
 MAX_ITERATIONS = 120
 #: the certified bracket: b - a <= BRACKET_ULPS * eps * |q|
 BRACKET_ULPS = 8
@@ -71,8 +71,11 @@ def _hyper(a, b, z):
 
 
 def compile_numeric(args, expr):
-    """A numpy function of ``args`` for ``expr`` (2F1 and implicit roots included)."""
-    expr = expr.replace(sp.exp_polar, sp.exp) if expr.has(sp.exp_polar) else expr
+    """A numpy function of ``args`` for ``expr`` (an expression or a list of them; 2F1 and
+    implicit roots included)."""
+    def polar(e):
+        return e.replace(sp.exp_polar, sp.exp) if e.has(sp.exp_polar) else e
+    expr = [polar(e) for e in expr] if isinstance(expr, list) else polar(expr)
     return sp.lambdify(args, expr, modules=[{"hyper": _hyper}, "numpy"], cse=True)
 
 
@@ -166,13 +169,22 @@ def implicit_root(equation, q, variables, *, lower=-math.inf, upper=math.inf,
             return cls
     F = compile_numeric(variables + (q,), equation)
     F_q_expr = sp.diff(equation, q)
-    F_q = compile_numeric(variables + (q,), F_q_expr)
+    both = compile_numeric(variables + (q,), [equation, F_q_expr])   # shares 2F1s etc.
+
+
+    memo = _Memo()
 
     def numeric(*arrays):
-        return solve_root(F, F_q, arrays, float(lower), float(upper))
+        key = memo.key(arrays)
+        hit = memo.get(key)
+        if hit is not None:
+            return hit.copy() if isinstance(hit, np.ndarray) else hit
+        out = solve_root(F, both, arrays, float(lower), float(upper))
+        memo.put(key, out)
+        return out.copy() if isinstance(out, np.ndarray) else out
 
     def solve(*arrays):
-        return solve_root(F, F_q, arrays, float(lower), float(upper), counts=True)
+        return solve_root(F, both, arrays, float(lower), float(upper), counts=True)
 
     cls = ImplicitRootClass(name, (ImplicitRoot,), {
         "nargs": len(variables), "equation": equation, "root_symbol": q,
@@ -183,6 +195,42 @@ def implicit_root(equation, q, variables, *, lower=-math.inf, upper=math.inf,
     with _classes_lock:
         cls = _classes.setdefault((key, name), cls)
     return cls
+
+
+class _Memo:
+    """The last few solves of one function, keyed by the exact bytes of the arguments: an
+    analysis evaluates T, G, S, ... at the same states one after another, and the solve is
+    deterministic, so a repeated state is not solved again."""
+
+    SIZE = 16
+
+    def __init__(self):
+        self._data: dict = {}
+        self._lock = threading.Lock()
+
+    @staticmethod
+    def key(arrays):
+        parts = []
+        for a in arrays:
+            arr = np.asarray(a, dtype=float)
+            if arr.size > 100_000:
+                return None
+            parts.append((arr.shape, arr.tobytes()))
+        return tuple(parts)
+
+    def get(self, key):
+        if key is None:
+            return None
+        with self._lock:
+            return self._data.get(key)
+
+    def put(self, key, value):
+        if key is None:
+            return
+        with self._lock:
+            while len(self._data) >= self.SIZE:
+                self._data.pop(next(iter(self._data)))
+            self._data[key] = value
 
 
 def _rebuild(name, equation, q, variables, lower, upper):
@@ -203,15 +251,15 @@ def _grid(lower: float, upper: float) -> np.ndarray:
     return np.unique(np.concatenate([pts, ends]))
 
 
-def solve_root(F, F_q, arrays, lower: float, upper: float, counts: bool = False):
+def solve_root(F, FdF, arrays, lower: float, upper: float, counts: bool = False):
     """Certified roots q of F(*arrays, q) = 0 in [lower, upper], one per broadcast state
     (see the module docstring); NaN where the root does not exist, is not unique, or is
     not certified.
 
     Parameters
     ----------
-    F, F_q : callable
-        Vectorised F(y..., q) and dF/dq.
+    F, FdF : callable
+        Vectorised F(y..., q), and (F, dF/dq) together.
     arrays : sequence of array_like
         The arguments y (broadcast together).
     lower, upper : float
@@ -251,7 +299,8 @@ def solve_root(F, F_q, arrays, lower: float, upper: float, counts: bool = False)
         idx = np.argmax(change[br], axis=1)
         a, b = grid[idx], grid[idx + 1]
         fa = fv[br, idx]
-        q, ok = _refine(F, F_q, [y[br] for y in ys], a, b, fa)
+        fb = fv[br, idx + 1]
+        q, ok = _refine(FdF, [y[br] for y in ys], a, b, fa, fb)
         out[np.flatnonzero(br)] = np.where(ok, q, np.nan)
         with _tally_lock:
             _tally["not_converged"] += int((~ok).sum())
@@ -260,13 +309,16 @@ def solve_root(F, F_q, arrays, lower: float, upper: float, counts: bool = False)
     return out.reshape(shape) if shape else out[0]
 
 
-def _refine(F, F_q, ys, a, b, fa):
-    """Safeguarded Newton on brackets [a, b] with sign F(a) = sign fa; returns (q, certified).
+def _refine(FdF, ys, a, b, fa, fb):
+    """Safeguarded Newton on brackets [a, b] with F(a) = fa, F(b) = fb of opposite signs;
+    returns (q, certified).  ``FdF`` gives (F, dF/dq).
 
-    A Newton step inside the bracket is taken, else the (geometric, for a wide positive
-    bracket) midpoint; a Newton step shorter than 2 eps |q| is lengthened to 2 eps |q| so
-    that it lands beyond the root and closes the bracket from the other side; a bracket that
-    did not halve over two steps is bisected."""
+    The start is the secant point of the bracket (in log q for a wide positive bracket); a
+    Newton step is taken when it stays inside the bracket and is shorter than half the
+    step before it (else the midpoint: geometric for a wide positive bracket, so that a
+    bracket spanning decades closes in few steps), as in the classic safeguarded Newton
+    ("rtsafe"); a Newton step shorter than 2 eps |q| is lengthened to 2 eps |q| so that it
+    lands beyond the root and closes the bracket from the other side."""
     eps = np.finfo(float).eps
     a, b = a.copy(), b.copy()
     sa = np.sign(fa)
@@ -274,32 +326,45 @@ def _refine(F, F_q, ys, a, b, fa):
     def midpoint(a, b):
         return np.where((a > 0) & (b > 4 * a), np.sqrt(np.abs(a * b)), 0.5 * (a + b))
 
-    q = midpoint(a, b)
+    with np.errstate(all="ignore"):
+        wide = (a > 0) & (b > 4 * a)
+        t = fa / (fa - fb)
+        secant = np.where(wide, a * np.exp(t * np.log(np.abs(b / a))), a + t * (b - a))
+    inner = np.isfinite(secant) & (secant > a) & (secant < b)
+    q = np.where(inner, secant, midpoint(a, b))
     done = np.zeros(a.size, dtype=bool)
-    width = [b - a, b - a]
+    dx_old = b - a
+    dx = b - a
     for _ in range(MAX_ITERATIONS):
+        live = ~done
         with np.errstate(all="ignore"):
-            f = np.asarray(F(*ys, q), dtype=float) * np.ones(a.size)
-            df = np.asarray(F_q(*ys, q), dtype=float) * np.ones(a.size)
-        live = ~done & np.isfinite(f)
-        zero = live & (f == 0)
-        left = live & ~zero & (np.sign(f) == sa)       # the root lies in (q, b]
-        right = live & ~zero & ~left
-        a = np.where(left | zero, q, a)
-        b = np.where(right | zero, q, b)
-        done |= zero | ((b - a) <= BRACKET_ULPS * eps * np.maximum(np.abs(a), np.abs(b)))
+            f, df = FdF(*[y[live] for y in ys], q[live])
+            f = np.asarray(f, dtype=float) * np.ones(int(live.sum()))
+            df = np.asarray(df, dtype=float) * np.ones(int(live.sum()))
+        al, bl, ql = a[live], b[live], q[live]
+        fine = np.isfinite(f)
+        zero = fine & (f == 0)
+        left = fine & ~zero & (np.sign(f) == sa[live])     # the root lies in (q, b]
+        right = fine & ~zero & ~left
+        al = np.where(left | zero, ql, al)
+        bl = np.where(right | zero, ql, bl)
+        fin = zero | ((bl - al) <= BRACKET_ULPS * eps * np.maximum(np.abs(al), np.abs(bl)))
+        with np.errstate(all="ignore"):
+            newton = ql - f / df
+        delta = 2 * eps * np.maximum(np.abs(ql), 1e-300)
+        short = np.abs(newton - ql) < delta
+        toward = np.sign(-f * df)                           # the Newton direction
+        toward = np.where(toward == 0, np.sign(al + bl - 2 * ql), toward)
+        newton = np.where(short, ql + toward * delta, newton)
+        ok = fine & np.isfinite(newton) & (newton > al) & (newton < bl) \
+            & (np.abs(newton - ql) <= np.maximum(0.5 * np.abs(dx_old[live]), delta))
+        step = np.where(ok, newton, midpoint(al, bl))
+        a[live], b[live] = al, bl
+        dx_old[live] = dx[live]
+        dx[live] = step - ql
+        q[live] = np.where(fin, ql, step)
+        done[live] = fin
         if done.all():
             break
-        with np.errstate(all="ignore"):
-            newton = q - f / df
-        inside = live & np.isfinite(newton) & (newton > a) & (newton < b)
-        delta = 2 * eps * np.maximum(np.abs(q), 1e-300)
-        short = inside & (np.abs(newton - q) < delta)
-        newton = np.where(short, q + np.sign(newton - q) * delta, newton)
-        inside &= (newton > a) & (newton < b)
-        slow = (b - a) > 0.5 * width[0]
-        step = np.where(inside & ~slow, newton, midpoint(a, b))
-        width = [width[1], b - a]
-        q = np.where(done, q, step)
     q = np.where(done & (q >= a) & (q <= b), q, 0.5 * (a + b))
     return q, done
