@@ -53,6 +53,8 @@ import numpy as np
 import sympy as sp
 from sympy.core.function import FunctionClass
 
+from bhchem.core.special import hyp2f1_real
+
 #: the isolation grid: 0 and +-GRID_BASE^k for |k| <= GRID_POWERS (inside the domain)
 GRID_BASE = 16.0
 GRID_POWERS = 15
@@ -66,7 +68,6 @@ def _hyper(a, b, z):
     if len(a) != 2 or len(b) != 1:
         raise NotImplementedError(
             f"only the Gauss function 2F1 is supported numerically, not {len(a)}F{len(b)}")
-    from bhchem.core.special import hyp2f1_real  # lazy: keeps scipy out of the cold start
     return hyp2f1_real(a[0], a[1], b[0], z)
 
 
