@@ -246,6 +246,25 @@ def test_born_infeld_fixed_phi_hawking_page_against_rn_limit_and_mpmath():
     assert abs(float(T) - hp.T) <= 1e-10 * hp.T
 
 
+def test_born_infeld_fixed_phi_topology_approaches_rn():
+    """Thermodynamic topology on the numerically inverted family: at large b the fixed-Phi
+    Born-Infeld hole has RN's fixed-Phi classification (W = 0, branches -1/+1: see
+    tests/test_topology.py, Wei, Liu & Mann, PRL 129 (2022) 191101), and its annihilation
+    point (the minimum of T at fixed Phi) moves from RN's r0 = sqrt((1 - Phi^2)/(8 pi P)) by
+    the leading correction derived from T above (dT/dr = 0 with the Phi^4/(80 pi b^2 r^3)
+    term): dr/r0 = 3 pi P Phi^4/(5 b^2 (1 - Phi^2)^2); the rest is bounded by x = Phi^2/(b^2
+    r0^2) relative to it."""
+    from bhchem.analysis.topology import thermodynamic_topology
+    P, phi, b = 0.01, 0.5, 10.0
+    res = thermodynamic_topology(bind("born-infeld-ads", b=b, Phi_Q=phi), P)
+    assert res.W == 0 and [br.winding for br in res.branches] == [-1, 1]
+    (ev,) = res.events
+    r0 = math.sqrt((1 - phi**2) / (8 * math.pi * P))
+    leading = 3 * math.pi * P * phi**4 / (5 * b**2 * (1 - phi**2)**2)
+    x = phi**2 / (b**2 * r0**2)
+    assert abs((ev.x - r0) / r0 / leading - 1) <= x, (ev.x, r0, leading)
+
+
 def test_kerr_newman_ads_fixed_phi_q_reduces_to_rn_at_zero_rotation():
     """Kerr-Newman-AdS at fixed Phi_Q (Q from a cubic in Q^2: numerical inverse) at J = 0 is
     RN-AdS at fixed Phi (closed form Q = Phi r): the same T, G and -Q at the same horizon
