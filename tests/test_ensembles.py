@@ -408,6 +408,17 @@ def test_a_potential_that_is_not_invertible_is_refused():
     assert "\n" not in str(err.value)
 
 
+def test_two_potentials_without_closed_inverse_are_refused_in_one_line(capsys):
+    """The numerical inverse takes one potential at a time (Born-Infeld's Phi_b and Phi_Q
+    both carry a 2F1)."""
+    with pytest.raises(EnsembleError, match="one potential at a time") as err:
+        bind("born-infeld-ads", Phi_Q=0.5, Phi_b=0.3)
+    assert "\n" not in str(err.value)
+    assert main(["show", "born-infeld-ads", "-p", "Phi_Q=0.5,Phi_b=0.3"]) == 2
+    out = capsys.readouterr()
+    assert out.out == "" and len(out.err.strip().splitlines()) == 1
+
+
 def test_charge_and_its_potential_together_is_refused():
     with pytest.raises(EnsembleError, match="not both"):
         bind("rn-ads", Q=1.0, Phi_Q=0.5)

@@ -288,13 +288,13 @@ def fixed_potential_family(family: Family, charges, *, values=None, **discrete) 
                     derivation_cache.store_note(family, disc, topic, str(exc))
                     raise
             except (_NoClosedForm, DerivationTooLarge) as exc:
+                reason = str(exc).splitlines()[0].split(";")[0]
                 if len(charges) > 1:
                     raise EnsembleError(
                         f"{', '.join(map(potential_name, charges))} cannot be held fixed "
                         f"together in {family.name}: a closed form is not available "
-                        f"({str(exc).splitlines()[0]}) and the numerical inverse takes one "
-                        f"potential at a time") from None
-                reason = str(exc).splitlines()[0].split(";")[0]
+                        f"({reason}) and the numerical inverse takes one potential at a "
+                        f"time") from None
                 out, der, solved = _build(family, charges, vals, None, disc,
                                           numeric_inverse=reason)
                 derive(out)
