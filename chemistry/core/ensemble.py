@@ -29,8 +29,18 @@ denominator, a polynomial of degree <= 2 in q or in q^2 -- a counted criterion, 
 time limit.  The root is *certified* on sample states of the original family: the chosen
 root must give back the charge at every sampled state where the charge is in its domain
 (one root for the whole sample; two roots needed means the potential is not invertible on
-the physical domain).  A potential that is not algebraic of that kind is refused in one
-line (a numerical inverse is not implemented).
+the physical domain).
+
+When there is no such closed form, or the transformed family built on it exceeds the
+derivation's counted size limits (:class:`~bhchem.core.derive.DerivationTooLarge`), the charge
+becomes the implicit function q(y) with Phi_q(y, q) = Phi of :mod:`bhchem.core.implicit`:
+derivatives by the implicit-function theorem, values by a certified per-state root solve.
+It is certified on the same sample states (the solve must give back the charge as the only
+root in its domain; two roots at a sampled physical state: refused in one line, "not
+invertible on the physical domain").  Which route was taken is recorded in the family's
+``conventions['inverse_<q>']``; a closed form found unusable is noted in the derivation cache
+(:func:`~bhchem.core.derivation_cache.store_note`) so that later runs skip it.  One potential
+at a time takes the numerical route.
 
 The competing background phase of the new ensemble is the horizonless state at zero charge
 (thermal AdS: its charge is free to vanish when the potential is held fixed):
@@ -276,18 +286,17 @@ def fixed_potential_family(family: Family, charges, *, values=None, **discrete) 
         hit = _built.get(key)
     if hit is None or hit[0] is not family:
         topic = "closed-form inverse of " + ", ".join(charges)
+        # an earlier run that found no usable closed form left a note (derivation cache)
+        refused = derivation_cache.load_note(family, disc, topic)
         try:
             try:
-                refused = derivation_cache.load_note(family, disc, topic)
-                if refused is not None:          # an earlier run found it too large
-                    raise DerivationTooLarge(refused)
+                if refused is not None:
+                    raise _NoClosedForm(refused)
                 out, der, solved = _build(family, charges, vals, None, disc)
-                try:
-                    derive(out)   # cached: bind derives it next
-                except DerivationTooLarge as exc:
-                    derivation_cache.store_note(family, disc, topic, str(exc))
-                    raise
+                derive(out)   # cached: bind derives it next
             except (_NoClosedForm, DerivationTooLarge) as exc:
+                if refused is None:
+                    derivation_cache.store_note(family, disc, topic, str(exc).splitlines()[0])
                 reason = str(exc).splitlines()[0].split(";")[0]
                 if len(charges) > 1:
                     raise EnsembleError(
