@@ -395,6 +395,23 @@ def test_implicit_root_derivatives_and_pickling_exact():
     assert again == expr and type(again) is f
 
 
+def test_a_numerically_inverted_derivation_is_cached_on_disk():
+    """The derivation of a fixed-potential family with the implicit charge is pickled into
+    the derivation cache (the function class is rebuilt from its definition on load) and
+    evaluates to the same numbers (the disk cache is this session's, see conftest)."""
+    from bhchem.core import derivation_cache
+    from bhchem.core.compiled import compile_expression
+    th = bind("born-infeld-ads", Phi_Q=0.5)
+    loaded = derivation_cache.load(th.family, th.derivation.discrete)
+    assert loaded is not None
+    args = th.derivation.arguments
+    r = np.array([0.3, 1.0, 5.0])
+    for name in ("T", "G", "C_P"):
+        assert loaded.quantities[name] == th.derivation.quantities[name]
+        a = compile_expression(args, loaded.quantities[name])(r, 0.01, 1.0, 0.5)
+        assert np.array_equal(a, th.quantity(name, r, 0.01))
+
+
 def test_a_potential_that_is_not_invertible_is_refused():
     """A toy (invented here) with Phi_q = (q/r - q^2/(2 r^2)) exp(-q/r): it rises from 0 to
     a maximum at q = (2 - sqrt 2) r and falls back to 0, so two charges give every smaller
