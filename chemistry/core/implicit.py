@@ -18,17 +18,22 @@ derivatives are those of the implicit-function theorem,
 (with q itself substituted back, so higher derivatives follow by the chain rule), and whose
 numeric value is found per state by a certified root solve (:func:`solve_root`):
 
-1. *isolation*: F is evaluated on a fixed grid of q over the charge's domain (0 and
-   +-16^k, k = -15 ... 15, inside the domain); a state whose finite values change sign
-   exactly once has an isolated root; none means no charge gives this potential (NaN: no
-   such state), more than one means the root is not unique (NaN, counted in
+1. *isolation*: F is evaluated on a fixed grid of q over the charge's domain (0, the finite
+   ends of the domain and +-16^k, k = -15 ... 15, inside it); a state whose finite values
+   change sign exactly once has an isolated root; none means no charge gives this potential
+   (NaN: no such state), more than one means the root is not unique (NaN, counted in
    :func:`diagnostics`; the ensemble refuses a family where this happens at a sampled
-   physical state);
-2. *refinement*: safeguarded Newton steps (F_q compiled from its symbolic derivative),
-   bisection whenever a step leaves the bracket, the bracket kept with a sign change;
+   physical state).  Uniqueness is a statement about the grid: two roots closer than a
+   factor 16 would be seen as none;
+2. *refinement*: safeguarded Newton ("rtsafe") from the secant point of the grid bracket,
+   F and F_q from one compiled function; the midpoint (geometric for a wide positive
+   bracket) whenever a step leaves the bracket or does not halve the step before it;
 3. *certificate*: the final bracket [a, b] has F(a) F(b) <= 0 and b - a <= 8 eps |q|
    (F is continuous), so the returned q is within 8 ulp of a root; a state whose bracket
    does not shrink so far within :data:`MAX_ITERATIONS` returns NaN.
+
+The last few solves are remembered by the exact bytes of their arguments: an analysis asks
+for T, G, S, ... at the same states one after another.
 
 The function class is rebuilt from its definition when a pickled derivation is loaded
 (:mod:`bhchem.core.derivation_cache`), so derivations that contain it are cached on disk
