@@ -23,8 +23,8 @@ numeric value is found per state by a certified root solve (:func:`solve_root`):
    change sign exactly once has an isolated root; none means no charge gives this potential
    (NaN: no such state), more than one means the root is not unique (NaN, counted in
    :func:`diagnostics`; the ensemble refuses a family where this happens at a sampled
-   physical state).  Uniqueness is a statement about the grid: two roots closer than a
-   factor 16 would be seen as none;
+   physical state).  Uniqueness is a statement about the grid: a pair of roots inside one
+   grid cell (a factor 16 wide) changes no sign there and is not seen;
 2. *refinement*: safeguarded Newton ("rtsafe") from the secant point of the grid bracket,
    F and F_q from one compiled function; the midpoint (geometric for a wide positive
    bracket) whenever a step leaves the bracket or does not halve the step before it;
