@@ -5,6 +5,11 @@ warm-up run so that derivation and compilation are not counted.  Target (issue 1
 fixed-Phi diagram costs no more than 2x the fixed-Q one.  A benchmark, not a test: nothing
 in the test suite depends on elapsed time.
 
+Second part: the cost of the certified numerical inverse (bhchem.core.implicit).  Born-Infeld-
+AdS (b = 1) at fixed Phi has no closed-form Q(r, Phi): every state solves Phi(r, Q) = Phi
+(grid isolation + safeguarded Newton).  Printed: T and G at 10^5 states at fixed Q = 1
+(closed form) against fixed Phi = 0.5 (one solve per call), and one fixed-Phi isobar.
+
 Run:  python benchmarks/bench_ensemble.py
 """
 from __future__ import annotations
@@ -12,6 +17,8 @@ from __future__ import annotations
 import time
 
 from bhchem import bind, find_critical_points, phase_diagram
+from bhchem.analysis.isobar import analyze_isobar
+from bhchem.core import implicit
 
 
 def timed(th, rng, repeat=3):
@@ -36,6 +43,26 @@ def main():
           f"{len(pd_phi.lines)} line(s)")
     ratio = t_phi / t_q
     print(f"ratio {ratio:.2f} (target <= 2): {'met' if ratio <= 2 else 'NOT met'}")
+
+    print("born-infeld-ads (b = 1): T and G at 10^5 states (r+ = 0.05 ... 20, P = 0.01)")
+    import numpy as np
+    r = np.geomspace(0.05, 20.0, 100_000)
+    for label, th in (("fixed Q   = 1  ", bind("born-infeld-ads", Q=1.0)),
+                      ("fixed Phi = 0.5", bind("born-infeld-ads", Phi_Q=0.5))):
+        th.T(r[:10], 0.01), th.G(r[:10], 0.01)       # warm-up: compilation
+        t0 = time.perf_counter()
+        th.T(r, 0.01), th.G(r * (1 + 1e-16), 0.01)   # two different arrays: two solves
+        dt = time.perf_counter() - t0
+        print(f"  {label}: {dt:.3f} s  ({2 * r.size / dt:.0f} evaluations/s)")
+    th = bind("born-infeld-ads", Phi_Q=0.5)
+    analyze_isobar(th, 0.02, warn=False)            # warm-up
+    before = implicit.diagnostics()["states"]
+    t0 = time.perf_counter()
+    iso = analyze_isobar(th, 0.01, warn=False)
+    dt = time.perf_counter() - t0
+    solved = implicit.diagnostics()["states"] - before
+    print(f"  isobar at fixed Phi = 0.5, P = 0.01: {dt:.3f} s, "
+          f"{[t.kind for t in iso.transitions]}, {solved} charges solved")
 
 
 if __name__ == "__main__":

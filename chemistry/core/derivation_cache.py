@@ -35,7 +35,7 @@ from bhchem.version import __version__
 MAX_ENTRIES = 256
 _FORMAT = 1
 _DERIVING_MODULES = ("core/derive.py", "declare/family.py", "declare/symbols.py",
-                     "declare/conditions.py")
+                     "declare/conditions.py", "core/implicit.py", "core/ensemble.py")
 _PACKAGE_DIR = Path(__file__).resolve().parents[1]
 
 
@@ -125,8 +125,55 @@ def store(derivation, discrete: dict) -> bool:
         return False
 
 
+def _note_path(folder: Path, key: str) -> Path:
+    return folder / f"note-{hashlib.sha256(key.encode()).hexdigest()[:40]}.pickle"
+
+
+def load_note(family, discrete: dict, topic: str) -> str | None:
+    """A short text recorded by :func:`store_note` for ``family`` at ``discrete`` under
+    ``topic`` (same key rules as a derivation: any change to the family, the deriving code
+    or the versions misses it), or None."""
+    folder = cache_dir()
+    if folder is None:
+        return None
+    key = cache_key(family, discrete) + f"\nnote {topic}"
+    try:
+        with open(_note_path(folder, key), "rb") as fh:
+            stored = pickle.load(fh)
+        if not isinstance(stored, dict) or stored.get("key") != key:
+            return None
+        return str(stored["note"])
+    except Exception:  # missing, damaged, written by another version
+        return None
+
+
+def store_note(family, discrete: dict, topic: str, note: str) -> bool:
+    """Record a decision about a derivation (e.g. that a closed form exceeded the counted
+    size limits, so that the next run does not try it again); atomic like :func:`store`."""
+    folder = cache_dir()
+    if folder is None:
+        return False
+    key = cache_key(family, discrete) + f"\nnote {topic}"
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        data = pickle.dumps({"key": key, "note": str(note)}, protocol=pickle.HIGHEST_PROTOCOL)
+        fd, tmp = tempfile.mkstemp(prefix=".note-", suffix=".tmp", dir=folder)
+        try:
+            with os.fdopen(fd, "wb") as fh:
+                fh.write(data)
+            os.replace(tmp, _note_path(folder, key))
+        except BaseException:
+            os.unlink(tmp)
+            raise
+        _prune(folder)
+        return True
+    except Exception:  # read-only home, full disk: no note
+        return False
+
+
 def _prune(folder: Path) -> None:
-    files = sorted(folder.glob("derivation-*.pickle"), key=lambda p: p.stat().st_mtime)
+    files = sorted(list(folder.glob("derivation-*.pickle")) + list(folder.glob("note-*.pickle")),
+                   key=lambda p: p.stat().st_mtime)
     for old in files[: max(0, len(files) - MAX_ENTRIES)]:
         try:
             old.unlink()

@@ -29,8 +29,18 @@ denominator, a polynomial of degree <= 2 in q or in q^2 -- a counted criterion, 
 time limit.  The root is *certified* on sample states of the original family: the chosen
 root must give back the charge at every sampled state where the charge is in its domain
 (one root for the whole sample; two roots needed means the potential is not invertible on
-the physical domain).  A potential that is not algebraic of that kind is refused in one
-line (a numerical inverse is not implemented).
+the physical domain).
+
+When there is no such closed form, or the transformed family built on it exceeds the
+derivation's counted size limits (:class:`~bhchem.core.derive.DerivationTooLarge`), the charge
+becomes the implicit function q(y) with Phi_q(y, q) = Phi of :mod:`bhchem.core.implicit`:
+derivatives by the implicit-function theorem, values by a certified per-state root solve.
+It is certified on the same sample states (the solve must give back the charge as the only
+root in its domain; two roots at a sampled physical state: refused in one line, "not
+invertible on the physical domain").  Which route was taken is recorded in the family's
+``conventions['inverse_<q>']``; a closed form found unusable is noted in the derivation cache
+(:func:`~bhchem.core.derivation_cache.store_note`) so that later runs skip it.  One potential
+at a time takes the numerical route.
 
 The competing background phase of the new ensemble is the horizonless state at zero charge
 (thermal AdS: its charge is free to vanish when the potential is held fixed):
@@ -54,7 +64,9 @@ import threading
 import numpy as np
 import sympy as sp
 
-from bhchem.core.derive import check_expansion, derive
+from bhchem.core import derivation_cache
+from bhchem.core.derive import DerivationTooLarge, check_expansion, derive
+from bhchem.core.implicit import ImplicitRoot, compile_numeric, implicit_root
 from bhchem.declare import symbols as sy
 from bhchem.declare.conditions import Condition, ConditionSet
 from bhchem.declare.domain import Domain
@@ -72,6 +84,10 @@ MAX_INVERSE_DEGREE = 2
 class EnsembleError(BhchemError, ValueError):
     """A potential that cannot be held fixed instead of its charge (no conjugate, not
     invertible on the physical domain, both given, ...); the message is one line."""
+
+
+class _NoClosedForm(EnsembleError):
+    """No closed-form inverse: the certified numerical inverse is used instead."""
 
 
 def potential_name(charge: str) -> str:
@@ -117,14 +133,14 @@ def _candidates(phi_expr, q, phi) -> tuple[list, str]:
             roots = sp.solve(inner.as_expr(), u)
             return [s * sp.sqrt(r) for r in roots for s in (1, -1)], how + " in " + \
                 f"{q.name}^2"
-    raise EnsembleError(
+    raise _NoClosedForm(
         f"Phi_{q.name} cannot be inverted for {q.name} in closed form (neither it nor its "
         f"square is algebraic of degree <= {MAX_INVERSE_DEGREE} in {q.name} or "
         f"{q.name}^2); holding Phi_{q.name} fixed is not supported for this family")
 
 
 def _lam(args, expr):
-    f = sp.lambdify(args, expr, modules="numpy")
+    f = compile_numeric(args, expr)
     return lambda *a: np.asarray(f(*a), dtype=complex) * np.ones(np.broadcast(*a).shape)
 
 
@@ -211,6 +227,8 @@ def _domain_relation(domain: Domain, expr):
 # -- the family of the new ensemble ----------------------------------------------------------
 _ENTRIES = 64
 _built: dict = {}
+#: (family key, parameter values) already verified -> the family (holds it alive: ids stay unique)
+_verified: dict = {}
 _lock = threading.Lock()
 
 
@@ -267,8 +285,28 @@ def fixed_potential_family(family: Family, charges, *, values=None, **discrete) 
     with _lock:
         hit = _built.get(key)
     if hit is None or hit[0] is not family:
+        topic = "closed-form inverse of " + ", ".join(charges)
+        # an earlier run that found no usable closed form left a note (derivation cache)
+        refused = derivation_cache.load_note(family, disc, topic)
         try:
-            out, der, solved = _build(family, charges, vals, None, disc)
+            try:
+                if refused is not None:
+                    raise _NoClosedForm(refused)
+                out, der, solved = _build(family, charges, vals, None, disc)
+                derive(out)   # cached: bind derives it next
+            except (_NoClosedForm, DerivationTooLarge) as exc:
+                if refused is None:
+                    derivation_cache.store_note(family, disc, topic, str(exc).splitlines()[0])
+                reason = str(exc).splitlines()[0].split(";")[0]
+                if len(charges) > 1:
+                    raise EnsembleError(
+                        f"{', '.join(map(potential_name, charges))} cannot be held fixed "
+                        f"together in {family.name}: a closed form is not available "
+                        f"({reason}) and the numerical inverse takes one potential at a "
+                        f"time") from None
+                out, der, solved = _build(family, charges, vals, None, disc,
+                                          numeric_inverse=reason)
+                derive(out)
         except BhchemError:
             raise
         except (sp.PolynomialError, NotImplementedError, ValueError, TypeError,
@@ -284,8 +322,16 @@ def fixed_potential_family(family: Family, charges, *, values=None, **discrete) 
                 _built.pop(next(iter(_built)))
             _built[key] = hit
     if values:
-        _verify(family, hit[2], hit[3], {**vals, **{k: float(v) for k, v in values.items()
-                                                     if k not in disc}})
+        at = {**vals, **{k: float(v) for k, v in values.items() if k not in disc}}
+        checked = (key, tuple(sorted(at.items())))
+        with _lock:
+            done = checked in _verified and _verified[checked] is family
+        if not done:
+            _verify(family, hit[2], hit[3], at)
+            with _lock:
+                while len(_verified) >= 4 * _ENTRIES:
+                    _verified.pop(next(iter(_verified)))
+                _verified[checked] = family
     return hit[1]
 
 
@@ -296,6 +342,9 @@ def _verify(family: Family, der, solved: dict, vals: dict) -> None:
     samples = _samples(der, vals, *_scales(der, vals), names)
     ok = _physical_samples(der, family, samples, tuple(solved))
     if not ok.any():
+        return
+    if any(isinstance(root, ImplicitRoot) for root in solved.values()):
+        _certify_implicit(family, der, solved, samples, ok)
         return
     args = der.arguments
     pts = [samples[a][ok] for a in args]
@@ -326,7 +375,8 @@ def _scales(der, vals: dict) -> tuple:
     return x0, 0.1 / (8 * math.pi * ell**2)
 
 
-def _build(family: Family, charges: tuple, vals: dict, scales, disc: dict) -> tuple:
+def _build(family: Family, charges: tuple, vals: dict, scales, disc: dict,
+           numeric_inverse: str | None = None) -> tuple:
     der = derive(family, **disc)
     q_syms = tuple(s for s in der.parameters if s.name in charges)
     phis = {q: sy.parameter_symbol(potential_name(q.name)) for q in q_syms}
@@ -339,6 +389,17 @@ def _build(family: Family, charges: tuple, vals: dict, scales, disc: dict) -> tu
                             f"of the potential(s) {', '.join(map(potential_name, charges))}")
     solved: dict = {}           # q -> q(x, P, Phi, other parameters)
     how = {}
+    if numeric_inverse is not None:
+        (q,) = q_syms
+        root = _implicit_inverse(family, der, q, phis[q])
+        _certify_implicit(family, der, {q: root}, samples, ok)
+        solved[q] = root
+        how[q.name] = (f"certified numerical inverse (no closed form: {numeric_inverse}): "
+                       f"{q.name} is the unique root in its domain of Phi_{q.name}(state, "
+                       f"{q.name}) = {potential_name(q.name)}, bracketed and refined to 8 ulp "
+                       f"per state; derivatives by implicit differentiation; definition "
+                       f"{type(root).definition_key[:16]}")
+        return _assemble(family, der, disc, vals, samples, ok, solved, phis, how), der, solved
     for q in q_syms:
         phi_expr = der.quantities[potential_name(q.name)].xreplace(solved)
         cands, method = _candidates(phi_expr, q, phis[q])
@@ -362,6 +423,54 @@ def _reciprocal_roots(expr):
         lambda e: isinstance(e, sp.Pow) and e.exp == sp.Rational(1, 2)
         and isinstance(e.base, sp.Pow) and e.base.exp == -1,
         lambda e: 1 / sp.sqrt(e.base.base))
+
+
+def _implicit_inverse(family: Family, der, q, phi):
+    """q(y) with Phi_q(y, q) = phi, as an applied :class:`ImplicitRoot` of the arguments
+    of the new family that the potential depends on."""
+    phi_expr = der.quantities[potential_name(q.name)]
+    if q not in phi_expr.free_symbols:
+        raise EnsembleError(f"Phi_{q.name} does not depend on {q.name}: holding it fixed "
+                            f"cannot replace {q.name}")
+    equation = phi_expr - phi
+    new_args = tuple(phi if a is q else a for a in der.arguments)
+    variables = tuple(a for a in new_args if a in equation.free_symbols)
+    domain = family.parameter(q.name).domain
+    cls = implicit_root(equation, q, variables, lower=domain.lower, upper=domain.upper,
+                        name=f"{q.name}_of_{potential_name(q.name)}")
+    return cls(*variables)
+
+
+def _certify_implicit(family: Family, der, solved: dict, samples, ok) -> None:
+    """The numerical inverse must give back the charge, as the only root in its domain, at
+    every sampled physical state of the original family where the potential is finite."""
+    args = der.arguments
+    pts = [samples[a][ok] for a in args]
+    for q, root in solved.items():
+        pot = potential_name(q.name)
+        with np.errstate(all="ignore"):
+            phis = _lam(args, der.quantities[pot])(*pts)
+        fine = np.isfinite(phis) & (np.abs(phis.imag) <= 1e-12 * (1 + np.abs(phis.real)))
+        if not fine.any():
+            raise EnsembleError(f"{pot} is not finite at any sampled physical state of "
+                                f"{family.name}; it cannot be held fixed")
+        by_symbol = dict(zip(args, pts))
+        by_symbol[sy.parameter_symbol(pot)] = phis.real
+        cls = type(root)
+        got, count = cls.solve(*[by_symbol[a][fine] for a in root.args])
+        want = by_symbol[q][fine]
+        if (count > 1).any():
+            raise EnsembleError(
+                f"{pot} is not invertible on the physical domain of {family.name}: at a "
+                f"sampled physical state more than one {q.name} in its domain gives the "
+                f"same potential")
+        bad = ~(np.abs(got - want) <= INVERSE_TOLERANCE * np.maximum(np.abs(want), 1e-300))
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise EnsembleError(
+                f"the numerical inverse of {pot} in {family.name} does not give back "
+                f"{q.name} = {want[i]:.6g} at a sampled physical state (got {got[i]:.6g}); "
+                f"{pot} cannot be held fixed")
 
 
 def _simpler(expr, args, pts):
@@ -434,8 +543,11 @@ def _assemble(family, der, disc, vals, samples, ok, solved, phis, how) -> Family
             *[samples[b][ok] for b in args])).real if a in phis else samples[a][ok]
             for a in args]
 
+    implicit = any(isinstance(root, ImplicitRoot) for root in solved.values())
+
     def simpler(e):
-        return _simpler(e, new_args, new_pts)
+        # the implicit root is kept as it is (its derivatives are exact by construction)
+        return e if implicit else _simpler(e, new_args, new_pts)
 
     M = simpler(der.enthalpy_declared.xreplace(rep)
                 - sum(phis[q] * solved[q] for q in solved))
@@ -480,7 +592,9 @@ def _assemble(family, der, disc, vals, samples, ok, solved, phis, how) -> Family
         conditions.append(Condition(c.name, c.relation.xreplace(rep), c.reason, c.reference))
     added = []
     for q, root in solved.items():
-        rel = _domain_relation(family.parameter(q.name).domain, root)
+        # the numerical inverse searches the declared domain only
+        rel = None if isinstance(root, ImplicitRoot) else \
+            _domain_relation(family.parameter(q.name).domain, root)
         if rel is not None:
             name = f"charge-{_family_slug(q.name)}-in-domain"
             added.append(name)
