@@ -505,8 +505,9 @@ def gt_curves(th, pressures=None, show_excluded: bool = False) -> GtCurves:
     Parameters
     ----------
     th : Thermodynamics
-    pressures : sequence of float, optional
-        Default :func:`default_pressures`.
+    pressures : sequence of float or str, optional
+        Absolute, or relative to a critical point (``'0.5Pc'``, see
+        :func:`bhchem.analysis.critical.resolve_pressure`).  Default :func:`default_pressures`.
     show_excluded : bool
         Also return the states the binding's conditions exclude (``excluded``), inside
         each panel's temperature window, to be drawn faintly and labelled by condition.
@@ -516,7 +517,8 @@ def gt_curves(th, pressures=None, show_excluded: bool = False) -> GtCurves:
     GtCurves
     """
     cp = scale_point(th)
-    pressures = pressures or default_pressures(th, cp)
+    pressures = [resolve_pressure(th, P) for P in pressures] if pressures else \
+        default_pressures(th, cp)
     panels, excluded = [], []
     for i, P in enumerate(pressures):
         panel = _gt_panel(th, P, cp)
@@ -762,7 +764,8 @@ def tr_curves(th, pressures=None, show_excluded: bool = False) -> TrCurves:
     TrCurves
     """
     cp = scale_point(th)
-    pressures = pressures or default_pressures(th, cp)
+    pressures = [resolve_pressure(th, P) for P in pressures] if pressures else \
+        default_pressures(th, cp)
     x_c = cp.x if cp is not None else th.typical_state()
     isobars, excluded = [], []
     low = []
@@ -805,7 +808,8 @@ def cp_curves(th, pressure=None) -> CpCurves:
     CpCurves
     """
     cp = scale_point(th)
-    P = pressure or (0.5 * cp.P if cp is not None else th.typical_pressure())
+    P = resolve_pressure(th, pressure) if pressure is not None else \
+        (0.5 * cp.P if cp is not None else th.typical_pressure())
     res = analyze_isobar(th, P)
     x_c = cp.x if cp is not None else th.typical_state()
     branches = []

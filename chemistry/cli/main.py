@@ -27,6 +27,7 @@ from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
 from bhchem.present.plots import save, table_path
+from bhchem.present.progress import progress_display
 from bhchem.workflows.figures import adjust_check, compare_figure, make_figure, parse_vary
 from bhchem.analysis.ensembles import compare_ensembles
 from bhchem.present.ensemble_report import compare_json, compare_text
@@ -216,17 +217,10 @@ def cmd_phases(args) -> int:
 
 
 def _progress(args, what):
-    """A progress callback on stderr when it is a terminal (silent with --quiet)."""
-    if getattr(args, "quiet", False) or not sys.stderr.isatty():
-        return None
-
-    def show(done, total):
-        if done is None:
-            sys.stderr.write("\r" + " " * 60 + "\r")
-        else:
-            sys.stderr.write(f"\r{what}: {done}/{total}")
-        sys.stderr.flush()
-    return show
+    """A progress callback (:func:`bhchem.present.progress.progress_display`): a line on
+    stderr when it is a terminal, a bar in a notebook; None when silent (``--quiet``)."""
+    bar = progress_display(what, quiet=getattr(args, "quiet", False))
+    return None if bar.kind == "none" else bar
 
 
 def _note(line: str) -> None:

@@ -44,7 +44,6 @@ import os
 import signal
 import sys
 import warnings
-import time
 from dataclasses import dataclass
 
 import numpy as np
@@ -61,6 +60,7 @@ from bhchem.fileio import atomic_write, fault_point
 from bhchem.version import __version__
 from bhchem.workflows.report import dumps
 from bhchem.present.plots import PlotResult, save
+from bhchem.present.progress import progress_display
 from bhchem.present.style import PALETTE, styled
 
 CHUNK_SIZE = 8
@@ -262,28 +262,6 @@ def _dumps(obj) -> str:
     return dumps(obj)
 
 
-class _Progress:
-    def __init__(self, total, quiet):
-        self.total, self.done = total, 0
-        self.quiet = quiet or not sys.stderr.isatty()
-        self.t0 = time.perf_counter()
-
-    def add(self, n):
-        self.done += n
-        if self.quiet:
-            return
-        dt = time.perf_counter() - self.t0
-        rate = self.done / dt if dt > 0 else 0.0
-        eta = (self.total - self.done) / rate if rate > 0 else float("inf")
-        sys.stderr.write(f"\rscan: {self.done}/{self.total} points, {rate:.2f}/s, "
-                         f"ETA {eta:.0f} s   ")
-        sys.stderr.flush()
-
-    def close(self):
-        if not self.quiet:
-            sys.stderr.write("\n")
-
-
 #: Linux prctl option: the signal a process gets when its parent dies
 _PR_SET_PDEATHSIG = 1
 
@@ -415,8 +393,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             else:
                 loaded[i] = rows
     missing = [i for i in range(len(chunks)) if i not in loaded]
-    progress = _Progress(len(rep_points), quiet)
-    progress.add(sum(len(chunks[i]) for i in range(len(chunks)) if i not in set(missing)))
+    progress = progress_display("scan", len(rep_points), unit="points", quiet=quiet)
+    progress.advance(sum(len(chunks[i]) for i in range(len(chunks)) if i not in set(missing)))
     # one pool for the whole run: chunks and boundary refinement; a caller's executor is
     # used as given and never shut down here
     own = None
@@ -430,7 +408,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                 rows = run_chunk(family_name, family_file, fixed, chunks[i], admissible)
                 record(i, rows)
                 loaded[i] = json.loads(_dumps(rows))
-                progress.add(len(rows))
+                progress.advance(len(rows))
                 written += 1
                 if stop_after_chunks is not None and written >= stop_after_chunks:
                     save_checksums()
@@ -446,7 +424,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                 rows = f.result()
                 record(i, rows)
                 loaded[i] = json.loads(_dumps(rows))
-                progress.add(len(rows))
+                progress.advance(len(rows))
                 written += 1
                 if stop_after_chunks is not None and written >= stop_after_chunks:
                     for g in futs:
