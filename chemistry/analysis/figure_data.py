@@ -196,6 +196,8 @@ class GtCurves(Result):
     notes: tuple = ()
     #: states excluded by a condition (ExcludedCurve, rows T, G), when asked for
     excluded: tuple = ()
+    #: in units of the critical point (T/T_c, G/|G_c|, P/P_c): see :func:`reduced`
+    reduced: bool = False
 
 
 @dataclass(frozen=True, eq=False)
@@ -352,6 +354,8 @@ class CpCurves(Result):
     P_c: float | None
     linthresh: float | None
     notes: tuple = ()
+    #: in units of the critical point (x/x_c, C_P/S_c, P/P_c): see :func:`reduced`
+    reduced: bool = False
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -937,8 +941,8 @@ def overlay_data(th, kind: str, name: str, values, reduced_units: bool = False,
     name : str
     values : sequence of float
     reduced_units : bool
-        Each member in units of its own critical point (:func:`reduced`; pv, tr, pt): values
-        that only set the scale then give one curve.
+        Each member in units of its own critical point (:func:`reduced`): values that only
+        set the scale then give one curve.
     **options
         ``temperatures`` (pv), ``pressures`` (gt, tr; one each), ``pressure`` (cp).
 
@@ -981,6 +985,11 @@ def _curves(data) -> list:
         return [b.curve for iso in data.isobars for b in iso]
     if isinstance(data, PtDiagram):
         return [ln.points for ln in data.lines]
+    if isinstance(data, GtCurves):
+        return [b.curve for p in data.panels for b in p.branches] + \
+            [seg for p in data.panels for seg in p.preferred]
+    if isinstance(data, CpCurves):
+        return [b.curve for b in data.branches]
     return []
 
 
@@ -1019,15 +1028,32 @@ def _member_options(th, kind: str, options: dict) -> dict:
 
 # -- reduced variables ----------------------------------------------------------------------
 def reduced(data, th=None):
-    """The same figure data in units of the critical point: v/v_c, P/P_c, T/T_c (and
-    x/x_c for T-r+ curves).  For ``pv`` and ``tr`` the critical point is the data's own;
-    for ``pt`` the scale critical point of ``th`` (see :func:`scale_point`).
+    """The same figure data in units of the critical point, every axis scale-free:
+
+    ======  ==========================================================================
+    kind    axes (and the pressures or temperatures that label the curves)
+    ======  ==========================================================================
+    pv      v/v_c, P/P_c (T/T_c)
+    tr      x/x_c, T/T_c (P/P_c)
+    pt      T/T_c, P/P_c
+    gt      T/T_c, G/|G_c| (P/P_c): G in units of the magnitude of the Gibbs free energy
+            at the critical point (G = M - TS has the dimension of M; the sign and the
+            zero of G are kept, so the background G = 0 and the crossings stay where they
+            are)
+    cp      x/x_c, C_P/S_c (P/P_c): C_P = T (dS/dT)_P in units of the entropy at the
+            critical point (C_P has the dimension of S)
+    ======  ==========================================================================
+
+    This is how papers draw families whose parameters only set the scale: in these
+    variables the curves of every value coincide (e.g. Kubiznak & Mann, JHEP 07 (2012)
+    033, for 4D charged AdS).  For ``pv`` and ``tr`` the critical point is the data's own;
+    for ``pt``, ``gt`` and ``cp`` the scale critical point of ``th`` (see :func:`scale_point`).
 
     Parameters
     ----------
-    data : PvCurves, TrCurves or PtDiagram
+    data : PvCurves, TrCurves, PtDiagram, GtCurves or CpCurves
     th : Thermodynamics, optional
-        Needed for a PtDiagram.
+        Needed for a PtDiagram, GtCurves and CpCurves.
 
     Returns
     -------
@@ -1036,7 +1062,8 @@ def reduced(data, th=None):
     Raises
     ------
     BhchemError
-        Without a critical point to reduce by, or for another kind of data.
+        Without a critical point to reduce by (for gt also when G_c = 0), or for another
+        kind of data.
     """
     if isinstance(data, PvCurves):
         if data.critical_point is None or data.T_c is None:
@@ -1081,5 +1108,42 @@ def reduced(data, th=None):
             inset_box=None if box is None else (box[0] / Tc, box[1] / Tc, box[2] / Pc,
                                                 box[3] / Pc),
             reduced=True)
-    raise BhchemError(f"reduced variables are drawn for pv, tr and pt figures, not "
+    if isinstance(data, GtCurves):
+        cp = _reducing_point(th)
+        Tc, Pc, Gc = cp.T, cp.P, abs(cp.G)
+        if not (np.isfinite(Gc) and Gc > 0):
+            raise BhchemError("reduced G-T figures draw G/|G_c|; the Gibbs free energy at the "
+                              f"critical point is {cp.G:g}, so there is no scale to divide by")
+        sc = np.array([Tc, Gc])
+        panels = tuple(replace(
+            p, pressure=p.pressure / Pc,
+            branches=tuple(replace(b, curve=b.curve / sc) for b in p.branches),
+            preferred=tuple(seg / sc for seg in p.preferred),
+            transitions=np.asarray(p.transitions, float).reshape(-1, 2) / sc,
+            T_window=(p.T_window[0] / Tc, p.T_window[1] / Tc),
+            G_window=None if p.G_window is None else (p.G_window[0] / Gc, p.G_window[1] / Gc))
+            for p in data.panels)
+        return replace(data, panels=panels, P_c=1.0,
+                       excluded=tuple(replace(e, curve=e.curve / sc) for e in data.excluded),
+                       reduced=True)
+    if isinstance(data, CpCurves):
+        cp = _reducing_point(th)
+        Sc = float(th.S(cp.x, cp.P))
+        sc = np.array([cp.x, Sc])
+        return replace(data, pressure=data.pressure / cp.P, P_c=1.0,
+                       branches=tuple(replace(b, curve=b.curve / sc,
+                                              spinodals=tuple(x / cp.x for x in b.spinodals))
+                                      for b in data.branches),
+                       linthresh=None if data.linthresh is None else data.linthresh / Sc,
+                       reduced=True)
+    raise BhchemError(f"reduced variables are drawn for pv, tr, pt, gt and cp figures, not "
                       f"{type(data).__name__}")
+
+
+def _reducing_point(th):
+    """The scale critical point of ``th`` (:func:`scale_point`), or a BhchemError."""
+    cp = scale_point(th) if th is not None else None
+    if cp is None:
+        raise BhchemError("reduced variables need a critical point; this family has "
+                          "none at these parameters")
+    return cp
