@@ -665,3 +665,33 @@ def test_reduced_overlay_over_a_pure_scale_is_one_curve(rn):
     for ba, bb in zip(a, b):
         np.testing.assert_allclose(ba.curve, bb.curve, rtol=1e-9, atol=1e-12)
     assert "the curves coincide" in " ".join(ov.notes)
+
+
+def test_overlay_caption_says_when_the_values_differ_only_by_scale(rn):
+    """Values that differ only by a length rescaling (equal scale-free combinations) are
+    named in the caption, with the combination that stays fixed; values that change a
+    scale-free combination are not.  Under q -> lambda^n q (n the length dimension) every
+    combination q'/q^(n'/n) is unchanged: 4D charged AdS has Q alone; Kerr-Newman-AdS at Q = 0
+    keeps Q/J^(1/2) = 0; charged Gauss-Bonnet with alpha != 0 changes alpha/Q when Q moves."""
+    from bhchem.analysis.figure_data import overlay_data, scale_only_note
+    from bhchem.present.plots import plot_overlay
+    ov = overlay_data(rn, "gt", "Q", [0.5, 1.0, 2.0], pressures=["0.5Pc"])
+    (note,) = [n for n in ov.notes if "only sets the scale" in n]
+    assert note.startswith("Q only sets the scale (Q is the only dimensionful parameter)")
+    assert "in reduced variables" in note
+    fig = plot_overlay(ov).figure
+    caption = " ".join(t.get_text() for t in fig.axes[0].texts).replace("\n", " ")
+    assert "Q only sets the scale" in caption
+    kn = [bind("kerr-newman-ads", J=j, Q=0.0) for j in (0.5, 2.0)]
+    assert scale_only_note(kn, "J") == ("the scale-free combination Q/J^(1/2) = 0 is the same "
+                                        "at every value")
+    gb = [bind("gauss-bonnet-ads", d=5, alpha=0.5, Q=q) for q in (1.0, 2.0)]
+    assert scale_only_note(gb, "Q") == ""
+    assert scale_only_note([bind("rn-ads", Q=1.0, d=d) for d in (4, 5)], "d") == ""
+    # rescaled together (alpha ~ L^2 and Q ~ L^2 in d = 5) the combination alpha/Q stays
+    gb = [bind("gauss-bonnet-ads", d=5, alpha=0.5 * s, Q=s) for s in (1.0, 4.0)]
+    assert scale_only_note(gb, "Q") == ("the scale-free combination alpha/Q = 0.5 is the same "
+                                        "at every value")
+    ov = overlay_data(rn, "tr", "Q", [0.5, 2.0], reduced_units=True, pressures=["0.6Pc"])
+    assert ("the curves coincide in reduced variables: Q only sets the scale (Q is the only "
+            "dimensionful parameter)") in ov.notes

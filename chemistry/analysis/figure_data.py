@@ -34,7 +34,8 @@ import numpy as np
 from bhchem.core.compiled import bind
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError
-from bhchem.analysis.critical import loop_side, resolve_pressure, resolve_temperature
+from bhchem.analysis.critical import (loop_side, resolve_pressure, resolve_temperature,
+                                      scale_free_combinations, scale_free_key)
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.numerics import brentq, isotherm_pressure
@@ -965,17 +966,42 @@ def overlay_data(th, kind: str, name: str, values, reduced_units: bool = False,
     if not 1 <= len(values) <= 8:
         raise BhchemError(f"--vary {name}: give 1 to 8 values, not {len(values)}")
     adm = th.admissibility
-    members = []
+    members, bound = [], []
     for value in values:
         member = bind(th.family, conditions=adm.set_name, without=adm.removed,
                       **{**th.values, name: value})
         data = FIGURE_DATA[kind](member, **_member_options(member, kind, options))
         members.append(reduced(data, member) if reduced_units else data)
+        bound.append(member)
     fixed = {k: v for k, v in th.values.items() if k != name}
     notes = _selection_notes(th)
+    scale = scale_only_note(bound, name)
     if reduced_units and len(members) > 1 and _coincide(members):
-        notes += (f"the curves coincide in reduced variables: {name} only sets the scale",)
+        notes += (f"the curves coincide in reduced variables: {name} only sets the scale"
+                  + (f" ({scale})" if scale else ""),)
+    elif scale:
+        notes += (f"{name} only sets the scale ({scale}): in reduced variables "
+                  f"(--reduced, reduced_units=True) the curves coincide",)
     return OverlayData(th.family.name, fixed, kind, name, values, tuple(members), notes)
+
+
+def scale_only_note(bound, name: str) -> str:
+    """When the bindings ``bound`` (one per value of the parameter ``name``) differ only by
+    scale -- equal :func:`~bhchem.analysis.critical.scale_free_key`, so every scale-free
+    combination is the same at every value -- what stays fixed, named: ``'the scale-free
+    combination mu/Q^3 = 0 is the same at every value'`` (or ``'Q is the only dimensionful
+    parameter'``); else ``''``."""
+    if len(bound) < 2 or bound[0].derivation.length_dimensions.get(name, 0) == 0:
+        return ""
+    keys = [scale_free_key(b) for b in bound]
+    if any(k != keys[0] for k in keys[1:]):
+        return ""
+    combos = scale_free_combinations(bound[0], name)
+    if not combos:
+        return f"{name} is the only dimensionful parameter"
+    listed = ", ".join(f"{k} = {v:.6g}" for k, v in combos.items())
+    return (f"the scale-free combination{'s' if len(combos) > 1 else ''} {listed} "
+            f"{'are' if len(combos) > 1 else 'is'} the same at every value")
 
 
 def _curves(data) -> list:

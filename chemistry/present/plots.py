@@ -21,6 +21,7 @@ import csv
 import html
 import io
 import math
+import textwrap
 import os
 from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
@@ -961,9 +962,10 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
             ax.set_xlabel(rf"${x}/{x}^{{c}}$" if red else rf"${x}$")
             ax.set_ylabel(r"$C_P/S_c$" if red else r"$C_P$")
         sel = "".join(f"; {n}" for n in data.notes if n.startswith("states:"))
-        same = [n for n in data.notes if n.startswith("the curves coincide")]
+        same = [n for n in data.notes if "only sets the scale" in n]
         if same:  # the scale-free statement, under the plane
-            ax.text(0.0, -0.2, same[0], transform=ax.transAxes, fontsize=8, va="top")
+            ax.text(0.0, -0.2, textwrap.fill(same[0], 90), transform=ax.transAxes,
+                    fontsize=7, va="top")
         ax.set_title(f"{data.family} ({fixed}{', ' if fixed else ''}{data.name} varied){sel}")
         ax.legend(handles=handles, loc="best")  # inside, where the curves leave room
     columns = {"tr": (_column(state), "T"), "cp": (_column(state), "C_P")}.get(kind, ())

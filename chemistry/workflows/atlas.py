@@ -51,7 +51,7 @@ import numpy as np
 from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures import as_completed as futures_as_completed
 
-from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical import find_critical_points, scale_free_key
 from bhchem.analysis.phases import phase_diagram
 from bhchem.core.compiled import bind, parse_number, resolve_ensemble, validate_values
 from bhchem.declare.registry import get_family, load_family_file
@@ -122,24 +122,6 @@ def _family(family_name, family_file):
     if family_file:
         load_family_file(family_file)
     return get_family(family_name)
-
-
-def scale_free_key(th) -> tuple:
-    """The scale-free combinations that determine every dimensionless result."""
-    der = th.derivation
-    dims = der.length_dimensions
-    ref = next(((nm, n) for nm, n in dims.items() if n != 0 and th.values[nm] != 0), None)
-    key = [("discrete", tuple(sorted(der.discrete.items())))]
-    for nm, n in dims.items():
-        v = float(th.values[nm])
-        if ref is None or n == 0:
-            key.append((nm, round(v, 12)))
-        elif nm != ref[0]:
-            ell = abs(float(th.values[ref[0]])) ** (1.0 / ref[1])
-            key.append((f"{nm}/{ref[0]}^({n}/{ref[1]})", float(f"{v / ell ** n:.12g}")))
-    if ref is None:
-        key.append(("scale", "none"))
-    return tuple(key)
 
 
 def analyse_point(family_name, family_file, params: dict, admissible=(None, ())) -> dict:
