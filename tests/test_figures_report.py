@@ -54,6 +54,12 @@ def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
     for T, P, name in data.regions:  # each name is written where that phase is preferred
         if name != "supercritical":
             assert [ph for lo, hi, ph in bhchem_isobar(rn, P).preferred if lo <= T <= hi] == [name]
+    # the text of 'bhchem phases' names the regions as the figure does (one naming, the
+    # diagram's): no "black hole" for the supercritical region
+    from bhchem.present.phase_text import diagram_json, diagram_text
+    assert "  regions: small, large, supercritical" in diagram_text(pd).splitlines()
+    assert {r["name"] for r in diagram_json(pd)["regions"]} == \
+        {t.get_text() for t in res.figure.axes[0].texts}
     # the legend sits below the plane, not beside it
     legend = res.figure.axes[0].get_legend()
     assert legend.get_bbox_to_anchor().y0 < res.figure.axes[0].bbox.y0

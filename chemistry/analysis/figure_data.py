@@ -687,10 +687,9 @@ def _regions(th, pd, Tmax, Pmax, inset: bool):
     For every phase of ``pd.regions``, isobars across its pressure range give the widest
     T interval where it is preferred (clipped to the axes, outside the inset); a name is
     written there when the interval is at least a tenth of the T axis, else pointed at
-    from free space.  A phase no line separates from another, above a critical point, is
-    named ``supercritical``."""
-    separated = {ph for line in pd.lines for ph in line.between}
-    P_crit = [cp.P for cp in pd.critical_points]
+    from free space.  The name is the diagram's (:func:`bhchem.analysis.phases.region_name`:
+    ``supercritical`` for a phase no line separates from another, above a critical point),
+    the same that ``bhchem phases`` prints."""
     cache = {}
 
     def preferred(P):
@@ -712,9 +711,7 @@ def _regions(th, pd, Tmax, Pmax, inset: bool):
         lo, hi = max(reg["P_range"][0], 0.04 * Pmax), min(reg["P_range"][1], 0.96 * Pmax)
         if not lo < hi:
             continue
-        name = ph
-        if ph not in separated and P_crit and reg["P_range"][0] >= min(P_crit) * (1 - 1e-6):
-            name = "supercritical"
+        name = reg["name"]  # the diagram's own name (phases.region_name)
         best = None
         for f in (0.5, 0.3, 0.7, 0.12, 0.88):  # ties keep the middle
             P = lo + f * (hi - lo)
