@@ -621,28 +621,29 @@ def test_reduced_variables_divide_by_the_critical_point(figure_inputs, rn):
 
 
 def test_reduced_gt_and_cp_divide_by_the_critical_point(figure_inputs, rn):
-    """G-T in T/T_c, G/|G_c| and C_P in r/r_c, C_P/S_c, at P/P_c.  The critical point of 4D
+    """G-T in T/T_c, G/(T_c S_c) and C_P in r/r_c, C_P/S_c, at P/P_c.  The critical point of 4D
     charged AdS (Kubiznak & Mann, JHEP 07 (2012) 033): r_c = sqrt(6) Q, T_c = sqrt(6)/(18 pi Q),
-    P_c = 1/(96 pi Q^2); so S_c = pi r_c^2 = 6 pi Q^2 and, from M = r/2 + 4 pi P r^3/3 +
-    Q^2/(2r) = 2 sqrt(6) Q/3 and T_c S_c = sqrt(6) Q/3, G_c = sqrt(6) Q/3 (derived here)."""
+    P_c = 1/(96 pi Q^2); so S_c = pi r_c^2 = 6 pi Q^2 and T_c S_c = sqrt(6) Q/3 (derived here;
+    it equals G_c, since M_c = r_c/2 + 4 pi P_c r_c^3/3 + Q^2/(2 r_c) = 2 sqrt(6) Q/3)."""
     from bhchem.analysis.figure_data import overlay_data, reduced
     from bhchem.present.plots import PLOTTERS, plot_overlay
-    r_c, T_c, S_c, G_c = math.sqrt(6), math.sqrt(6) / (18 * math.pi), 6 * math.pi, math.sqrt(6) / 3
+    r_c, T_c, S_c = math.sqrt(6), math.sqrt(6) / (18 * math.pi), 6 * math.pi
+    TS_c = math.sqrt(6) / 3
     gt = figure_inputs["gt"]
     red = reduced(gt, rn)
     assert red.reduced and red.P_c == 1.0
     assert [p.pressure for p in red.panels] == pytest.approx([0.5, 0.8, 1.0, 1.4], rel=1e-12)
     for p, q in zip(gt.panels, red.panels):
         for b, c in zip(p.branches, q.branches):
-            np.testing.assert_allclose(c.curve, b.curve / [T_c, G_c], rtol=1e-12)
+            np.testing.assert_allclose(c.curve, b.curve / [T_c, TS_c], rtol=1e-12)
         for a, b in zip(p.preferred, q.preferred):
-            np.testing.assert_allclose(b, a / [T_c, G_c], rtol=1e-12)
+            np.testing.assert_allclose(b, a / [T_c, TS_c], rtol=1e-12)
         assert q.T_window == pytest.approx((p.T_window[0] / T_c, p.T_window[1] / T_c))
     res = PLOTTERS["gt"](red)
     ax = res.figure.axes[0]
-    assert (ax.get_xlabel(), ax.get_ylabel(), ax.get_title()) == ("$T/T_c$", "$G/|G_c|$",
+    assert (ax.get_xlabel(), ax.get_ylabel(), ax.get_title()) == ("$T/T_c$", "$G/(T_c S_c)$",
                                                                   "$P/P_c=0.5$")
-    assert res.table.columns == ("curve", "T/T_c", "G/|G_c|")
+    assert res.table.columns == ("curve", "T/T_c", "G/(T_c S_c)")
     cp = figure_inputs["cp"]
     red = reduced(cp, rn)
     assert red.pressure == pytest.approx(0.5, rel=1e-12)
@@ -654,7 +655,7 @@ def test_reduced_gt_and_cp_divide_by_the_critical_point(figure_inputs, rn):
     assert (ax.get_xlabel(), ax.get_ylabel()) == ("$r_+/r_+^{c}$", "$C_P/S_c$")
     assert res.table.columns == ("curve", "r_plus/r_plus_c", "C_P/S_c")
     # Q only sets the scale: in these variables the G-T and C_P curves of every Q coincide
-    for kind, opts, columns in (("gt", {"pressures": ["0.5Pc"]}, ("T/T_c", "G/|G_c|")),
+    for kind, opts, columns in (("gt", {"pressures": ["0.5Pc"]}, ("T/T_c", "G/(T_c S_c)")),
                                 ("cp", {"pressure": "0.5Pc"}, ("r_plus/r_plus_c", "C_P/S_c"))):
         ov = overlay_data(rn, kind, "Q", [0.5, 2.0], reduced_units=True, **opts)
         assert "the curves coincide" in " ".join(ov.notes), kind

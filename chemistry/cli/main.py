@@ -448,7 +448,7 @@ def build_parser() -> argparse.ArgumentParser:
                         "own critical point")
     p.add_argument("--reduced", action="store_true",
                    help="in units of the critical point: v/v_c, P/P_c, T/T_c, r/r_c; "
-                        "G/|G_c| (gt) and C_P/S_c (cp)")
+                        "G/(T_c S_c) (gt) and C_P/S_c (cp)")
     p.add_argument("--xlim", metavar="A:B", help="x-axis range of every panel")
     p.add_argument("--ylim", metavar="A:B", help="y-axis range of every panel")
     p.add_argument("--width", metavar="column|page|INCHES",

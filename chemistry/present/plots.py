@@ -113,7 +113,11 @@ class PlotResult(Result):
             self.figure.savefig(buf, format="png", dpi=100)
         img = base64.b64encode(buf.getvalue()).decode("ascii")
         notes = "".join(f"<br>{html.escape(n)}" for n in self.notes)
-        return f"<div><img src='data:image/png;base64,{img}'>{notes}</div>"
+        sup = getattr(self.figure, "get_suptitle", None)
+        title = (sup() if sup else "") or \
+            next((t for a in self.figure.axes if (t := a.get_title())), "")
+        alt = html.escape(f"{self.kind} figure" + (f": {title}" if title else ""), quote=True)
+        return f"<div><img src='data:image/png;base64,{img}' alt='{alt}'>{notes}</div>"
 
 
 #: units of every figure table
@@ -137,7 +141,7 @@ COLUMN_MEANING = {
     "r_plus/r_plus_c": "horizon radius over its value at the critical point",
     "P/P_c": "pressure over the critical pressure",
     "v/v_c": "specific volume over the critical one",
-    "G/|G_c|": "Gibbs free energy over the magnitude of its value at the critical point",
+    "G/(T_c S_c)": "Gibbs free energy over T_c S_c (critical temperature times the entropy there)",
     "C_P/S_c": "heat capacity at constant pressure over the entropy at the critical point",
     "jump_scaled": "jump (large minus small) divided by its largest magnitude",
 }
@@ -545,7 +549,7 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
             P = p.pressure
             a.set_title(f"$P/P_c={P / data.P_c:.3g}$" if data.P_c is not None else f"$P={P:.3g}$")
             a.set_xlabel(r"$T/T_c$" if red else r"$T$")
-            a.set_ylabel(r"$G/|G_c|$" if red else r"$G$")
+            a.set_ylabel(r"$G/(T_c S_c)$" if red else r"$G$")
         handles = [Line2D([], [], color=PALETTE[0], lw=2.4, label="globally preferred"),
                    Line2D([], [], color=STABLE_GREY, ls="--", lw=0.9, label="metastable"),
                    Line2D([], [], color=UNSTABLE_GREY, ls=":", label="unstable ($C_P<0$)")]
@@ -564,7 +568,7 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
     labels = {f"P{i}_preferred": _value_label("P", p.pressure, data.P_c)
               for i, p in enumerate(panels)}
     return PlotResult(fig, "gt", drawn, list(data.notes), labels=labels,
-                      columns=("T/T_c", "G/|G_c|") if red else ())
+                      columns=("T/T_c", "G/(T_c S_c)") if red else ())
 
 
 # -- P-T phase diagram -----------------------------------------------------------------------
@@ -925,7 +929,7 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
             if win:
                 ax.set_ylim(min(w[0] for w in win), max(w[1] for w in win))
             ax.set_xlabel(r"$T/T_c$" if red else r"temperature $T$")
-            ax.set_ylabel(r"$G/|G_c|$" if red else r"Gibbs free energy $G$")
+            ax.set_ylabel(r"$G/(T_c S_c)$" if red else r"Gibbs free energy $G$")
             handles += [Line2D([], [], color="0.3", lw=2.2, label="globally preferred"),
                         Line2D([], [], color="0.3", lw=0.7, ls=":", label="unstable ($C_P<0$)")]
         elif kind == "pt":
@@ -972,7 +976,7 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
     if red:
         xc = _column(state) + "/" + _column(state) + "_c"
         columns = {"pv": ("v/v_c", "P/P_c"), "pt": ("T/T_c", "P/P_c"), "tr": (xc, "T/T_c"),
-                   "gt": ("T/T_c", "G/|G_c|"), "cp": (xc, "C_P/S_c")}[kind]
+                   "gt": ("T/T_c", "G/(T_c S_c)"), "cp": (xc, "C_P/S_c")}[kind]
     return PlotResult(fig, kind, drawn, list(data.notes), columns=columns, labels=labels)
 
 

@@ -80,7 +80,7 @@ def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None, vary=N
         ``'a=0:1:3'``; see :func:`bhchem.analysis.figure_data.overlay_data` for what each
         kind draws per value).
     reduced_units : bool
-        Draw in units of the critical point: v/v_c, P/P_c, T/T_c, x/x_c, G/|G_c|, C_P/S_c
+        Draw in units of the critical point: v/v_c, P/P_c, T/T_c, x/x_c, G/(T_c S_c), C_P/S_c
         (see :func:`bhchem.analysis.figure_data.reduced`).
     width : 'column', 'page' or float, optional
         Figure width in inches (a journal column 3.4, a page 7.0); see
