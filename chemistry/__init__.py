@@ -66,6 +66,7 @@ from bhchem.analysis.figure_data import (CpCurves, GtCurves, OverlayData, PtDiag
                                          TrCurves, cp_curves, gt_curves, overlay_data,
                                          pt_diagram, pv_curves, tr_curves)
 from bhchem.analysis.figure_data import reduced as reduced_units
+from bhchem.present.progress import Progress, progress_display
 from bhchem.present.plots import (EmptyFigureError, FigureTable, PlotResult, adjust, plot_cp,
                                   plot_gt, plot_overlay, plot_pt, plot_pv, plot_tr, save)
 from bhchem.analysis.ensembles import EnsembleComparison, EnsembleSide, compare_ensembles
@@ -104,7 +105,7 @@ __all__ = [
     "CpCurves", "GtCurves", "PtDiagram", "PvCurves", "TrCurves",
     "cp_curves", "gt_curves", "pt_diagram", "pv_curves", "tr_curves",
     "EmptyFigureError", "PlotResult", "plot_cp", "plot_gt", "plot_pt", "plot_pv",
-    "plot_tr", "save", "make_figure",
+    "plot_tr", "save", "make_figure", "Progress", "progress_display",
     # overlays over a parameter, reduced variables, axis ranges and width, the data table
     "OverlayData", "overlay_data", "plot_overlay", "reduced_units", "adjust", "FigureTable",
     # errors

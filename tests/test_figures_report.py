@@ -54,6 +54,12 @@ def test_pt_diagram_draws_the_computed_lines(rn, tmp_path):
     for T, P, name in data.regions:  # each name is written where that phase is preferred
         if name != "supercritical":
             assert [ph for lo, hi, ph in bhchem_isobar(rn, P).preferred if lo <= T <= hi] == [name]
+    # the text of 'bhchem phases' names the regions as the figure does (one naming, the
+    # diagram's): no "black hole" for the supercritical region
+    from bhchem.present.phase_text import diagram_json, diagram_text
+    assert "  regions: small, large, supercritical" in diagram_text(pd).splitlines()
+    assert {r["name"] for r in diagram_json(pd)["regions"]} == \
+        {t.get_text() for t in res.figure.axes[0].texts}
     # the legend sits below the plane, not beside it
     legend = res.figure.axes[0].get_legend()
     assert legend.get_bbox_to_anchor().y0 < res.figure.axes[0].bbox.y0
@@ -610,8 +616,50 @@ def test_reduced_variables_divide_by_the_critical_point(figure_inputs, rn):
     assert pt.data["critical_points"][0] == pytest.approx([1.0, 1.0], rel=1e-12)
     assert pt.table.columns == ("curve", "T/T_c", "P/P_c")
     from bhchem.errors import BhchemError
-    with pytest.raises(BhchemError, match="not CpCurves"):
-        reduced(figure_inputs["cp"])
+    with pytest.raises(BhchemError, match="not CycleCurves"):
+        reduced(figure_inputs["cycle"])
+
+
+def test_reduced_gt_and_cp_divide_by_the_critical_point(figure_inputs, rn):
+    """G-T in T/T_c, G/(T_c S_c) and C_P in r/r_c, C_P/S_c, at P/P_c.  The critical point of 4D
+    charged AdS (Kubiznak & Mann, JHEP 07 (2012) 033): r_c = sqrt(6) Q, T_c = sqrt(6)/(18 pi Q),
+    P_c = 1/(96 pi Q^2); so S_c = pi r_c^2 = 6 pi Q^2 and T_c S_c = sqrt(6) Q/3 (derived here;
+    it equals G_c, since M_c = r_c/2 + 4 pi P_c r_c^3/3 + Q^2/(2 r_c) = 2 sqrt(6) Q/3)."""
+    from bhchem.analysis.figure_data import overlay_data, reduced
+    from bhchem.present.plots import PLOTTERS, plot_overlay
+    r_c, T_c, S_c = math.sqrt(6), math.sqrt(6) / (18 * math.pi), 6 * math.pi
+    TS_c = math.sqrt(6) / 3
+    gt = figure_inputs["gt"]
+    red = reduced(gt, rn)
+    assert red.reduced and red.P_c == 1.0
+    assert [p.pressure for p in red.panels] == pytest.approx([0.5, 0.8, 1.0, 1.4], rel=1e-12)
+    for p, q in zip(gt.panels, red.panels):
+        for b, c in zip(p.branches, q.branches):
+            np.testing.assert_allclose(c.curve, b.curve / [T_c, TS_c], rtol=1e-12)
+        for a, b in zip(p.preferred, q.preferred):
+            np.testing.assert_allclose(b, a / [T_c, TS_c], rtol=1e-12)
+        assert q.T_window == pytest.approx((p.T_window[0] / T_c, p.T_window[1] / T_c))
+    res = PLOTTERS["gt"](red)
+    ax = res.figure.axes[0]
+    assert (ax.get_xlabel(), ax.get_ylabel(), ax.get_title()) == ("$T/T_c$", "$G/(T_c S_c)$",
+                                                                  "$P/P_c=0.5$")
+    assert res.table.columns == ("curve", "T/T_c", "G/(T_c S_c)")
+    cp = figure_inputs["cp"]
+    red = reduced(cp, rn)
+    assert red.pressure == pytest.approx(0.5, rel=1e-12)
+    for b, c in zip(cp.branches, red.branches):
+        np.testing.assert_allclose(c.curve, b.curve / [r_c, S_c], rtol=1e-12)
+        assert c.spinodals == pytest.approx([x / r_c for x in b.spinodals], rel=1e-12)
+    res = PLOTTERS["cp"](red)
+    ax = res.figure.axes[0]
+    assert (ax.get_xlabel(), ax.get_ylabel()) == ("$r_+/r_+^{c}$", "$C_P/S_c$")
+    assert res.table.columns == ("curve", "r_plus/r_plus_c", "C_P/S_c")
+    # Q only sets the scale: in these variables the G-T and C_P curves of every Q coincide
+    for kind, opts, columns in (("gt", {"pressures": ["0.5Pc"]}, ("T/T_c", "G/(T_c S_c)")),
+                                ("cp", {"pressure": "0.5Pc"}, ("r_plus/r_plus_c", "C_P/S_c"))):
+        ov = overlay_data(rn, kind, "Q", [0.5, 2.0], reduced_units=True, **opts)
+        assert "the curves coincide" in " ".join(ov.notes), kind
+        assert plot_overlay(ov).table.columns == ("curve",) + columns
 
 
 def test_reduced_overlay_over_a_pure_scale_is_one_curve(rn):
@@ -624,3 +672,33 @@ def test_reduced_overlay_over_a_pure_scale_is_one_curve(rn):
     for ba, bb in zip(a, b):
         np.testing.assert_allclose(ba.curve, bb.curve, rtol=1e-9, atol=1e-12)
     assert "the curves coincide" in " ".join(ov.notes)
+
+
+def test_overlay_caption_says_when_the_values_differ_only_by_scale(rn):
+    """Values that differ only by a length rescaling (equal scale-free combinations) are
+    named in the caption, with the combination that stays fixed; values that change a
+    scale-free combination are not.  Under q -> lambda^n q (n the length dimension) every
+    combination q'/q^(n'/n) is unchanged: 4D charged AdS has Q alone; Kerr-Newman-AdS at Q = 0
+    keeps Q/J^(1/2) = 0; charged Gauss-Bonnet with alpha != 0 changes alpha/Q when Q moves."""
+    from bhchem.analysis.figure_data import overlay_data, scale_only_note
+    from bhchem.present.plots import plot_overlay
+    ov = overlay_data(rn, "gt", "Q", [0.5, 1.0, 2.0], pressures=["0.5Pc"])
+    (note,) = [n for n in ov.notes if "only sets the scale" in n]
+    assert note.startswith("Q only sets the scale (Q is the only dimensionful parameter)")
+    assert "in reduced variables" in note
+    fig = plot_overlay(ov).figure
+    caption = " ".join(t.get_text() for t in fig.axes[0].texts).replace("\n", " ")
+    assert "Q only sets the scale" in caption
+    kn = [bind("kerr-newman-ads", J=j, Q=0.0) for j in (0.5, 2.0)]
+    assert scale_only_note(kn, "J") == ("the scale-free combination Q/J^(1/2) = 0 is the same "
+                                        "at every value")
+    gb = [bind("gauss-bonnet-ads", d=5, alpha=0.5, Q=q) for q in (1.0, 2.0)]
+    assert scale_only_note(gb, "Q") == ""
+    assert scale_only_note([bind("rn-ads", Q=1.0, d=d) for d in (4, 5)], "d") == ""
+    # rescaled together (alpha ~ L^2 and Q ~ L^2 in d = 5) the combination alpha/Q stays
+    gb = [bind("gauss-bonnet-ads", d=5, alpha=0.5 * s, Q=s) for s in (1.0, 4.0)]
+    assert scale_only_note(gb, "Q") == ("the scale-free combination alpha/Q = 0.5 is the same "
+                                        "at every value")
+    ov = overlay_data(rn, "tr", "Q", [0.5, 2.0], reduced_units=True, pressures=["0.6Pc"])
+    assert ("the curves coincide in reduced variables: Q only sets the scale (Q is the only "
+            "dimensionful parameter)") in ov.notes

@@ -27,6 +27,11 @@ contract fix of 0.2, and nothing else:
 
 To re-record after a deliberate change of results, run ``python tests/test_golden.py``
 and say in the commit what changed and why.
+
+Re-recorded since: the ``phases`` files (issue 18), when each region gained its ``name`` --
+the name the text and the P-T figure give it (``supercritical`` for the one-branch phase
+above a critical point) -- beside ``phase``; no number changed beyond the rounding noise
+allowed above.
 """
 from __future__ import annotations
 

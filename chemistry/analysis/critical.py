@@ -1108,6 +1108,54 @@ def power_label(name: str, e) -> str:
 
 _power_label = power_label  # the name used inside this module before it was public
 
+def scale_free_key(th) -> tuple:
+    """The scale-free combinations that determine every dimensionless result (the
+    parameter atlas computes one grid point per distinct key; overlays name it).
+
+    Entries: ``('discrete', ((name, value), ...))`` for the structural parameters; per other
+    parameter with a length dimension, ``(name/ref^(n/n_ref), value / ell^n)`` with the
+    reference length ell = ref^(1/n_ref) of the first dimensionful parameter that is not
+    zero; a dimensionless one as ``(name, value)``; ``('scale', 'none')`` when no parameter
+    sets a scale.  Two bindings with equal keys differ only by a length rescaling.
+    """
+    der = th.derivation
+    dims = der.length_dimensions
+    ref = next(((nm, n) for nm, n in dims.items() if n != 0 and th.values[nm] != 0), None)
+    key = [("discrete", tuple(sorted(der.discrete.items())))]
+    for nm, n in dims.items():
+        v = float(th.values[nm])
+        if ref is None or n == 0:
+            key.append((nm, round(v, 12)))
+        elif nm != ref[0]:
+            ell = abs(float(th.values[ref[0]])) ** (1.0 / ref[1])
+            key.append((f"{nm}/{ref[0]}^({n}/{ref[1]})", float(f"{v / ell ** n:.12g}")))
+    if ref is None:
+        key.append(("scale", "none"))
+    return tuple(key)
+
+
+def scale_free_combinations(th, scale: str) -> dict:
+    """The scale-free combinations of the continuous parameters other than ``scale`` (a
+    parameter with a length dimension): ``{'mu/Q^3': 0.1}``, a dimensionless parameter
+    under its own name.  Empty when ``scale`` is the only parameter that matters."""
+    der = th.derivation
+    dims = der.length_dimensions
+    n = sp.nsimplify(dims[scale])
+    ell = abs(float(th.values[scale])) ** (1.0 / float(n))
+    out = {}
+    for other, m in dims.items():
+        if other == scale:
+            continue
+        v = float(th.values[other])
+        if m == 0:
+            out[other] = v
+        else:
+            e = sp.nsimplify(sp.nsimplify(m) / n)
+            label = f"{other}/{power_label(scale, e)}" if e > 0 else \
+                f"{other}*{power_label(scale, -e)}"
+            out[label] = v / ell ** float(m)
+    return out
+
 
 def scale_free_values(th: Thermodynamics, cp: CriticalPoint) -> dict:
     """Dimensionless combinations of the critical data, e.g. {'P_c*Q^2': 1/(96 pi)}.

@@ -34,7 +34,8 @@ import numpy as np
 from bhchem.core.compiled import bind
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError
-from bhchem.analysis.critical import loop_side, resolve_pressure, resolve_temperature
+from bhchem.analysis.critical import (loop_side, resolve_pressure, resolve_temperature,
+                                      scale_free_combinations, scale_free_key)
 from bhchem.analysis.critical_branch import find_critical_points_on_branches
 from bhchem.analysis.coexistence import coexistence_near_critical
 from bhchem.numerics import brentq, isotherm_pressure
@@ -196,6 +197,8 @@ class GtCurves(Result):
     notes: tuple = ()
     #: states excluded by a condition (ExcludedCurve, rows T, G), when asked for
     excluded: tuple = ()
+    #: in units of the critical point (T/T_c, G/(T_c S_c), P/P_c): see :func:`reduced`
+    reduced: bool = False
 
 
 @dataclass(frozen=True, eq=False)
@@ -352,6 +355,8 @@ class CpCurves(Result):
     P_c: float | None
     linthresh: float | None
     notes: tuple = ()
+    #: in units of the critical point (x/x_c, C_P/S_c, P/P_c): see :func:`reduced`
+    reduced: bool = False
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -505,8 +510,9 @@ def gt_curves(th, pressures=None, show_excluded: bool = False) -> GtCurves:
     Parameters
     ----------
     th : Thermodynamics
-    pressures : sequence of float, optional
-        Default :func:`default_pressures`.
+    pressures : sequence of float or str, optional
+        Absolute, or relative to a critical point (``'0.5Pc'``, see
+        :func:`bhchem.analysis.critical.resolve_pressure`).  Default :func:`default_pressures`.
     show_excluded : bool
         Also return the states the binding's conditions exclude (``excluded``), inside
         each panel's temperature window, to be drawn faintly and labelled by condition.
@@ -516,7 +522,8 @@ def gt_curves(th, pressures=None, show_excluded: bool = False) -> GtCurves:
     GtCurves
     """
     cp = scale_point(th)
-    pressures = pressures or default_pressures(th, cp)
+    pressures = [resolve_pressure(th, P) for P in pressures] if pressures else \
+        default_pressures(th, cp)
     panels, excluded = [], []
     for i, P in enumerate(pressures):
         panel = _gt_panel(th, P, cp)
@@ -680,10 +687,9 @@ def _regions(th, pd, Tmax, Pmax, inset: bool):
     For every phase of ``pd.regions``, isobars across its pressure range give the widest
     T interval where it is preferred (clipped to the axes, outside the inset); a name is
     written there when the interval is at least a tenth of the T axis, else pointed at
-    from free space.  A phase no line separates from another, above a critical point, is
-    named ``supercritical``."""
-    separated = {ph for line in pd.lines for ph in line.between}
-    P_crit = [cp.P for cp in pd.critical_points]
+    from free space.  The name is the diagram's (:func:`bhchem.analysis.phases.region_name`:
+    ``supercritical`` for a phase no line separates from another, above a critical point),
+    the same that ``bhchem phases`` prints."""
     cache = {}
 
     def preferred(P):
@@ -705,9 +711,7 @@ def _regions(th, pd, Tmax, Pmax, inset: bool):
         lo, hi = max(reg["P_range"][0], 0.04 * Pmax), min(reg["P_range"][1], 0.96 * Pmax)
         if not lo < hi:
             continue
-        name = ph
-        if ph not in separated and P_crit and reg["P_range"][0] >= min(P_crit) * (1 - 1e-6):
-            name = "supercritical"
+        name = reg["name"]  # the diagram's own name (phases.region_name)
         best = None
         for f in (0.5, 0.3, 0.7, 0.12, 0.88):  # ties keep the middle
             P = lo + f * (hi - lo)
@@ -762,7 +766,8 @@ def tr_curves(th, pressures=None, show_excluded: bool = False) -> TrCurves:
     TrCurves
     """
     cp = scale_point(th)
-    pressures = pressures or default_pressures(th, cp)
+    pressures = [resolve_pressure(th, P) for P in pressures] if pressures else \
+        default_pressures(th, cp)
     x_c = cp.x if cp is not None else th.typical_state()
     isobars, excluded = [], []
     low = []
@@ -805,7 +810,8 @@ def cp_curves(th, pressure=None) -> CpCurves:
     CpCurves
     """
     cp = scale_point(th)
-    P = pressure or (0.5 * cp.P if cp is not None else th.typical_pressure())
+    P = resolve_pressure(th, pressure) if pressure is not None else \
+        (0.5 * cp.P if cp is not None else th.typical_pressure())
     res = analyze_isobar(th, P)
     x_c = cp.x if cp is not None else th.typical_state()
     branches = []
@@ -933,8 +939,8 @@ def overlay_data(th, kind: str, name: str, values, reduced_units: bool = False,
     name : str
     values : sequence of float
     reduced_units : bool
-        Each member in units of its own critical point (:func:`reduced`; pv, tr, pt): values
-        that only set the scale then give one curve.
+        Each member in units of its own critical point (:func:`reduced`): values that only
+        set the scale then give one curve.
     **options
         ``temperatures`` (pv), ``pressures`` (gt, tr; one each), ``pressure`` (cp).
 
@@ -957,17 +963,42 @@ def overlay_data(th, kind: str, name: str, values, reduced_units: bool = False,
     if not 1 <= len(values) <= 8:
         raise BhchemError(f"--vary {name}: give 1 to 8 values, not {len(values)}")
     adm = th.admissibility
-    members = []
+    members, bound = [], []
     for value in values:
         member = bind(th.family, conditions=adm.set_name, without=adm.removed,
                       **{**th.values, name: value})
         data = FIGURE_DATA[kind](member, **_member_options(member, kind, options))
         members.append(reduced(data, member) if reduced_units else data)
+        bound.append(member)
     fixed = {k: v for k, v in th.values.items() if k != name}
     notes = _selection_notes(th)
+    scale = scale_only_note(bound, name)
     if reduced_units and len(members) > 1 and _coincide(members):
-        notes += (f"the curves coincide in reduced variables: {name} only sets the scale",)
+        notes += (f"the curves coincide in reduced variables: {name} only sets the scale"
+                  + (f" ({scale})" if scale else ""),)
+    elif scale:
+        notes += (f"{name} only sets the scale ({scale}): in reduced variables "
+                  f"(--reduced, reduced_units=True) the curves coincide",)
     return OverlayData(th.family.name, fixed, kind, name, values, tuple(members), notes)
+
+
+def scale_only_note(bound, name: str) -> str:
+    """When the bindings ``bound`` (one per value of the parameter ``name``) differ only by
+    scale -- equal :func:`~bhchem.analysis.critical.scale_free_key`, so every scale-free
+    combination is the same at every value -- what stays fixed, named: ``'the scale-free
+    combination mu/Q^3 = 0 is the same at every value'`` (or ``'Q is the only dimensionful
+    parameter'``); else ``''``."""
+    if len(bound) < 2 or bound[0].derivation.length_dimensions.get(name, 0) == 0:
+        return ""
+    keys = [scale_free_key(b) for b in bound]
+    if any(k != keys[0] for k in keys[1:]):
+        return ""
+    combos = scale_free_combinations(bound[0], name)
+    if not combos:
+        return f"{name} is the only dimensionful parameter"
+    listed = ", ".join(f"{k} = {v:.6g}" for k, v in combos.items())
+    return (f"the scale-free combination{'s' if len(combos) > 1 else ''} {listed} "
+            f"{'are' if len(combos) > 1 else 'is'} the same at every value")
 
 
 def _curves(data) -> list:
@@ -977,6 +1008,11 @@ def _curves(data) -> list:
         return [b.curve for iso in data.isobars for b in iso]
     if isinstance(data, PtDiagram):
         return [ln.points for ln in data.lines]
+    if isinstance(data, GtCurves):
+        return [b.curve for p in data.panels for b in p.branches] + \
+            [seg for p in data.panels for seg in p.preferred]
+    if isinstance(data, CpCurves):
+        return [b.curve for b in data.branches]
     return []
 
 
@@ -1015,15 +1051,35 @@ def _member_options(th, kind: str, options: dict) -> dict:
 
 # -- reduced variables ----------------------------------------------------------------------
 def reduced(data, th=None):
-    """The same figure data in units of the critical point: v/v_c, P/P_c, T/T_c (and
-    x/x_c for T-r+ curves).  For ``pv`` and ``tr`` the critical point is the data's own;
-    for ``pt`` the scale critical point of ``th`` (see :func:`scale_point`).
+    """The same figure data in units of the critical point, every axis scale-free:
+
+    ======  ==========================================================================
+    kind    axes (and the pressures or temperatures that label the curves)
+    ======  ==========================================================================
+    pv      v/v_c, P/P_c (T/T_c)
+    tr      x/x_c, T/T_c (P/P_c)
+    pt      T/T_c, P/P_c
+    gt      T/T_c, G/(T_c S_c) (P/P_c): G = M - TS in units of T_c S_c, the product of
+            the critical temperature and the entropy there (the dimension of G, and
+            positive for every black hole, where G_c itself can be near zero or change
+            sign along a coupling: 0.29 against T_c S_c = 3.4 for 5D Gauss-Bonnet at
+            alpha = 0.1, Q = 1).  For 4D charged AdS T_c S_c = G_c = sqrt(6) Q/3.  The
+            sign and zero of G are kept, so the background G = 0 and the crossings stay
+            where they are
+    cp      x/x_c, C_P/S_c (P/P_c): C_P = T (dS/dT)_P in units of the entropy at the
+            critical point (C_P has the dimension of S)
+    ======  ==========================================================================
+
+    This is how papers draw families whose parameters only set the scale: in these
+    variables the curves of every value coincide (e.g. Kubiznak & Mann, JHEP 07 (2012)
+    033, for 4D charged AdS).  For ``pv`` and ``tr`` the critical point is the data's own;
+    for ``pt``, ``gt`` and ``cp`` the scale critical point of ``th`` (see :func:`scale_point`).
 
     Parameters
     ----------
-    data : PvCurves, TrCurves or PtDiagram
+    data : PvCurves, TrCurves, PtDiagram, GtCurves or CpCurves
     th : Thermodynamics, optional
-        Needed for a PtDiagram.
+        Needed for a PtDiagram, GtCurves and CpCurves.
 
     Returns
     -------
@@ -1032,7 +1088,8 @@ def reduced(data, th=None):
     Raises
     ------
     BhchemError
-        Without a critical point to reduce by, or for another kind of data.
+        Without a critical point to reduce by (for gt also when T_c S_c is not positive), or for another
+        kind of data.
     """
     if isinstance(data, PvCurves):
         if data.critical_point is None or data.T_c is None:
@@ -1077,5 +1134,43 @@ def reduced(data, th=None):
             inset_box=None if box is None else (box[0] / Tc, box[1] / Tc, box[2] / Pc,
                                                 box[3] / Pc),
             reduced=True)
-    raise BhchemError(f"reduced variables are drawn for pv, tr and pt figures, not "
+    if isinstance(data, GtCurves):
+        cp = _reducing_point(th)
+        Tc, Pc = cp.T, cp.P
+        Gc = Tc * float(th.S(cp.x, cp.P))
+        if not (np.isfinite(Gc) and Gc > 0):
+            raise BhchemError("reduced G-T figures draw G/(T_c S_c); T_c S_c at the critical "
+                              f"point is {Gc:g}, so there is no scale to divide by")
+        sc = np.array([Tc, Gc])
+        panels = tuple(replace(
+            p, pressure=p.pressure / Pc,
+            branches=tuple(replace(b, curve=b.curve / sc) for b in p.branches),
+            preferred=tuple(seg / sc for seg in p.preferred),
+            transitions=np.asarray(p.transitions, float).reshape(-1, 2) / sc,
+            T_window=(p.T_window[0] / Tc, p.T_window[1] / Tc),
+            G_window=None if p.G_window is None else (p.G_window[0] / Gc, p.G_window[1] / Gc))
+            for p in data.panels)
+        return replace(data, panels=panels, P_c=1.0,
+                       excluded=tuple(replace(e, curve=e.curve / sc) for e in data.excluded),
+                       reduced=True)
+    if isinstance(data, CpCurves):
+        cp = _reducing_point(th)
+        Sc = float(th.S(cp.x, cp.P))
+        sc = np.array([cp.x, Sc])
+        return replace(data, pressure=data.pressure / cp.P, P_c=1.0,
+                       branches=tuple(replace(b, curve=b.curve / sc,
+                                              spinodals=tuple(x / cp.x for x in b.spinodals))
+                                      for b in data.branches),
+                       linthresh=None if data.linthresh is None else data.linthresh / Sc,
+                       reduced=True)
+    raise BhchemError(f"reduced variables are drawn for pv, tr, pt, gt and cp figures, not "
                       f"{type(data).__name__}")
+
+
+def _reducing_point(th):
+    """The scale critical point of ``th`` (:func:`scale_point`), or a BhchemError."""
+    cp = scale_point(th) if th is not None else None
+    if cp is None:
+        raise BhchemError("reduced variables need a critical point; this family has "
+                          "none at these parameters")
+    return cp

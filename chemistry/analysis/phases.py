@@ -197,6 +197,8 @@ class PhaseDiagram(Result):
     lines: list
     critical_points: tuple
     triple_points: list
+    #: one dict per preferred phase: ``phase`` (the isobars' label), ``name`` (what text and
+    #: figures call the region, see :func:`region_name`), ``P_range``, ``sample``
     regions: list
     graph: nx.MultiGraph
     structure: str
@@ -1136,6 +1138,9 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
     emit(flagged)
     iso_list = [isos[P] for P in anchors if isos[P] is not None]
     regions = _regions([iso.pressure for iso in iso_list], iso_list)
+    separated = {ph for line in lines for ph in line.between}
+    for r in regions:
+        r["name"] = region_name(r["phase"], r["P_range"], separated, cps)
     graph = build_graph(lines, cps, triple_points, regions, th.family.background_name
                         if th.has("G_background") else None)
     structure = structure_signature(graph, cps, lines)
@@ -1494,6 +1499,32 @@ def _line_checks(pts: list[CoexistencePoint]) -> dict:
             "max_clapeyron_residual": mx([p.clapeyron_residual for p in pts]),
             "n_points": len(pts)}
 
+
+
+def region_name(phase: str, P_range, separated, critical_points) -> str:
+    """What a region of the phase diagram is called, in the text and the figures alike.
+
+    A phase that no line separates from another and that lies above a critical point
+    (its lowest pressure at or above the lowest critical pressure) is the continuation of
+    the phases that meet there, so it is called ``'supercritical'`` (an isobar there has one
+    branch, which the isobar analysis labels ``'black hole'`` or ``'fluid'``); every other
+    region keeps its phase's name.
+
+    Parameters
+    ----------
+    phase : str
+        The phase preferred in the region (as the isobars label it).
+    P_range : (float, float)
+        Pressures over which it is preferred.
+    separated : set of str
+        Phases that some line of the diagram separates from another.
+    critical_points : sequence of CriticalPoint
+        The diagram's critical points.
+    """
+    P_crit = [cp.P for cp in critical_points]
+    if phase not in separated and P_crit and P_range[0] >= min(P_crit) * (1 - 1e-6):
+        return "supercritical"
+    return phase
 
 
 def _regions(anchors, isobars) -> list:

@@ -27,6 +27,7 @@ from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import phase_diagram
 from bhchem.present.phase_text import diagram_json, diagram_text, isobar_json, isobar_text
 from bhchem.present.plots import save, table_path
+from bhchem.present.progress import progress_display
 from bhchem.workflows.figures import adjust_check, compare_figure, make_figure, parse_vary
 from bhchem.analysis.ensembles import compare_ensembles
 from bhchem.present.ensemble_report import compare_json, compare_text
@@ -216,17 +217,10 @@ def cmd_phases(args) -> int:
 
 
 def _progress(args, what):
-    """A progress callback on stderr when it is a terminal (silent with --quiet)."""
-    if getattr(args, "quiet", False) or not sys.stderr.isatty():
-        return None
-
-    def show(done, total):
-        if done is None:
-            sys.stderr.write("\r" + " " * 60 + "\r")
-        else:
-            sys.stderr.write(f"\r{what}: {done}/{total}")
-        sys.stderr.flush()
-    return show
+    """A progress callback (:func:`bhchem.present.progress.progress_display`): a line on
+    stderr when it is a terminal, a bar in a notebook; None when silent (``--quiet``)."""
+    bar = progress_display(what, quiet=getattr(args, "quiet", False))
+    return None if bar.kind == "none" else bar
 
 
 def _note(line: str) -> None:
@@ -453,7 +447,8 @@ def build_parser() -> argparse.ArgumentParser:
                         "NAME=START:STOP:N); relative T and P (0.9Tc, 0.5Pc) at each value's "
                         "own critical point")
     p.add_argument("--reduced", action="store_true",
-                   help="pv, tr, pt: in units of the critical point (v/v_c, P/P_c, T/T_c)")
+                   help="in units of the critical point: v/v_c, P/P_c, T/T_c, r/r_c; "
+                        "G/(T_c S_c) (gt) and C_P/S_c (cp)")
     p.add_argument("--xlim", metavar="A:B", help="x-axis range of every panel")
     p.add_argument("--ylim", metavar="A:B", help="y-axis range of every panel")
     p.add_argument("--width", metavar="column|page|INCHES",

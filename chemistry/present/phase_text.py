@@ -141,7 +141,7 @@ def diagram_text(pd: PhaseDiagram) -> str:
             out.append("    checks: " + ", ".join(
                 f"{k} = {v:.1e}" if isinstance(v, float) else f"{k} = {v}"
                 for k, v in line.checks.items() if v is not None))
-    out.append("  regions: " + ", ".join(r["phase"] for r in pd.regions))
+    out.append("  regions: " + ", ".join(r["name"] for r in pd.regions))
     out.append(f"  distinct phases: {pd.n_distinct_phases}; structure: {pd.structure}")
     if pd.exclusions is not None and pd.exclusions.conditions:
         out.append("  excluded states (by condition, over the pressure range):")

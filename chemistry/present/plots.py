@@ -21,6 +21,7 @@ import csv
 import html
 import io
 import math
+import textwrap
 import os
 from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
@@ -112,7 +113,11 @@ class PlotResult(Result):
             self.figure.savefig(buf, format="png", dpi=100)
         img = base64.b64encode(buf.getvalue()).decode("ascii")
         notes = "".join(f"<br>{html.escape(n)}" for n in self.notes)
-        return f"<div><img src='data:image/png;base64,{img}'>{notes}</div>"
+        sup = getattr(self.figure, "get_suptitle", None)
+        title = (sup() if sup else "") or \
+            next((t for a in self.figure.axes if (t := a.get_title())), "")
+        alt = html.escape(f"{self.kind} figure" + (f": {title}" if title else ""), quote=True)
+        return f"<div><img src='data:image/png;base64,{img}' alt='{alt}'>{notes}</div>"
 
 
 #: units of every figure table
@@ -136,6 +141,8 @@ COLUMN_MEANING = {
     "r_plus/r_plus_c": "horizon radius over its value at the critical point",
     "P/P_c": "pressure over the critical pressure",
     "v/v_c": "specific volume over the critical one",
+    "G/(T_c S_c)": "Gibbs free energy over T_c S_c (critical temperature times the entropy there)",
+    "C_P/S_c": "heat capacity at constant pressure over the entropy at the critical point",
     "jump_scaled": "jump (large minus small) divided by its largest magnitude",
 }
 
@@ -508,6 +515,7 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
     for e in data.excluded:
         drawn[f"P{e.panel}_excluded_{e.condition}"] = e.curve
     _check_nonempty({k: v[:, 1] for k, v in drawn.items()}, "G-T isobars")
+    red = getattr(data, "reduced", False)
     cols = 2 if n > 1 else 1
     rows = math.ceil(n / cols)
     from matplotlib.lines import Line2D  # lazy: matplotlib only when a figure is drawn
@@ -540,8 +548,8 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
             a.xaxis.set_major_locator(MaxNLocator(4))
             P = p.pressure
             a.set_title(f"$P/P_c={P / data.P_c:.3g}$" if data.P_c is not None else f"$P={P:.3g}$")
-            a.set_xlabel(r"$T$")
-            a.set_ylabel(r"$G$")
+            a.set_xlabel(r"$T/T_c$" if red else r"$T$")
+            a.set_ylabel(r"$G/(T_c S_c)$" if red else r"$G$")
         handles = [Line2D([], [], color=PALETTE[0], lw=2.4, label="globally preferred"),
                    Line2D([], [], color=STABLE_GREY, ls="--", lw=0.9, label="metastable"),
                    Line2D([], [], color=UNSTABLE_GREY, ls=":", label="unstable ($C_P<0$)")]
@@ -559,7 +567,8 @@ def plot_gt(data: GtCurves, ax=None) -> PlotResult:
             grid[n - 1].legend(handles=handles, loc="best")
     labels = {f"P{i}_preferred": _value_label("P", p.pressure, data.P_c)
               for i, p in enumerate(panels)}
-    return PlotResult(fig, "gt", drawn, list(data.notes), labels=labels)
+    return PlotResult(fig, "gt", drawn, list(data.notes), labels=labels,
+                      columns=("T/T_c", "G/(T_c S_c)") if red else ())
 
 
 # -- P-T phase diagram -----------------------------------------------------------------------
@@ -770,12 +779,16 @@ def plot_cp(data: CpCurves, ax=None) -> PlotResult:
                 ax.axvline(x, color=PALETTE[1], lw=0.7, ls="--")
         _asinh_axis(ax, data.linthresh, [b.curve[:, 1] for b in data.branches])
         ax.axhline(0, color="black", lw=0.5)
-        ax.set_xlabel(r"$r_+$" if data.state == "r" else data.state)
-        ax.set_ylabel(r"$C_P$")
+        red = getattr(data, "reduced", False)
+        x = _state_label(data.state)
+        ax.set_xlabel(rf"${x}/{x}^{{c}}$" if red else rf"${x}$")
+        ax.set_ylabel(r"$C_P/S_c$" if red else r"$C_P$")
         P = data.pressure
         lbl = f"$P/P_c={P / data.P_c:.3g}$" if data.P_c is not None else f"$P={P:.3g}$"
         ax.set_title(figure_title(data, f", {lbl}; dashed: spinodals"))
-    return PlotResult(fig, "cp", drawn, list(data.notes), columns=(_column(data.state), "C_P"),
+    columns = (_column(data.state) + "/" + _column(data.state) + "_c", "C_P/S_c") if red else \
+        (_column(data.state), "C_P")
+    return PlotResult(fig, "cp", drawn, list(data.notes), columns=columns,
                       labels={k: _value_label("P", data.pressure, data.P_c) for k in drawn})
 
 
@@ -915,8 +928,8 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
             win = [w for w in lims if w is not None]
             if win:
                 ax.set_ylim(min(w[0] for w in win), max(w[1] for w in win))
-            ax.set_xlabel(r"temperature $T$")
-            ax.set_ylabel(r"Gibbs free energy $G$")
+            ax.set_xlabel(r"$T/T_c$" if red else r"temperature $T$")
+            ax.set_ylabel(r"$G/(T_c S_c)$" if red else r"Gibbs free energy $G$")
             handles += [Line2D([], [], color="0.3", lw=2.2, label="globally preferred"),
                         Line2D([], [], color="0.3", lw=0.7, ls=":", label="unstable ($C_P<0$)")]
         elif kind == "pt":
@@ -949,18 +962,21 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
             _asinh_axis(ax, min(th_) if th_ else 1.0,
                         [np.asarray(v, float)[:, 1] for v in drawn.values()])
             ax.axhline(0, color="black", lw=0.5)
-            ax.set_xlabel(rf"${_state_label(state)}$")
-            ax.set_ylabel(r"$C_P$")
+            x = _state_label(state)
+            ax.set_xlabel(rf"${x}/{x}^{{c}}$" if red else rf"${x}$")
+            ax.set_ylabel(r"$C_P/S_c$" if red else r"$C_P$")
         sel = "".join(f"; {n}" for n in data.notes if n.startswith("states:"))
-        same = [n for n in data.notes if n.startswith("the curves coincide")]
+        same = [n for n in data.notes if "only sets the scale" in n]
         if same:  # the scale-free statement, under the plane
-            ax.text(0.0, -0.2, same[0], transform=ax.transAxes, fontsize=8, va="top")
+            ax.text(0.0, -0.2, textwrap.fill(same[0], 90), transform=ax.transAxes,
+                    fontsize=7, va="top")
         ax.set_title(f"{data.family} ({fixed}{', ' if fixed else ''}{data.name} varied){sel}")
         ax.legend(handles=handles, loc="best")  # inside, where the curves leave room
     columns = {"tr": (_column(state), "T"), "cp": (_column(state), "C_P")}.get(kind, ())
     if red:
-        columns = {"pv": ("v/v_c", "P/P_c"), "pt": ("T/T_c", "P/P_c"),
-                   "tr": (_column(state) + "/" + _column(state) + "_c", "T/T_c")}[kind]
+        xc = _column(state) + "/" + _column(state) + "_c"
+        columns = {"pv": ("v/v_c", "P/P_c"), "pt": ("T/T_c", "P/P_c"), "tr": (xc, "T/T_c"),
+                   "gt": ("T/T_c", "G/(T_c S_c)"), "cp": (xc, "C_P/S_c")}[kind]
     return PlotResult(fig, kind, drawn, list(data.notes), columns=columns, labels=labels)
 
 

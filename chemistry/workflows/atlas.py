@@ -63,7 +63,6 @@ import os
 import signal
 import sys
 import warnings
-import time
 from dataclasses import dataclass, replace
 
 import networkx as nx
@@ -72,7 +71,7 @@ import numpy as np
 from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures import as_completed as futures_as_completed
 
-from bhchem.analysis.critical import find_critical_points
+from bhchem.analysis.critical import find_critical_points, scale_free_key
 from bhchem.analysis.phases import phase_diagram
 from bhchem.analysis.events import EventCurve
 from bhchem.analysis.structure_events import structure_events
@@ -83,6 +82,7 @@ from bhchem.fileio import atomic_write, fault_point
 from bhchem.version import __version__
 from bhchem.workflows.report import dumps
 from bhchem.present.plots import PlotResult, save
+from bhchem.present.progress import progress_display
 from bhchem.present.style import PALETTE, styled
 
 CHUNK_SIZE = 8
@@ -154,24 +154,6 @@ def _family(family_name, family_file):
     if family_file:
         load_family_file(family_file)
     return get_family(family_name)
-
-
-def scale_free_key(th) -> tuple:
-    """The scale-free combinations that determine every dimensionless result."""
-    der = th.derivation
-    dims = der.length_dimensions
-    ref = next(((nm, n) for nm, n in dims.items() if n != 0 and th.values[nm] != 0), None)
-    key = [("discrete", tuple(sorted(der.discrete.items())))]
-    for nm, n in dims.items():
-        v = float(th.values[nm])
-        if ref is None or n == 0:
-            key.append((nm, round(v, 12)))
-        elif nm != ref[0]:
-            ell = abs(float(th.values[ref[0]])) ** (1.0 / ref[1])
-            key.append((f"{nm}/{ref[0]}^({n}/{ref[1]})", float(f"{v / ell ** n:.12g}")))
-    if ref is None:
-        key.append(("scale", "none"))
-    return tuple(key)
 
 
 def analyse_point(family_name, family_file, params: dict, admissible=(None, ())) -> dict:
@@ -293,28 +275,6 @@ def _atomic_write(path, text):
 
 def _dumps(obj) -> str:
     return dumps(obj)
-
-
-class _Progress:
-    def __init__(self, total, quiet):
-        self.total, self.done = total, 0
-        self.quiet = quiet or not sys.stderr.isatty()
-        self.t0 = time.perf_counter()
-
-    def add(self, n):
-        self.done += n
-        if self.quiet:
-            return
-        dt = time.perf_counter() - self.t0
-        rate = self.done / dt if dt > 0 else 0.0
-        eta = (self.total - self.done) / rate if rate > 0 else float("inf")
-        sys.stderr.write(f"\rscan: {self.done}/{self.total} points, {rate:.2f}/s, "
-                         f"ETA {eta:.0f} s   ")
-        sys.stderr.flush()
-
-    def close(self):
-        if not self.quiet:
-            sys.stderr.write("\n")
 
 
 #: Linux prctl option: the signal a process gets when its parent dies
@@ -492,8 +452,8 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
             else:
                 loaded[i] = rows
     missing = [i for i in range(len(chunks)) if i not in loaded]
-    progress = _Progress(len(rep_points), quiet)
-    progress.add(sum(len(chunks[i]) for i in range(len(chunks)) if i not in set(missing)))
+    progress = progress_display("scan", len(rep_points), unit="points", quiet=quiet)
+    progress.advance(sum(len(chunks[i]) for i in range(len(chunks)) if i not in set(missing)))
     # one pool for the whole run: chunks and boundary refinement; a caller's executor is
     # used as given and never shut down here
     own = None
@@ -507,7 +467,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                 rows = run_chunk(family_name, family_file, fixed, chunks[i], admissible)
                 record(i, rows)
                 loaded[i] = json.loads(_dumps(rows))
-                progress.add(len(rows))
+                progress.advance(len(rows))
                 written += 1
                 if stop_after_chunks is not None and written >= stop_after_chunks:
                     save_checksums()
@@ -523,7 +483,7 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                 rows = f.result()
                 record(i, rows)
                 loaded[i] = json.loads(_dumps(rows))
-                progress.add(len(rows))
+                progress.advance(len(rows))
                 written += 1
                 if stop_after_chunks is not None and written >= stop_after_chunks:
                     for g in futs:

@@ -80,8 +80,8 @@ def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None, vary=N
         ``'a=0:1:3'``; see :func:`bhchem.analysis.figure_data.overlay_data` for what each
         kind draws per value).
     reduced_units : bool
-        Draw in units of the critical point: v/v_c, P/P_c, T/T_c (pv, tr, pt; see
-        :func:`bhchem.analysis.figure_data.reduced`).
+        Draw in units of the critical point: v/v_c, P/P_c, T/T_c, x/x_c, G/(T_c S_c), C_P/S_c
+        (see :func:`bhchem.analysis.figure_data.reduced`).
     width : 'column', 'page' or float, optional
         Figure width in inches (a journal column 3.4, a page 7.0); see
         :func:`bhchem.present.plots.adjust`.
@@ -102,8 +102,6 @@ def make_figure(th, kind: str, ax=None, xlim=None, ylim=None, width=None, vary=N
     if kind not in FIGURE_DATA:
         raise BhchemError(f"unknown plot kind {kind!r}; choose one of {', '.join(KINDS)}")
     adjust_check(xlim, ylim, width)  # a bad range or width is refused before computing
-    if reduced_units and kind not in ("pv", "tr", "pt"):
-        raise BhchemError(f"reduced variables are drawn for pv, tr and pt figures, not {kind}")
     if vary is not None:
         name, values = parse_vary(vary)
         res = plot_overlay(overlay_data(th, kind, name, values, reduced_units=reduced_units,
