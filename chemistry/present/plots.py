@@ -35,7 +35,7 @@ from bhchem.analysis.figure_data import (FIGURE_KINDS, INSET_AXES, CpCurves, GtC
                                          OverlayData, PtDiagram, PvCurves, TrCurves)
 from bhchem.present.style import (LINE_COLOR, LINE_STYLE, PALETTE, STABLE_GREY, STYLE,
                                   UNSTABLE_GREY, FigureFactory, figure_title, rc_style,
-                                  styled)
+                                  styled, symbol_tex)
 
 KINDS = FIGURE_KINDS
 
@@ -838,7 +838,7 @@ def plot_overlay(data: OverlayData, ax=None) -> PlotResult:
         for j, (value, m) in enumerate(zip(data.values, data.members)):
             st = value_style(j)
             tag = f"{data.name}={value:g}"
-            text = f"${data.name} = {value:g}$"
+            text = f"${symbol_tex(data.name)} = {value:g}$"
 
             def put(key, arr, what=""):
                 drawn[f"{tag}/{key}"] = arr

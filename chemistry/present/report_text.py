@@ -6,6 +6,9 @@ from __future__ import annotations
 import math
 import re
 
+from bhchem.present.style import symbol_tex
+
+
 def tex_math_number(x, digits: int) -> str:
     """The body of a math-mode number to ``digits`` significant digits, without dollars:
     ``1.23\\times10^{-4}``, ``0.5`` (never the text form ``1.23e-04``)."""
@@ -37,15 +40,6 @@ def _tex_escape(s: str) -> str:
             .replace("%", r"\%").replace("#", r"\#"))
 
 
-def _tex_symbol(name: str) -> str:
-    """A parameter name in math mode: one letter stays italic (``Q``), a longer name is
-    upright (``\\mathrm{alpha}``), so a coupling named alpha is never typeset like the
-    exponent $\\alpha$."""
-    base, sep, sub = name.partition("_")
-    body = base if len(base) <= 1 else f"\\mathrm{{{base}}}"
-    return f"{body}_{{{sub}}}" if sep else body
-
-
 #: the definitions of the critical exponents (t = T/T_c - 1), as in Kubiznak & Mann,
 #: JHEP 07 (2012) 033 (arXiv:1205.0559), Sec. 3
 EXPONENT_DEFINITIONS = {
@@ -74,7 +68,7 @@ def tables_tex(doc: dict, digits: int = 6, include_unphysical: bool = False) -> 
         ``results.json`` and ``report.md``.
     """
     fam = doc["family"]["name"]
-    params = ", ".join(f"${_tex_symbol(k)} = {tex_math_number(v['value'], 6)}$"
+    params = ", ".join(f"${symbol_tex(k)} = {tex_math_number(v['value'], 6)}$"
                        for k, v in doc["parameters"].items())
     every = list(enumerate(doc["critical"]["critical_points"], 1))
     cps = [(i, cp) for i, cp in every if include_unphysical or cp["physical"]]
@@ -154,7 +148,7 @@ def _frac(s):
 
 def _latex_key(k: str) -> str:
     """A scale-free key for math mode: 'P_c*Q^2' -> 'P_c\\,Q^{2}', 'T_c*alpha^(1/2)' ->
-    'T_c\\,\\mathrm{alpha}^{1/2}' (a multi-letter parameter upright, see _tex_symbol)."""
+    'T_c\\,\\mathrm{alpha}^{1/2}' (a multi-letter parameter upright, see present.style.symbol_tex)."""
     k = re.sub(r"(?<![A-Za-z_])([A-Za-z]{2,}[0-9]*)(?![A-Za-z_0-9])",
                lambda m: f"\\mathrm{{{m.group(1)}}}", k)
     k = k.replace("*", r"\,")

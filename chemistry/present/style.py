@@ -112,3 +112,19 @@ def figure_title(source, extra: str = "") -> str:
         name, values = family.name, source.values
     params = ", ".join(f"{k}={v:g}" for k, v in values.items())
     return f"{name} ({params}){extra}"
+
+
+
+def symbol_tex(name: str) -> str:
+    """A parameter name in math mode (figures and LaTeX tables alike): one letter stays
+    italic (``Q``), a longer name is upright (``\\mathrm{alpha}``), so a coupling named alpha
+    is never typeset like the critical exponent alpha, nor as a product of five letters.
+
+    Examples
+    --------
+    >>> print(symbol_tex("Q"), symbol_tex("alpha"), symbol_tex("Phi_Q"))
+    Q \\mathrm{alpha} \\mathrm{Phi}_{Q}
+    """
+    base, sep, sub = name.partition("_")
+    body = base if len(base) <= 1 else f"\\mathrm{{{base}}}"
+    return f"{body}_{{{sub}}}" if sep else body
