@@ -17,3 +17,11 @@ _SESSION_CACHE = "BHCHEM_TEST_SESSION_CACHE_DIR"
 if not (os.environ.get("PYTEST_XDIST_WORKER") and os.path.isdir(os.environ.get(_SESSION_CACHE, ""))):
     os.environ[_SESSION_CACHE] = tempfile.mkdtemp(prefix="bhchem-test-cache-")
 os.environ["BHCHEM_CACHE_DIR"] = os.environ[_SESSION_CACHE]
+
+
+def pytest_collection_modifyitems(config, items):
+    """Tests marked ``slow`` run first (otherwise in their usual order).  With pytest-xdist's
+    ``--dist worksteal`` (pyproject addopts) an idle worker takes queued tests from the other's
+    tail, so the two workers end on short tests and finish together, instead of one of
+    them starting a long test when the other has nothing left."""
+    items.sort(key=lambda item: item.get_closest_marker("slow") is None)

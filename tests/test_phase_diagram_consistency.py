@@ -70,6 +70,7 @@ def _diagram(name):
 
 
 @pytest.mark.parametrize("name", FAMILIES)
+@pytest.mark.slow
 def test_isobars_are_the_lines_that_cross_them(name):
     th, pd = _diagram(name)
     lo, hi = pd.pressure_range
@@ -92,6 +93,7 @@ def test_isobars_are_the_lines_that_cross_them(name):
 
 
 @pytest.mark.parametrize("name", FAMILIES)
+@pytest.mark.slow
 def test_every_line_end_is_explained_and_reached(name):
     th, pd = _diagram(name)
     assert not structure_warnings(pd), pd.warnings
