@@ -10,12 +10,16 @@ code therefore misses the cache; nothing stale is ever served.
 
 A cache file holds the pickled :class:`~bhchem.core.derive.Derivation` without its
 family (the live family object is attached on load) and the full key text, which is
-compared on load.  A file that is unreadable, damaged or of another key is ignored and
-rewritten.  Writes are atomic (temporary file, then rename), so a reader never sees half
-a file.  The folder is ``$BHCHEM_CACHE_DIR``, else ``$XDG_CACHE_HOME/bhchem``, else
-``~/.cache/bhchem``; ``BHCHEM_CACHE_DIR=off`` switches the cache off.  It keeps at most
-:data:`MAX_ENTRIES` files (the oldest are removed).  The cache only saves time: a
-folder that cannot be written is skipped and the derivation is done in memory.
+compared on load.  Facts computed from a derivation alone (its symbolic first-law proof,
+seconds of sympy in every new process) are kept the same way in ``note-*`` files
+(:func:`load_note`, :func:`store_note`), keyed by the derivation's key, the fact's name and
+the source text of the module that computes it.  A file that is unreadable, damaged or of
+another key is ignored and rewritten.  Writes are atomic (temporary file, then rename), so
+a reader never sees half a file.  The folder is ``$BHCHEM_CACHE_DIR``, else
+``$XDG_CACHE_HOME/bhchem``, else ``~/.cache/bhchem``; ``BHCHEM_CACHE_DIR=off`` switches the
+cache off.  It keeps at most :data:`MAX_ENTRIES` derivation files and as many note files
+(the oldest are removed).  The cache only saves time: a folder that cannot be written is
+skipped and the derivation is done in memory.
 """
 from __future__ import annotations
 
@@ -81,8 +85,8 @@ def cache_key(family, discrete: dict) -> str:
         f"discrete {sorted(discrete.items())!r}", f"family {_fingerprint(family)}"])
 
 
-def _path(folder: Path, key: str) -> Path:
-    return folder / f"derivation-{hashlib.sha256(key.encode()).hexdigest()[:40]}.pickle"
+def _path(folder: Path, key: str, kind: str = "derivation") -> Path:
+    return folder / f"{kind}-{hashlib.sha256(key.encode()).hexdigest()[:40]}.pickle"
 
 
 def load(family, discrete: dict):
@@ -125,8 +129,63 @@ def store(derivation, discrete: dict) -> bool:
         return False
 
 
-def _prune(folder: Path) -> None:
-    files = sorted(folder.glob("derivation-*.pickle"), key=lambda p: p.stat().st_mtime)
+def _note_key(derivation, name: str, code: tuple) -> str:
+    """The key text of a fact ``name`` about a derivation, computed by the modules ``code``."""
+    h = hashlib.sha256()
+    for rel in code:
+        try:
+            h.update((_PACKAGE_DIR / rel).read_bytes())
+        except OSError:  # pragma: no cover - an unusual install; key on the name only
+            h.update(rel.encode())
+    return "\n".join([cache_key(derivation.family, dict(derivation.discrete)),
+                      f"note {name}", f"note code {h.hexdigest()}"])
+
+
+def load_note(derivation, name: str, code: tuple = ()):
+    """A fact about ``derivation`` stored by :func:`store_note` (e.g. its first-law proof),
+    or None.  ``code`` names the modules (relative to the package, like
+    ``"core/checks.py"``) that compute the fact, besides the deriving ones: the key covers
+    their source text, so an edited check misses the cache."""
+    folder = cache_dir()
+    if folder is None or derivation.family is None:
+        return None
+    try:
+        key = _note_key(derivation, name, code)
+        with open(_path(folder, key, "note"), "rb") as fh:
+            stored = pickle.load(fh)
+        if not isinstance(stored, dict) or stored.get("key") != key:
+            return None
+        return stored["note"]
+    except Exception:  # missing, damaged, written by another version: compute again
+        return None
+
+
+def store_note(derivation, name: str, value, code: tuple = ()) -> bool:
+    """Store a picklable fact about ``derivation`` (atomically, like a derivation); False
+    when it could not be written."""
+    folder = cache_dir()
+    if folder is None or derivation.family is None:
+        return False
+    try:
+        key = _note_key(derivation, name, code)
+        folder.mkdir(parents=True, exist_ok=True)
+        data = pickle.dumps({"key": key, "note": value}, protocol=pickle.HIGHEST_PROTOCOL)
+        fd, tmp = tempfile.mkstemp(prefix=".note-", suffix=".tmp", dir=folder)
+        try:
+            with os.fdopen(fd, "wb") as fh:
+                fh.write(data)
+            os.replace(tmp, _path(folder, key, "note"))
+        except BaseException:
+            os.unlink(tmp)
+            raise
+        _prune(folder, "note")
+        return True
+    except Exception:  # read-only home, full disk: no cache
+        return False
+
+
+def _prune(folder: Path, kind: str = "derivation") -> None:
+    files = sorted(folder.glob(f"{kind}-*.pickle"), key=lambda p: p.stat().st_mtime)
     for old in files[: max(0, len(files) - MAX_ENTRIES)]:
         try:
             old.unlink()
