@@ -207,17 +207,11 @@ def true_runs(mask) -> list[tuple[int, int]]:
     [(1, 2), (4, 4)]
     """
     mask = np.asarray(mask, dtype=bool)
-    runs, n, i = [], len(mask), 0
-    while i < n:
-        if not mask[i]:
-            i += 1
-            continue
-        j = i
-        while j + 1 < n and mask[j + 1]:
-            j += 1
-        runs.append((i, j))
-        i = j + 1
-    return runs
+    # a run starts where the mask steps up and ends where it steps down (padded with False)
+    steps = np.diff(np.concatenate(([False], mask, [False])).astype(np.int8))
+    starts = np.flatnonzero(steps == 1)
+    ends = np.flatnonzero(steps == -1) - 1
+    return [(int(i), int(j)) for i, j in zip(starts, ends)]
 
 
 def spinodal_pressure(th, x, P0, iters: int = 60, rtol: float = 1e-15) -> np.ndarray:

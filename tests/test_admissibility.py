@@ -242,6 +242,7 @@ def _transition_independent(P: float, x_small: float, x_large: float):
     return float(T(x1)), float(x1), float(x2)
 
 
+@pytest.mark.slow
 def test_dkkm_two_first_order_lines_end_at_the_isolated_critical_point():
     th = bind("lovelock3-ads", conditions="thermodynamic", **FINE)
     (cp,) = find_critical_points(th).physical

@@ -197,6 +197,7 @@ def _results(th):
     ]
 
 
+@pytest.mark.slow
 def test_every_result_has_a_short_repr_and_a_strict_json_dict(rn):
     kinds = set()
     for res in _results(rn):

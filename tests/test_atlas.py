@@ -34,6 +34,7 @@ def _csv(folder):
     return (folder / "atlas.csv").read_text()
 
 
+@pytest.mark.slow
 def test_interrupted_scan_resumes_to_identical_table(tmp_path):
     grid = [parse_grid("d=4:9:6")]
     full = scan("schwarzschild-ads", grid, {}, tmp_path / "full", chunk_size=2, refine=0)
@@ -54,6 +55,7 @@ def test_process_workers_give_identical_table(tmp_path):
     assert _csv(tmp_path / "one") == _csv(tmp_path / "two")
 
 
+@pytest.mark.slow
 def test_dask_local_cluster_gives_identical_table(tmp_path):
     distributed = pytest.importorskip(
         "distributed", reason="Dask is an optional extra (pip install 'bhchem[dask]'); CI installs it")
@@ -194,6 +196,7 @@ def test_eh_thresholds_derived():
     # window closes near a = 4.51): the bisection used to stop there and miss a = 32/7
     (4.50, 4.60, "merge"),
     (2.24, 2.30, "appear")])
+@pytest.mark.slow
 def test_eh_n_critical_boundaries_are_located(tmp_path, lo, hi, which):
     """Issue 12 item 7: both places where n_critical changes over a/Q^2 (Q = 1) are boundaries,
     located by bisection at the exact thresholds 32/7 and 16/7 derived above, within the

@@ -14,8 +14,10 @@ first correction -Q^4/(40 b^2 r^5) (series of the formula above, derived by hand
 Engine note: the engine's tidy() runs sympy.simplify, whose hyperexpand rewrites a
 negative hypergeometric argument -x as x*exp_polar(I*pi), which numpy cannot evaluate.
 compiled._lambdify replaces it; check_first_law's own lambdify does not yet, so the two
-first-law tests are marked xfail on exactly that condition (probed at import).
+first-law tests are marked xfail on exactly that condition (probed once, when the first of
+them is set up).
 """
+import functools
 import math
 import time
 
@@ -38,9 +40,13 @@ def structure_warnings(pd) -> list:
 
 
 
+@functools.lru_cache(maxsize=None)
 def _first_law_check_breaks() -> bool:
     """Probe: the engine's check_first_law lambdifies the derived potentials itself, and the
-    hypergeometric ones carry exp_polar(I*pi) from sympy.simplify (see the module docstring)."""
+    hypergeometric ones carry exp_polar(I*pi) from sympy.simplify (see the module docstring).
+    Run once, when the first test marked with it is set up (the marker's condition is a
+    string, evaluated then): not at import, where every pytest-xdist worker would derive
+    the family at once while collecting."""
     try:
         check_first_law(bind("born-infeld-ads"), n_points=4)
     except NameError as exc:
@@ -48,9 +54,8 @@ def _first_law_check_breaks() -> bool:
     return False
 
 
-ENGINE_POLAR = _first_law_check_breaks()
 needs_engine_fix = pytest.mark.xfail(
-    condition=ENGINE_POLAR, strict=True, raises=NameError,
+    condition="_first_law_check_breaks()", strict=True, raises=NameError,
     reason="chemistry/checks.py check_first_law(): sp.lambdify of the derived potentials meets "
            "exp_polar(I*pi) (left by sympy.simplify in hypergeometric arguments); compiled.py "
            "already replaces it, checks.py does not (engine change requested)")

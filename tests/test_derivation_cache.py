@@ -108,3 +108,24 @@ def test_declared_domains_become_assumptions_of_the_derivation(monkeypatch):
         a, b = th.quantity(name, x, 0.001), th_real.quantity(name, x, 0.001)
         assert np.allclose(a, b, rtol=1e-12, atol=0), name
     assert th.derivation.parameters == (g,)      # the canonical (real) symbol, as before
+
+
+def test_the_first_law_proof_is_kept_next_to_the_derivation(tmp_path, monkeypatch):
+    """A new process (here: a fresh copy of the family, missing the in-memory caches) reads
+    the symbolic first-law proof from the cache folder instead of redoing it; the note is
+    keyed like the derivation, so an edited family misses it; a damaged note is recomputed."""
+    from bhchem.core import checks
+    monkeypatch.setenv("BHCHEM_CACHE_DIR", str(tmp_path))
+    fam = get_family("rn-ads")
+    first = derive(dataclasses.replace(fam))
+    assert derivation_cache.load_note(first.family, first.discrete, "first-law-proved", ("core/checks.py",)) is None
+    assert checks.first_law_proved(first) is True
+    (note,) = [p for p in os.listdir(tmp_path) if p.startswith("note-")]
+    again = derive(dataclasses.replace(fam))            # a new object: memory caches miss
+    assert derivation_cache.load_note(again.family, again.discrete, "first-law-proved", ("core/checks.py",)) is True
+    edited = derive(dataclasses.replace(fam, entropy=fam.entropy * 2))
+    assert derivation_cache.load_note(edited.family, edited.discrete, "first-law-proved", ("core/checks.py",)) is None
+    assert derivation_cache.load_note(again.family, again.discrete, "first-law-proved", ("core/derive.py",)) is None
+    (tmp_path / note).write_bytes(b"not a pickle")
+    assert derivation_cache.load_note(again.family, again.discrete, "first-law-proved", ("core/checks.py",)) is None
+    assert checks.first_law_proved(derive(dataclasses.replace(fam))) is True   # recomputed

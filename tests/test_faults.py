@@ -47,6 +47,7 @@ def q_of(bundle):
 
 
 # -- items 1 and 10: a kill during report --force, a kill while saving a plot ------------------
+@pytest.mark.slow
 def test_kill_between_aside_and_swap_keeps_one_bundle_and_next_run_restores(tmp_path):
     target = tmp_path / "R"  # the earlier bundle (its content is not read by --force)
     target.mkdir()
@@ -70,6 +71,7 @@ def test_kill_between_aside_and_swap_keeps_one_bundle_and_next_run_restores(tmp_
     assert leftovers(tmp_path, "R") == []
 
 
+@pytest.mark.slow
 def test_kill_while_saving_a_plot_leaves_a_temporary_that_the_next_run_removes(tmp_path):
     out = tmp_path / "pv.png"
     killed = bhchem("plot", "pv", "rn-ads", "-p", "Q=1", "-o", str(out), stage="atomic-file-open")
@@ -294,6 +296,7 @@ def test_cli_edited_chunk_is_not_trusted_and_garbage_is_no_internal_error(tmp_pa
     assert (tmp_path / "A" / "atlas.csv").read_text() == table
 
 
+@pytest.mark.slow
 def test_kill_after_a_chunk_before_its_checksum_then_rerun_recomputes_it(tmp_path, capsys):
     out = str(tmp_path / "A")
     killed = bhchem(*SCAN, "-o", out, stage="atlas-chunk-written")

@@ -196,6 +196,7 @@ def test_report_refuses_existing_folder_and_leaves_nothing(tmp_path, capsys):
     assert list(tmp_path.iterdir()) == [out]
 
 
+@pytest.mark.slow
 def test_failed_report_leaves_no_folder(tmp_path, monkeypatch):
     import bhchem.workflows.report as rep
 

@@ -136,6 +136,7 @@ def test_coupling_exactly_at_window_boundary():
 @pytest.mark.parametrize("argv", [["critical", "born-infeld-ads", "-p", "b=0.4", "--json"],
                                   ["phases", "rn-ads", "--json", "--quiet"],
                                   ["isobar", "gauss-bonnet-ads", "--pressure", "0.5Pc", "--json"]])
+@pytest.mark.slow
 def test_same_command_same_bytes(argv):
     env = dict(os.environ, SOURCE_DATE_EPOCH="1700000000")
     outs = [subprocess.run([sys.executable, "-m", "bhchem", *argv], capture_output=True,

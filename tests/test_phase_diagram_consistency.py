@@ -24,6 +24,7 @@ from bhchem import StateDomainError, bind
 from bhchem.analysis.isobar import analyze_isobar
 from bhchem.analysis.phases import diagram_transitions_at, phase_diagram
 from bhchem.declare.registry import available_families
+from session_share import shared
 
 LONG = os.environ.get("BHCHEM_HYPOTHESIS_PROFILE") == "long"
 
@@ -62,14 +63,19 @@ def test_every_bundled_family_has_a_case():
 
 
 def _diagram(name):
+    """The family's binding and diagram; the diagram is computed once per test session (the
+    two tests of a family may run in different xdist workers: session_share)."""
     if name not in _cache:
         params, rng = CASES[name]
         th = bind(name, **params)
-        _cache[name] = th, phase_diagram(th, pressure_range=rng, n_dense=8)
+        pd = shared(f"phase-diagram-consistency-{name}",
+                    lambda: phase_diagram(th, pressure_range=rng, n_dense=8))
+        _cache[name] = th, pd
     return _cache[name]
 
 
 @pytest.mark.parametrize("name", FAMILIES)
+@pytest.mark.slow
 def test_isobars_are_the_lines_that_cross_them(name):
     th, pd = _diagram(name)
     lo, hi = pd.pressure_range
@@ -92,6 +98,7 @@ def test_isobars_are_the_lines_that_cross_them(name):
 
 
 @pytest.mark.parametrize("name", FAMILIES)
+@pytest.mark.slow
 def test_every_line_end_is_explained_and_reached(name):
     th, pd = _diagram(name)
     assert not structure_warnings(pd), pd.warnings

@@ -258,6 +258,7 @@ def test_phases_text_counts_what_the_json_holds():
 
 
 # -- item 11: figures -----------------------------------------------------------------------
+@pytest.mark.slow
 def test_thirty_figures_leave_pyplot_alone(tmp_path):
     import matplotlib
     import matplotlib.pyplot as plt

@@ -66,6 +66,7 @@ def test_first_law_and_smarr_hold(name):
 
 
 @pytest.mark.parametrize("name", FAMILIES)
+@pytest.mark.slow
 def test_critical_point_equations_hold(name):
     @examples(8 if name.startswith("kerr") else 25)
     @given(family_params(name))
@@ -79,6 +80,7 @@ def test_critical_point_equations_hold(name):
 
 
 @pytest.mark.parametrize("name", [f for f in FAMILIES if not f.startswith("kerr")])
+@pytest.mark.slow
 def test_coexisting_states_have_equal_T_P_G_and_G_is_continuous(name):
     """Every first-order/Hawking-Page transition: equal T and G (P is the isobar's); the
     preferred G(T) is continuous except at reported zeroth-order jumps."""
@@ -121,6 +123,7 @@ def test_clausius_clapeyron_along_the_line(frac):
 
 @pytest.mark.parametrize("name, param", [("rn-ads", "Q"), ("born-infeld-ads", "Q"),
                                          ("gauss-bonnet-ads", "alpha"), ("kerr-ads", "J")])
+@pytest.mark.slow
 def test_scale_invariance(name, param):
     """Results for a rescaled family equal the rescaled results: scale-free critical data
     are unchanged when every dimensionful parameter is rescaled by lambda^n."""

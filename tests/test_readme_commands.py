@@ -69,6 +69,7 @@ def _run(line: str, workdir: Path, exe: str):
     return line, proc
 
 
+@pytest.mark.slow
 def test_every_readme_command_line_runs(tmp_path):
     exe = console_script()
     cmds = readme_command_lines(README.read_text())

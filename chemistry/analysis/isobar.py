@@ -338,15 +338,24 @@ def branch_state_at(th, P, br: Branch, T: float) -> float | None:
     keeps full relative precision)."""
     if not (br.T_min <= T <= br.T_max):
         return None
-    f = lambda z: float(th.T(z, P)) - T  # noqa: E731
-    fa, fb = f(br.x_min), f(br.x_max)
-    if fa == 0:
-        return br.x_min
-    if fb == 0:
-        return br.x_max
-    if fa * fb > 0:
-        return br.x_min if abs(fa) < abs(fb) else br.x_max
-    return brentq(f, br.x_min, br.x_max, xtol=_XTOL * br.x_min, rtol=1e-15, maxiter=200)
+    # th.T(z, P) without its per-call lookup and floating-point-error context (set once
+    # around the whole solve instead): the same compiled function on the same arguments,
+    # called ~10^5 times per phase diagram
+    T_of = th.compiled.function("T")
+    args = (np.asarray(P, dtype=float), *th.parameter_values)
+
+    def f(z):
+        return float(T_of(np.asarray(z, dtype=float), *args)) - T
+
+    with np.errstate(all="ignore"):
+        fa, fb = f(br.x_min), f(br.x_max)
+        if fa == 0:
+            return br.x_min
+        if fb == 0:
+            return br.x_max
+        if fa * fb > 0:
+            return br.x_min if abs(fa) < abs(fb) else br.x_max
+        return brentq(f, br.x_min, br.x_max, xtol=_XTOL * br.x_min, rtol=1e-15, maxiter=200)
 
 
 

@@ -42,6 +42,7 @@ import sympy as sp
 from bhchem.core.results import Result
 from bhchem.declare import symbols as sy
 from bhchem.core.compiled import Thermodynamics
+from bhchem.core import derivation_cache
 from bhchem.core.derive import tidy
 from bhchem.core.sampling import physical_sample
 from bhchem.core.compiled import lambdify_modules
@@ -193,8 +194,10 @@ _FIRST_LAW_VERDICTS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
 _FIRST_LAW_LOCK = threading.Lock()
 
 
-#: symbolic first-law proofs kept, by derivation (identity); the oldest dropped beyond 256
+#: symbolic first-law proofs kept, by derivation (identity); the oldest dropped beyond 256;
+#: also on disk, next to the derivation (keyed by this module's source text as well)
 _PROOFS = IdentityCache(256)
+_PROOF_CODE = ("core/checks.py",)
 
 
 def first_law_proved(derivation) -> bool:
@@ -208,12 +211,20 @@ def first_law_proved(derivation) -> bool:
     hit = _PROOFS.get(derivation)
     if hit is not MISSING:
         return hit
+    if derivation.family.temperature is None and derivation.volume_declared is None:
+        return _PROOFS.put(derivation, True)   # by construction: nothing to prove
+    stored = derivation_cache.load_note(derivation.family, derivation.discrete,
+                                       "first-law-proved", _PROOF_CODE)
+    if isinstance(stored, bool):   # proved (or not) by an earlier run: seconds of sympy
+        return _PROOFS.put(derivation, stored)
     q, args = derivation.quantities, derivation.arguments
     proved = True
     if derivation.family.temperature is not None:
         proved = tidy(q["T"] - derivation.temperature_derived, args) == 0
     if proved and derivation.volume_declared is not None:
         proved = tidy(derivation.volume_declared - q["V"], args) == 0
+    derivation_cache.store_note(derivation.family, derivation.discrete, "first-law-proved",
+                                bool(proved), _PROOF_CODE)
     return _PROOFS.put(derivation, bool(proved))
 
 

@@ -13,6 +13,7 @@ import decimal
 import html
 import math
 import threading
+import weakref
 from dataclasses import dataclass
 from typing import Callable, Mapping
 
@@ -279,6 +280,12 @@ def validate_values(family: Family, values: Mapping[str, object]) -> dict:
     return out
 
 
+#: the declared typical state and pressure of each binding, evaluated once and kept while the
+#: bound object lives (nothing is stored on the object)
+_SCALES: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+_SCALES_LOCK = threading.Lock()
+
+
 class Thermodynamics:
     """A family bound to parameter values: vectorised quantities as functions of (x, P).
 
@@ -454,7 +461,7 @@ class Thermodynamics:
         """Typical value of the state variable (for sampling and plot ranges)."""
         e = self.family.typical_state
         if e is not None:
-            return float(self._evaluate_parameter_expression(e))
+            return self._scale_value("typical_state", e)
         ell = self.length_scale()
         if self.derivation.state.name == "S":
             return ell ** (self.derivation.dimension - 2)
@@ -464,8 +471,20 @@ class Thermodynamics:
         """Typical pressure (for sampling and plot ranges)."""
         e = self.family.typical_pressure
         if e is not None:
-            return float(self._evaluate_parameter_expression(e))
+            return self._scale_value("typical_pressure", e)
         return 1.0 / (8 * math.pi * self.length_scale() ** 2) * 0.1
+
+    def _scale_value(self, which: str, e) -> float:
+        """A declared scale expression at this binding's values, evaluated once per binding
+        (every isobar asks for its search range; the sympy substitution is the costly part)."""
+        with _SCALES_LOCK:
+            hit = _SCALES.get(self, {}).get(which)
+        if hit is not None:
+            return hit
+        value = float(self._evaluate_parameter_expression(e))
+        with _SCALES_LOCK:
+            _SCALES.setdefault(self, {})[which] = value
+        return value
 
     def _evaluate_parameter_expression(self, e) -> float:
         expr = canonicalise(e, canonical_symbols(self.family), "scale", self.family.name)

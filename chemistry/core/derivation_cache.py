@@ -10,12 +10,16 @@ code therefore misses the cache; nothing stale is ever served.
 
 A cache file holds the pickled :class:`~bhchem.core.derive.Derivation` without its
 family (the live family object is attached on load) and the full key text, which is
-compared on load.  A file that is unreadable, damaged or of another key is ignored and
-rewritten.  Writes are atomic (temporary file, then rename), so a reader never sees half
-a file.  The folder is ``$BHCHEM_CACHE_DIR``, else ``$XDG_CACHE_HOME/bhchem``, else
-``~/.cache/bhchem``; ``BHCHEM_CACHE_DIR=off`` switches the cache off.  It keeps at most
-:data:`MAX_ENTRIES` files (the oldest are removed).  The cache only saves time: a
-folder that cannot be written is skipped and the derivation is done in memory.
+compared on load.  Facts computed from a derivation alone (its symbolic first-law proof,
+seconds of sympy in every new process) are kept the same way in ``note-*`` files
+(:func:`load_note`, :func:`store_note`), keyed by the derivation's key, the fact's name and
+the source text of the module that computes it.  A file that is unreadable, damaged or of
+another key is ignored and rewritten.  Writes are atomic (temporary file, then rename), so
+a reader never sees half a file.  The folder is ``$BHCHEM_CACHE_DIR``, else
+``$XDG_CACHE_HOME/bhchem``, else ``~/.cache/bhchem``; ``BHCHEM_CACHE_DIR=off`` switches the
+cache off.  It keeps at most :data:`MAX_ENTRIES` derivation files and as many note files
+(the oldest are removed).  The cache only saves time: a folder that cannot be written is
+skipped and the derivation is done in memory.
 """
 from __future__ import annotations
 
@@ -81,8 +85,8 @@ def cache_key(family, discrete: dict) -> str:
         f"discrete {sorted(discrete.items())!r}", f"family {_fingerprint(family)}"])
 
 
-def _path(folder: Path, key: str) -> Path:
-    return folder / f"derivation-{hashlib.sha256(key.encode()).hexdigest()[:40]}.pickle"
+def _path(folder: Path, key: str, kind: str = "derivation") -> Path:
+    return folder / f"{kind}-{hashlib.sha256(key.encode()).hexdigest()[:40]}.pickle"
 
 
 def load(family, discrete: dict):
@@ -125,55 +129,65 @@ def store(derivation, discrete: dict) -> bool:
         return False
 
 
-def _note_path(folder: Path, key: str) -> Path:
-    return folder / f"note-{hashlib.sha256(key.encode()).hexdigest()[:40]}.pickle"
+def _note_key(family, discrete: dict, topic: str, code: tuple) -> str:
+    """The key text of a fact ``topic`` about the derivation of ``family`` at ``discrete``,
+    computed by the modules ``code`` (paths relative to the package) besides the deriving
+    ones."""
+    h = hashlib.sha256()
+    for rel in code:
+        try:
+            h.update((_PACKAGE_DIR / rel).read_bytes())
+        except OSError:  # pragma: no cover - an unusual install; key on the name only
+            h.update(rel.encode())
+    return "\n".join([cache_key(family, dict(discrete)), f"note {topic}",
+                      f"note code {h.hexdigest()}"])
 
 
-def load_note(family, discrete: dict, topic: str) -> str | None:
-    """A short text recorded by :func:`store_note` for ``family`` at ``discrete`` under
-    ``topic`` (same key rules as a derivation: any change to the family, the deriving code
-    or the versions misses it), or None."""
+def load_note(family, discrete: dict, topic: str, code: tuple = ()):
+    """A fact stored by :func:`store_note` about the derivation of ``family`` at
+    ``discrete`` (its first-law proof; that a closed form exceeded the size limits), or
+    None.  The key covers everything a derivation's key covers plus the source text of the
+    modules ``code`` (e.g. ``("core/checks.py",)``), so an edited check misses it."""
     folder = cache_dir()
-    if folder is None:
+    if folder is None or family is None:
         return None
-    key = cache_key(family, discrete) + f"\nnote {topic}"
     try:
-        with open(_note_path(folder, key), "rb") as fh:
+        key = _note_key(family, discrete, topic, code)
+        with open(_path(folder, key, "note"), "rb") as fh:
             stored = pickle.load(fh)
         if not isinstance(stored, dict) or stored.get("key") != key:
             return None
-        return str(stored["note"])
-    except Exception:  # missing, damaged, written by another version
+        return stored["note"]
+    except Exception:  # missing, damaged, written by another version: compute again
         return None
 
 
-def store_note(family, discrete: dict, topic: str, note: str) -> bool:
-    """Record a decision about a derivation (e.g. that a closed form exceeded the counted
-    size limits, so that the next run does not try it again); atomic like :func:`store`."""
+def store_note(family, discrete: dict, topic: str, value, code: tuple = ()) -> bool:
+    """Store a picklable fact about the derivation of ``family`` at ``discrete``
+    (atomically, like a derivation); False when it could not be written."""
     folder = cache_dir()
-    if folder is None:
+    if folder is None or family is None:
         return False
-    key = cache_key(family, discrete) + f"\nnote {topic}"
     try:
+        key = _note_key(family, discrete, topic, code)
         folder.mkdir(parents=True, exist_ok=True)
-        data = pickle.dumps({"key": key, "note": str(note)}, protocol=pickle.HIGHEST_PROTOCOL)
+        data = pickle.dumps({"key": key, "note": value}, protocol=pickle.HIGHEST_PROTOCOL)
         fd, tmp = tempfile.mkstemp(prefix=".note-", suffix=".tmp", dir=folder)
         try:
             with os.fdopen(fd, "wb") as fh:
                 fh.write(data)
-            os.replace(tmp, _note_path(folder, key))
+            os.replace(tmp, _path(folder, key, "note"))
         except BaseException:
             os.unlink(tmp)
             raise
-        _prune(folder)
+        _prune(folder, "note")
         return True
     except Exception:  # read-only home, full disk: no note
         return False
 
 
-def _prune(folder: Path) -> None:
-    files = sorted(list(folder.glob("derivation-*.pickle")) + list(folder.glob("note-*.pickle")),
-                   key=lambda p: p.stat().st_mtime)
+def _prune(folder: Path, kind: str = "derivation") -> None:
+    files = sorted(folder.glob(f"{kind}-*.pickle"), key=lambda p: p.stat().st_mtime)
     for old in files[: max(0, len(files) - MAX_ENTRIES)]:
         try:
             old.unlink()

@@ -75,6 +75,7 @@ from bhchem.analysis.critical import find_critical_points, scale_free_key
 from bhchem.analysis.phases import phase_diagram
 from bhchem.analysis.events import EventCurve
 from bhchem.analysis.structure_events import structure_events
+from bhchem.core.checks import first_law_proved
 from bhchem.core.compiled import bind, parse_number, resolve_ensemble, validate_values
 from bhchem.declare.registry import get_family, load_family_file
 from bhchem.errors import BhchemError, BhchemWarning
@@ -381,6 +382,11 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
     points = [dict(zip(names, combo)) for combo in itertools.product(*(a.values for a in axes))]
     # scale invariance: one computation per distinct set of scale-free combinations
     keys = [scale_free_key(bind(fam, **{**fixed, **p})) for p in points]
+    if executor is None and workers > 1:
+        # the pool's workers are forked from this process (Linux) and inherit its caches: the
+        # symbolic first-law proof that every analysis asks for (seconds of sympy for some
+        # families) is done here once, not once in every worker
+        first_law_proved(bind(fam, **{**fixed, **points[0]}).derivation)
     rep_of, reps = {}, []
     for i, k in enumerate(keys):
         if k not in rep_of:
