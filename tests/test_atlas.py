@@ -3,6 +3,7 @@ import functools
 import json
 import math
 
+import numpy as np
 import pytest
 import sympy as sp
 
@@ -306,3 +307,15 @@ def test_cli_scan_without_matplotlib_leaves_no_stale_figure(capsys, tmp_path, mo
     assert "atlas.png" not in captured.out and captured.err.count("\n") == 1
     assert "atlas.png was not written" in captured.err and "matplotlib" in captured.err
     assert not (out / "atlas.png").exists()
+
+
+def test_1d_figure_colours_change_at_the_located_events():
+    """The 1D atlas figure colours runs of equal structure; a run ends at the located event
+    between two grid points (where the event line is drawn), else halfway between them."""
+    from bhchem.workflows.atlas import structure_runs
+    x = np.array([0.0, 1.0, 2.0, 3.0])
+    assert structure_runs(x, ["a", "a", "b", "b"], [1.3]) == [("a", -0.5, 1.3), ("b", 1.3, 3.5)]
+    assert structure_runs(x, ["a", "a", "b", "b"], []) == [("a", -0.5, 1.5), ("b", 1.5, 3.5)]
+    # an event between two points of the same structure does not cut the run
+    assert structure_runs(x[::-1], ["b", "b", "a", "a"], [0.4]) == [("a", -0.5, 1.5),
+                                                                    ("b", 1.5, 3.5)]

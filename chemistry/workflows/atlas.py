@@ -937,6 +937,29 @@ def _write_outputs(out_dir, doc, axes):
     _atomic_write(os.path.join(out_dir, "atlas.json"), _dumps(doc))
 
 
+def structure_runs(x, structures, events):
+    """The runs of equal structure along a 1D grid as (structure, lo, hi) spans: a run ends
+    halfway to the next grid point, or at the located event between the two points when
+    there is one (so the colours change exactly where the events are drawn)."""
+    order = np.argsort(x)
+    xs = x[order]
+    st = [structures[i] for i in order]
+    half = (xs[1] - xs[0]) / 2 if len(xs) > 1 else 0.5 * max(abs(xs[0]), 1.0) * 0.02
+    cuts = []
+    for i in range(len(xs) - 1):
+        inside = [e for e in events if xs[i] <= e <= xs[i + 1]]
+        cuts.append(inside[0] if inside and st[i] != st[i + 1] else (xs[i] + xs[i + 1]) / 2)
+    lo_end = xs[0] - (xs[1] - xs[0]) / 2 if len(xs) > 1 else xs[0] - half
+    hi_end = xs[-1] + (xs[-1] - xs[-2]) / 2 if len(xs) > 1 else xs[-1] + half
+    edges = [lo_end, *cuts, hi_end]
+    runs, start = [], 0
+    for i in range(1, len(xs) + 1):
+        if i == len(xs) or st[i] != st[start]:
+            runs.append((st[start], edges[start], edges[i]))
+            start = i
+    return runs
+
+
 def _figure(out_dir, doc, axes):
     rows = doc["rows"]
     structures = doc["structures"]
@@ -944,11 +967,14 @@ def _figure(out_dir, doc, axes):
     with styled() as plt:
         if len(axes) == 1:
             fig, ax = plt.subplots(figsize=(6.0, 2.2))
-            x = np.array(axes[0].values)
-            for s in structures:
-                m = np.array([r["structure"] == s for r in rows])
-                ax.scatter(x[m], np.zeros(m.sum()), s=60, marker="s", color=color[s], label=s)
+            x = np.array(axes[0].values, float)
             events = doc.get("events") or []
+            labelled = set()
+            for s, lo, hi in structure_runs(x, [r["structure"] for r in rows],
+                                      [e["value"] for e in events if e["converged"]]):
+                ax.axvspan(lo, hi, ymin=0.4, ymax=0.6, color=color[s], lw=0,
+                           label=None if s in labelled else s)
+                labelled.add(s)
             for b in ([] if events else doc["boundaries"]):
                 if b["converged"]:
                     ax.axvline(b["point"][axes[0].name], color="black", lw=0.8, ls="--")
