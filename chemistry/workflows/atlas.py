@@ -65,7 +65,6 @@ import sys
 import warnings
 from dataclasses import dataclass, replace
 
-import networkx as nx
 import numpy as np
 
 from concurrent.futures import ProcessPoolExecutor
@@ -654,6 +653,7 @@ def _event_plan_2d(fam, axes, fixed, n_checks, executor, workers) -> dict:
     def label(i, j):
         return tuple(sum(1 for e in found[j].events if e.kind == k and e.value < xs[i])
                      for k in kinds)
+    import networkx as nx  # lazy: only a 2D map needs the cell graph; `bhchem show` must not load it
     g = nx.Graph()
     g.add_nodes_from(range(nx_ * ny))
     lab = {(i, j): label(i, j) for i in range(nx_) for j in range(ny)}
