@@ -56,8 +56,8 @@ def test_counting_matches_the_exact_number_of_roots():
     after = diagnostics()  # the global tally is unchanged in meaning (fresh solves only)
     assert after["not_unique"] - before["not_unique"] == 3
     text = unsolved_warning(outer, ("Phi_q",))
-    assert text == (f"9 state evaluations {UNSOLVED_PREFIX} Phi_q (3: no charge in its domain gives it, "
-                    f"6: several do); they are left out (NaN)")
+    assert text == (f"9 state evaluations {UNSOLVED_PREFIX} Phi_q (3: no charge in its "
+                    f"domain gives it, 6: several do); they are left out (NaN)")
     assert unsolved_warning({"no_root": 0, "not_unique": 0, "not_converged": 0}) is None
 
 

@@ -1090,6 +1090,10 @@ def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = math.in
         kind = "isolated" if isolated else _classify(th, x_c, P_c, gap_P, gap_x)
         residuals = _residuals(th, x_c, P_c)
     notes = [exact.note] if exact is not None and exact.note else []
+    if (kind == "degenerate" and not singular
+            and not math.isfinite(_pressure_unit(th, x_c, P_c))):
+        notes.append("kind not tested: at P_c = 0 with T_c = 0 or dT/dP = 0 there is no "
+                     "pressure step for the fold test")
     if (exact is not None and not singular
             and not all(float(v) <= RESIDUAL_TOLERANCE for v in residuals.values())):
         precise = _isotherm_residuals(th, x_c, P_c, T_c)
