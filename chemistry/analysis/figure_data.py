@@ -163,9 +163,11 @@ class GtPanel:
     transitions : ndarray (k, 2)
         (T, G) of the zeroth- and first-order transitions inside the window.
     T_window : (float, float)
-        The temperature window (framing the transitions, else the swallowtails).
+        The temperature window: the cusps and transitions of the swallowtail with 30 % of
+        their extent on each side (GT_SWALLOWTAIL_PAD; at least 1 % of T).
     G_window : (float, float) or None
-        The G range to show (framing the swallowtail when it is visible).
+        The G range to show: the swallowtail (cusps and crossing) with 30 % of its extent on
+        each side when it spans 5 % of the T window or more, else every curve drawn.
     """
 
     pressure: float
