@@ -426,7 +426,8 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
     for i, (x_c, P_c) in enumerate(candidates):
         # the fold test must not step over a neighbouring solution: scale its steps
         others = [(x, p) for j, (x, p) in enumerate(candidates) if j != i]
-        gap_P = min((abs(p / P_c - 1) for _, p in others), default=1.0)
+        # (an absolute distance: P_c may be exactly 0, e.g. a fold born at P = 0)
+        gap_P = min((abs(p - P_c) for _, p in others), default=math.inf)
         gap_x = min((abs(math.log(x / x_c)) for x, _ in others if x > 0), default=1.0)
         cp = _assemble(th, x_c, P_c, gap_P, gap_x, exact.get((x_c, P_c)))
         if cp is not None and not any(_same(cp, q) for q in points):
@@ -1009,25 +1010,44 @@ def _count_extrema(th: Thermodynamics, x_c: float, P: float, half_width: float =
     return int(np.sum(s[1:] * s[:-1] < 0))
 
 
-def _classify(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
+def _pressure_unit(th: Thermodynamics, x_c: float, P_c: float) -> float:
+    """The pressure step unit of the fold test at (x_c, P_c): |P_c|, or where P_c = 0 the
+    pressure that changes T by T_c itself, |T_c / (dT/dP)_x| (NaN when neither exists)."""
+    if P_c != 0:
+        return abs(P_c)
+    T_c, TP = float(th.T(x_c, P_c)), float(th.d("T", "P", x_c, P_c))
+    unit = abs(T_c / TP) if TP != 0 else math.nan
+    return unit if math.isfinite(unit) and unit > 0 else math.nan
+
+
+def _classify(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = math.inf,
               gap_x: float = 1.0) -> str:
+    """'isolated', 'standard' (two extrema of T(x) appear on one side of P_c) or 'degenerate'.
+
+    The pressure is stepped by eps * u on either side, u = :func:`_pressure_unit` (|P_c|,
+    or |T_c/T_P| for a solution at P_c = 0); ``gap_P`` is the absolute pressure distance to
+    the nearest other solution, which the steps must not reach, and ``gap_x`` the log
+    distance in x."""
     TP = float(th.d("T", "P", x_c, P_c))
     TxP = float(th.d("T", "xP", x_c, P_c))
     if TP != 0 and abs(x_c * TxP / TP) < ISOLATED_TOLERANCE:
         return "isolated"
+    unit = _pressure_unit(th, x_c, P_c)
+    if not math.isfinite(unit):
+        return "degenerate"  # no pressure scale to step by: no loop can be shown to form
     width = min(0.7, 0.45 * gap_x)
-    top = min(3e-2, gap_P / 3)
+    top = min(3e-2, gap_P / unit / 3)
     for eps in sorted({min(e, top) for e in (top * 1e-4, top * 1e-2, 1e-3, 1e-2, 3e-2)}):
         if eps <= 1e-14:
             continue
-        below = _count_extrema(th, x_c, P_c * (1 - eps), width)
-        above = _count_extrema(th, x_c, P_c * (1 + eps), width)
+        below = _count_extrema(th, x_c, P_c - eps * unit, width)
+        above = _count_extrema(th, x_c, P_c + eps * unit, width)
         if abs(below - above) == 2:
             return "standard"
     return "degenerate"
 
 
-def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
+def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = math.inf,
               gap_x: float = 1.0, exact: _Candidate | None = None) -> CriticalPoint | None:
     """The critical point at (x_c, P_c): T, v, r, G, kind, physical flag, residuals.
 
@@ -1070,6 +1090,10 @@ def _assemble(th: Thermodynamics, x_c: float, P_c: float, gap_P: float = 1.0,
         kind = "isolated" if isolated else _classify(th, x_c, P_c, gap_P, gap_x)
         residuals = _residuals(th, x_c, P_c)
     notes = [exact.note] if exact is not None and exact.note else []
+    if (kind == "degenerate" and not singular
+            and not math.isfinite(_pressure_unit(th, x_c, P_c))):
+        notes.append("kind not tested: at P_c = 0 with T_c = 0 or dT/dP = 0 there is no "
+                     "pressure step for the fold test")
     if (exact is not None and not singular
             and not all(float(v) <= RESIDUAL_TOLERANCE for v in residuals.values())):
         precise = _isotherm_residuals(th, x_c, P_c, T_c)

@@ -163,9 +163,11 @@ class GtPanel:
     transitions : ndarray (k, 2)
         (T, G) of the zeroth- and first-order transitions inside the window.
     T_window : (float, float)
-        The temperature window (framing the transitions, else the swallowtails).
+        The temperature window: the cusps and transitions of the swallowtail with 30 % of
+        their extent on each side (GT_SWALLOWTAIL_PAD; at least 1 % of T).
     G_window : (float, float) or None
-        The G range to show (framing the swallowtail when it is visible).
+        The G range to show: the swallowtail (cusps and crossing) with 30 % of its extent on
+        each side when it spans 5 % of the T window or more, else every curve drawn.
     """
 
     pressure: float
@@ -538,16 +540,14 @@ def gt_curves(th, pressures=None, show_excluded: bool = False) -> GtCurves:
 
 def _gt_panel(th, P, cp) -> GtPanel:
     res = analyze_isobar(th, P)
-    T_lo, T_hi = _gt_window(res, cp)
-    spin = [T for b in res.branches for e, T in zip(b.ends, (b.T_at_x_min, b.T_at_x_max))
-            if e == "spinodal" and T_lo <= T <= T_hi]
-    spin += [t.T for t in res.transitions if t.kind != "second-order"]
+    tail = _swallowtail_points(th, res, P)
+    T_lo, T_hi = _gt_window(res, cp, tail)
+    tail = [(T, G) for T, G in tail if T_lo <= T <= T_hi]
+    Ts = [T for T, _ in tail]
     # frame G on the swallowtail only when it spans a visible part of the window
     # (just off a critical pressure it is infinitesimal)
-    if len(spin) >= 2 and max(spin) - min(spin) < 0.05 * (T_hi - T_lo):
-        spin = []
-    core = (min(spin), max(spin)) if len(spin) >= 2 else (T_lo, T_hi)
-    G_all, G_core, branches, preferred = [], [], [], []
+    framed = len(Ts) >= 2 and max(Ts) - min(Ts) >= 0.05 * (T_hi - T_lo)
+    G_all, branches, preferred = [], [], []
     for b in res.branches:
         xs = np.geomspace(b.x_min, b.x_max, 1500)
         T, G = th.T(xs, P), th.G(xs, P)
@@ -558,7 +558,6 @@ def _gt_panel(th, P, cp) -> GtPanel:
                                  np.column_stack([np.where(m, T, np.nan),
                                                   np.where(m, G, np.nan)])))
         G_all.append(G[m])
-        G_core.append(G[(T >= core[0]) & (T <= core[1])])
     for lo, hi, ph in res.preferred:
         lo, hi = max(lo, T_lo), min(hi, T_hi)
         if hi <= lo:
@@ -570,40 +569,58 @@ def _gt_panel(th, P, cp) -> GtPanel:
     marks = [(t.T, t.states[0].G) for t in res.transitions
              if T_lo <= t.T <= T_hi and t.kind != "second-order"]
     G_window = None
-    if G_all:
-        Gc = np.concatenate([np.ravel(g) for g in (G_core if len(spin) >= 2 else G_all)])
+    if framed:
+        G_window = _padded([G for _, G in tail], GT_SWALLOWTAIL_PAD)
+    elif G_all:
+        Gc = np.concatenate([np.ravel(g) for g in G_all])
         Gc = Gc[np.isfinite(Gc)]
         if Gc.size:
-            lo_, hi_ = float(np.min(Gc)), float(np.max(Gc))
-            pad = (0.5 if len(spin) >= 2 else 0.08) * (hi_ - lo_ + 1e-300)
-            G_window = (lo_ - pad, hi_ + pad)
+            G_window = _padded(Gc, 0.08)
     return GtPanel(pressure=float(P), branches=tuple(branches), preferred=tuple(preferred),
                    transitions=np.array(marks, float).reshape(-1, 2),
                    T_window=(T_lo, T_hi), G_window=G_window)
 
 
-def _gt_window(res, cp):
-    """A temperature window that frames the transitions and every cusp (spinodal) of the
-    swallowtails: the cusps lie inside it, with a margin."""
-    trans = [t.T for t in res.transitions if t.kind != "second-order"]
-    temps = []
+#: margin on each side of the swallowtail, as a fraction of its extent: the swallowtail
+#: then fills 1/(1 + 2 * 0.3) = 62 % of the window along T and G (a paper's framing), the
+#: rest shows the neighbouring branches leaving it
+GT_SWALLOWTAIL_PAD = 0.3
+#: least margin along T, as a fraction of the temperature (a swallowtail just off a
+#: critical pressure is infinitesimal: it is still drawn with its branches around it)
+GT_LEAST_T_PAD = 0.01
+
+
+def _padded(values, pad: float) -> tuple:
+    lo, hi = float(np.min(values)), float(np.max(values))
+    width = hi - lo if hi > lo else max(abs(hi), 1e-300)
+    return lo - pad * width, hi + pad * width
+
+
+def _swallowtail_points(th, res, P) -> list:
+    """(T, G) of the cusps (spinodal ends of branches, T > 0) and of the zeroth- and
+    first-order transitions (the crossings of the preferred phase) of the isobar."""
+    pts = []
     for b in res.branches:
-        for e, T in zip(b.ends, (b.T_at_x_min, b.T_at_x_max)):
-            if e == "spinodal":
-                temps.append(T)
-    temps = [t for t in temps if np.isfinite(t) and t > 0]
-    if trans:
-        lo, hi = min(trans), max(trans)
-        pad = max(0.6 * (hi - lo), 0.06 * hi)
-        lo, hi = lo - pad, hi + pad
-        if temps:  # a cusp outside the transitions' frame: widen to it, with 5 % margin
-            margin = 0.05 * (max(hi, max(temps)) - min(lo, min(temps)))
-            lo, hi = min(lo, min(temps) - margin), max(hi, max(temps) + margin)
-        return max(lo, 0.0), hi
+        for e, T, x in zip(b.ends, (b.T_at_x_min, b.T_at_x_max), (b.x_min, b.x_max)):
+            if e == "spinodal" and np.isfinite(T) and T > 0:
+                pts.append((float(T), float(th.G(x, P))))
+    pts += [(t.T, t.states[0].G) for t in res.transitions if t.kind != "second-order"]
+    return [(T, G) for T, G in pts if np.isfinite(T) and np.isfinite(G)]
+
+
+def _gt_window(res, cp, tail=()):
+    """A temperature window framing the swallowtails: every cusp (spinodal) and every
+    zeroth-/first-order transition, ``tail`` as from :func:`_swallowtail_points`, with a
+    margin of GT_SWALLOWTAIL_PAD of their extent (at least GT_LEAST_T_PAD of T) each side;
+    one transition alone is framed by +-6 %, one cusp alone by +-15 %."""
+    temps = sorted({T for T, _ in tail})
     if len(temps) >= 2:
-        lo, hi = min(temps), max(temps)
-        span = hi - lo
-        return max(lo - 0.45 * span, 0.0), hi + 0.45 * span
+        lo, hi = temps[0], temps[-1]
+        pad = max(GT_SWALLOWTAIL_PAD * (hi - lo), GT_LEAST_T_PAD * hi)
+        return max(lo - pad, 0.0), hi + pad
+    trans = [t.T for t in res.transitions if t.kind != "second-order"]
+    if trans:
+        return max(0.94 * trans[0], 0.0), 1.06 * trans[0]
     centre = temps[0] if temps else (cp.T if cp is not None else
                                      min(b.T_max for b in res.branches))
     return 0.85 * centre, 1.15 * centre

@@ -31,12 +31,13 @@ obtained by inverting the monotone branch; residuals |Delta G|/|G| are reported.
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 
 import numpy as np
 
 from bhchem.core.results import Result
 from bhchem.core.compiled import Thermodynamics
+from bhchem.core.implicit import counting, numerical_potentials, unsolved_warning
 from bhchem.errors import StateDomainError
 from bhchem.analysis.critical import find_critical_points, resolve_pressure
 from bhchem.analysis.coexistence import coexistence_newton
@@ -456,6 +457,15 @@ def analyze_isobar(th: Thermodynamics, P: float, *, x_range=None, n_T: int = 300
     StateDomainError
         P is not positive and finite, or there is no physical state at P.
     """
+    with counting() as missed:
+        res = _isobar(th, P, x_range, n_T, critical_points, warn, report_excluded)
+    # states whose charge the numerical inverse of a fixed potential could not give
+    note = unsolved_warning(missed, numerical_potentials(th.family))
+    return replace(res, warnings=res.warnings + (note,)) if note else res
+
+
+def _isobar(th, P, x_range, n_T, critical_points, warn, report_excluded) -> IsobarResult:
+    """The body of :func:`analyze_isobar` (same arguments)."""
     P = resolve_pressure(th, P)
     xr = x_range if x_range else state_range(th, P)
     if critical_points is None:

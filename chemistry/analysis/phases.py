@@ -59,7 +59,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -67,6 +67,8 @@ from bhchem.core.results import Result
 from bhchem.analysis.coexistence import (CoexistencePoint, coexistence_near_critical, coexistence_newton,
                           make_point)
 from bhchem.core.compiled import Thermodynamics
+from bhchem.core.implicit import (UNSOLVED_PREFIX, counting, numerical_potentials,
+                                  unsolved_warning)
 from bhchem.analysis.critical import find_critical_points
 from bhchem.errors import StateDomainError
 from bhchem.analysis.isobar import (Transition, analyze_isobar, branch_state_at, isobar_skeleton,
@@ -996,6 +998,16 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
     n_scan : int
         Log-spaced skeletons on which the scalar functions are sampled (cheap).
     """
+    with counting() as missed:
+        pd = _phase_diagram(th, pressure_range, n_anchor, n_dense, n_scan, progress)
+    # states whose charge the numerical inverse of a fixed potential could not give (one
+    # total for the whole diagram; the anchor isobars' own counts were dropped)
+    note = unsolved_warning(missed, numerical_potentials(th.family))
+    return replace(pd, warnings=pd.warnings + [note]) if note else pd
+
+
+def _phase_diagram(th, pressure_range, n_anchor, n_dense, n_scan, progress) -> PhaseDiagram:
+    """The body of :func:`phase_diagram` (same arguments)."""
     search = find_critical_points(th)
     cps = search.physical
     lo, hi = resolve_pressure_range(th, pressure_range) if pressure_range is not None \
@@ -1046,7 +1058,7 @@ def phase_diagram(th: Thermodynamics, pressure_range=None, n_anchor: int = 48,
                          "functions changes sign here", bracket=math.log(pb / pa),
                     anchors=(pa, pb)))
     for w in (iso.warnings for P, iso in sorted(isos.items()) if iso is not None and P in anchors):
-        warnings.extend(w)
+        warnings.extend(m for m in w if UNSOLVED_PREFIX not in m)
     if sks.exhausted:
         warnings.append(f"the event scan stopped after {MAX_SKELETONS} skeletons: events "
                         "may be missing")

@@ -53,6 +53,7 @@ import copyreg
 import hashlib
 import math
 import threading
+from contextlib import contextmanager
 
 import numpy as np
 import sympy as sp
@@ -94,6 +95,71 @@ def diagnostics() -> dict:
     gives the potential, the root was not unique, or the bracket did not converge."""
     with _tally_lock:
         return dict(_tally)
+
+
+_local = threading.local()
+
+#: the first words of :func:`unsolved_warning` (an analysis that copies the warnings of the
+#: analyses it runs drops these and reports its own total)
+UNSOLVED_PREFIX = "had no unique charge for the fixed potential"
+
+
+@contextmanager
+def counting():
+    """Count, on this thread, the states the numerical inverses return as NaN while the
+    block runs: yields a dict with ``no_root``, ``not_unique`` and ``not_converged`` (the
+    same kinds as :func:`diagnostics`), filled as the solves happen.  Blocks nest (each
+    counts everything inside it).  The cost is a list append per vectorised solve, and
+    nothing at all for a family without a numerical inverse.
+
+    Examples
+    --------
+    >>> import sympy as sp
+    >>> r, q, phi = sp.symbols("r q phi", positive=True)
+    >>> f = implicit_root(r * sp.exp(-q / r) - phi, q, (r, phi), lower=0.0)
+    >>> with counting() as c:
+    ...     _ = f._imp_([0.1, 2.0], 0.5)   # r = 0.1 < phi: no q >= 0 gives it
+    >>> c["no_root"], c["not_unique"]
+    (1, 0)
+    """
+    tally = {"no_root": 0, "not_unique": 0, "not_converged": 0}
+    stack = getattr(_local, "stack", None)
+    if stack is None:
+        stack = _local.stack = []
+    stack.append(tally)
+    try:
+        yield tally
+    finally:
+        # by identity (equal counts are equal dicts); the block's own entry is the last
+        # one unless an inner block on this thread failed to close
+        del stack[max(i for i, t in enumerate(stack) if t is tally)]
+
+
+def unsolved_warning(tally: dict, potentials=()) -> str | None:
+    """The one-line warning for a :func:`counting` tally, or None when every state had its
+    charge: ``'N state evaluations had no unique charge for the fixed potential Phi_q (a: no
+    charge in its domain gives it, b: several do, c: not certified); they are left out
+    (NaN)'`` (a state evaluated more than once, e.g. for T and then G, counts each time)."""
+    parts = [(tally.get("no_root", 0), "no charge in its domain gives it"),
+             (tally.get("not_unique", 0), "several do"),
+             (tally.get("not_converged", 0), "the root was not certified")]
+    n = sum(k for k, _ in parts)
+    if not n:
+        return None
+    names = " ".join(potentials)
+    return (f"{n} state evaluations {UNSOLVED_PREFIX}{' ' + names if names else ''} ("
+            + ", ".join(f"{k}: {why}" for k, why in parts if k)
+            + "); they are left out (NaN)")
+
+
+def numerical_potentials(family) -> tuple:
+    """The potentials a fixed-potential family holds fixed through this module's numerical
+    inverse (``conventions['inverse_<q>']`` of :mod:`bhchem.core.ensemble` starts with
+    'certified numerical inverse'), as named in its ensemble record."""
+    swapped = family.ensemble_record().get("swapped", {}) or {}
+    return tuple(pot for pot, q in swapped.items()
+                 if family.conventions.get(f"inverse_{q}", "").startswith(
+                     "certified numerical inverse"))
 
 
 class ImplicitRootClass(FunctionClass):
@@ -184,9 +250,14 @@ def implicit_root(equation, q, variables, *, lower=-math.inf, upper=math.inf,
         key = memo.key(arrays)
         hit = memo.get(key)
         if hit is not None:
-            return hit.copy() if isinstance(hit, np.ndarray) else hit
-        out = solve_root(F, both, arrays, float(lower), float(upper))
-        memo.put(key, out)
+            out, missed = hit
+            for t in getattr(_local, "stack", None) or ():  # a remembered solve counts too
+                for k, v in missed.items():
+                    t[k] += v
+            return out.copy() if isinstance(out, np.ndarray) else out
+        with counting() as missed:
+            out = solve_root(F, both, arrays, float(lower), float(upper))
+        memo.put(key, (out, missed))
         return out.copy() if isinstance(out, np.ndarray) else out
 
     def solve(*arrays):
@@ -292,10 +363,15 @@ def solve_root(F, FdF, arrays, lower: float, upper: float, counts: bool = False)
     roots = change.sum(axis=1) + exact.sum(axis=1)
     out = np.full(n, np.nan)
     one = roots == 1
+    none, several = int((roots == 0).sum()), int((roots > 1).sum())
     with _tally_lock:
         _tally["states"] += n
-        _tally["no_root"] += int((roots == 0).sum())
-        _tally["not_unique"] += int((roots > 1).sum())
+        _tally["no_root"] += none
+        _tally["not_unique"] += several
+    local = getattr(_local, "stack", None)
+    for t in local or ():
+        t["no_root"] += none
+        t["not_unique"] += several
     # the exact grid zeros
     ex = one & exact.any(axis=1)
     if ex.any():
@@ -308,8 +384,11 @@ def solve_root(F, FdF, arrays, lower: float, upper: float, counts: bool = False)
         fb = fv[br, idx + 1]
         q, ok = _refine(FdF, [y[br] for y in ys], a, b, fa, fb)
         out[np.flatnonzero(br)] = np.where(ok, q, np.nan)
+        failed = int((~ok).sum())
         with _tally_lock:
-            _tally["not_converged"] += int((~ok).sum())
+            _tally["not_converged"] += failed
+        for t in local or ():
+            t["not_converged"] += failed
     if counts:
         return out.reshape(shape), roots.reshape(shape)
     return out.reshape(shape) if shape else out[0]
