@@ -221,3 +221,58 @@ def test_cli_scan_events_on_a_discrete_axis_is_refused(capsys, tmp_path):
                  "-o", str(tmp_path / "x")])
     err = capsys.readouterr().err
     assert code == 2 and "d is discrete" in err and len(err.strip().splitlines()) == 1
+
+
+_TIGHT_HALO = '''name = "tight-halo-rn-ads"
+summary = "toy: charged AdS black hole whose halo term must stay below a quarter of the charge term"
+reference = "invented for the structure-event tests (no paper)"
+
+[dimension]
+default = 4
+minimum = 4
+maximum = 4
+description = "spacetime dimension"
+
+[parameters.Q]
+default = 1.0
+length_dimension = "1"
+domain = ">= 0"
+description = "electric charge"
+
+[parameters.mu]
+default = 0.1
+length_dimension = "3"
+description = "halo coupling"
+
+[expressions]
+M = "r/2 * (1 + 8*pi*P*r^2/3 + Q^2/r^2 + mu/r^3)"
+S = "pi*r^2"
+conditions = [{name = "halo-below-charge", relation = "4*mu < Q^2*r", reason = "toy: the halo term stays below a quarter of the charge term at the horizon", reference = "invented"}]
+'''
+
+
+def test_critical_point_leaving_the_domain_through_a_declared_condition(tmp_path):
+    """A family of our own invention (the haloed charged AdS toy of examples/families with a
+    declared condition 4 mu < Q^2 r): T = (1 + 8 pi P r^2 - Q^2/r^2 - 2 mu/r^3)/(4 pi r) from
+    the first law; its one critical point leaves the physical domain where r_c = 4 mu/Q^2.
+    Derived here with sympy (Q = 1): T_r = T_rr = 0 with mu = r/4 gives r = sqrt(11),
+    mu = sqrt(11)/4; the event (Newton on x T_x, x^2 T_xx and the boundary 4 mu - Q^2 r)
+    agrees to 1e-13, and the detector has nothing unexplained."""
+    from bhchem.declare.registry import load_family_file
+    r, P, mu = sp.symbols("r P mu", positive=True)
+    T = (1 + 8 * sp.pi * P * r**2 - 1 / r**2 - 2 * mu / r**3) / (4 * sp.pi * r)
+    on = {mu: r / 4}
+    sols = sp.solve([sp.diff(T, r).subs(on), sp.diff(T, r, 2).subs(on)], [r, P], dict=True)
+    (sol,) = [s for s in sols if s[r].is_positive and s[P].is_positive]
+    mu_exact = sp.nsimplify(sol[r] / 4)
+    assert mu_exact == sp.sqrt(11) / 4
+    path = tmp_path / "tight_halo.toml"
+    path.write_text(_TIGHT_HALO)
+    fam = load_family_file(path)[0]
+    ev = structure_events(fam, "mu", (0.5, 1.0), n_samples=2, Q=1.0)
+    (e,) = ev.events
+    assert ev.converged and not ev.unexplained and ev.counts == (1, 0)
+    assert e.kind == "critical-leaves-domain" and "halo-below-charge" in e.message
+    assert abs(e.value - float(mu_exact)) <= 1e-13
+    assert f"P = {float(sol[P]):.10g}"[:14] in e.message
+    _assert_converged(e, 1e-13)

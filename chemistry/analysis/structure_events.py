@@ -33,6 +33,11 @@ swallowtail it ends appears or disappears there.  Newton on (log x_1, log x_c, P
 (kind ``critical-leaves-preferred``; the structure map renames it ``triple-point`` when the
 structure signatures on its two sides differ in a triple point);
 
+*a critical point crossing the boundary of a declared state condition*
+(``critical-leaves-domain``): where the continued point leaves the physical domain, the
+atom lhs < rhs of the condition that fails there gives g = lhs - rhs, and Newton solves
+x T_x = x^2 T_xx = g = 0 in (log x, P, c);
+
 *the small-state asymptote*: where the leading coefficient lim_{x -> 0} x T(x, P) changes
 sign (sympy limit, root by Newton, exact by sympy where it can), the small-x end of every
 isotherm turns from T -> +inf to T -> -inf: a branch appears at the small end and with it
@@ -65,7 +70,7 @@ STEP_TOLERANCE = 1e-14
 EVENT_RESIDUAL_TOLERANCE = 1e-11
 #: the kinds that change the number of physical critical points
 _COUNT_KINDS = ("critical-count", "critical-pressure-zero", "critical-temperature-zero",
-                "isolated-critical-point")
+                "isolated-critical-point", "critical-leaves-domain")
 #: default number of full critical-point searches along the interval (the detector)
 N_SAMPLES = 13
 
@@ -424,6 +429,81 @@ def solve_temperature_zero(model, c, u, P, T_ref):
                   _scale_free(model, z[2]))
 
 
+def _condition_boundary(model, inside, outside):
+    """The boundary function g (g = 0 on the boundary) of the declared state condition that
+    holds at ``inside`` and fails at ``outside`` (each (c, log x, P)): for an atom
+    ``lhs < rhs`` (or >, <=, >=) of the condition's relation (an And/Or is split into its
+    atoms), g = lhs - rhs, with the other parameters substituted exactly.  Returns
+    (condition label, atom text, g as a function of (x, P, c)) or None."""
+    der = model.th.derivation
+    xs = der.state
+    Psym = next(a for a in der.arguments if a.name == "P")
+    csym = next(s for s in der.parameters if s.name == model.coupling)
+    subs = {s: sp.nsimplify(model.th.values[s.name]) for s in der.parameters
+            if s.name != model.coupling}
+    (ci, ui, Pi), (co, uo, Po) = inside, outside
+    th_in, th_out = model.binding(ci), model.binding(co)
+    for cond in model.th.active_conditions:
+        if not (bool(th_in.condition_holds(cond.name, math.exp(ui), Pi))
+                and not bool(th_out.condition_holds(cond.name, math.exp(uo), Po))):
+            continue
+        atoms = [a for a in sp.preorder_traversal(cond.relation)
+                 if isinstance(a, (sp.StrictLessThan, sp.LessThan, sp.StrictGreaterThan,
+                                   sp.GreaterThan))]
+        for atom in atoms:
+            g_expr = (atom.lhs - atom.rhs).subs(subs)
+            g = sp.lambdify((xs, Psym, csym), g_expr, "math")
+            try:
+                gi = g(math.exp(ui), Pi, ci)
+                go = g(math.exp(uo), Po, co)
+            except (ValueError, ZeroDivisionError, OverflowError, TypeError):
+                continue
+            holds_i = bool(atom.func(gi, 0)) if math.isfinite(gi) else False
+            holds_o = bool(atom.func(go, 0)) if math.isfinite(go) else True
+            if holds_i and not holds_o and gi * go <= 0:
+                return cond.label(), sp.sstr(atom), g, (abs(gi) + abs(go)) or 1.0
+    return None
+
+
+def solve_domain_exit(model, inside, outside):
+    """A critical point crossing the boundary of a declared state condition: Newton in
+    (log x, P, c) on
+
+    .. math:: \frac{x T_x}{T} = 0, \quad \frac{x^2 T_{xx}}{T} = 0, \quad
+              g(x, P, c) = 0,
+
+    g = lhs - rhs of the condition's atom that holds on one side and fails on the other
+    (:func:`_condition_boundary`), scaled by its size at the two continuation points.
+    ``inside`` and ``outside`` are the last continued point inside the domain and the one
+    beyond, each (c, log x, P).  Returns None when no atom of a declared condition changes
+    sign between them."""
+    found = _condition_boundary(model, inside, outside)
+    if found is None:
+        return None
+    label, atom, g, gscale = found
+    (ci, ui, Pi), (co, uo, Po) = inside, outside
+    gi, go = g(math.exp(ui), Pi, ci), g(math.exp(uo), Po, co)
+    w = gi / (gi - go) if gi != go else 0.5
+
+    def F(z):
+        return np.array([*model.critical(z[0], z[1], z[2]),
+                         g(math.exp(z[0]), z[1], z[2]) / gscale])
+    try:
+        z, res, ok = newton(F, [ui + w * (uo - ui), Pi + w * (Po - Pi), ci + w * (co - ci)],
+                            max_step=0.2)
+        f = F(z)
+    except (ValueError, ZeroDivisionError, OverflowError):
+        return None
+    x = math.exp(z[0])
+    return _event("critical-leaves-domain", model, z[2],
+                  {"x T_x / T": abs(f[0]), "x^2 T_xx / T": abs(f[1]),
+                   "g / g_scale": abs(f[2])}, ok and z[1] > 0,
+                  "continuation + Newton on (x T_x, x^2 T_xx, g) = 0, g = 0 the boundary of "
+                  "a declared state condition",
+                  f"a critical point at x = {x:.12g}, P = {z[1]:.12g} crosses the boundary "
+                  f"{atom} of the condition {label}", _scale_free(model, z[2]))
+
+
 def _other_states(model, c, xc, P, T):
     """Other locally stable states on the critical isotherm T(x, P) = T (roots on a log grid,
     polished by Newton): list of log x."""
@@ -604,10 +684,15 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
                     cl, ul, Pl = path.points[-2]
                     add(solve_temperature_zero(model, cl, ul, Pl, T))
                 elif path.stop == "domain":
-                    notes.append({"bracket": sorted([path.points[-2][0], cs]),
-                                  "what": "a critical point leaves the physical domain "
-                                          "(a state condition); no event equation, bracket "
-                                          "only"})
+                    ev = solve_domain_exit(model, path.points[-2], path.points[-1])
+                    if ev is not None:
+                        add(ev)
+                    if ev is None or not ev.converged:
+                        notes.append({"bracket": sorted([path.points[-2][0], cs]),
+                                      "what": "a critical point leaves the physical domain "
+                                              "(a state condition): "
+                                              + ("no boundary equation found" if ev is None
+                                                 else "Newton did not converge")})
                 # a critical point crossing another first-order line along this path
                 if a < b:
                     _line_crossings(model, path, add)
