@@ -276,3 +276,62 @@ def test_critical_point_leaving_the_domain_through_a_declared_condition(tmp_path
     assert abs(e.value - float(mu_exact)) <= 1e-13
     assert f"P = {float(sol[P]):.10g}"[:14] in e.message
     _assert_converged(e, 1e-13)
+
+
+_SOLITON = '''name = "soliton-rn-ads"
+summary = "toy: charged AdS black hole competing with a horizonless phase of Gibbs energy sigma"
+reference = "invented for the structure-event tests (no paper)"
+
+[dimension]
+default = 4
+minimum = 4
+maximum = 4
+description = "spacetime dimension"
+
+[parameters.Q]
+default = 1.0
+length_dimension = "1"
+domain = ">= 0"
+description = "electric charge"
+
+[parameters.sigma]
+default = 1.0
+length_dimension = "1"
+domain = "> 0"
+description = "Gibbs energy of the competing horizonless phase"
+
+[expressions]
+M = "r/2 * (1 + 8*pi*P*r^2/3 + Q^2/r^2)"
+S = "pi*r^2"
+G_background = "sigma"
+'''
+
+
+def test_hawking_page_line_through_the_critical_point(tmp_path):
+    """No bundled family declares a background phase except schwarzschild-ads (no critical
+    point), so the solver is checked on a family of our own invention: charged AdS (fixed
+    charge) competing with a horizonless phase of constant Gibbs energy sigma.  The event is
+    where the background's line G = sigma passes through the critical point (the triple point
+    background/small/large where it cuts the first-order line appears or disappears).
+    Derived here with sympy from M and S: T_r = T_rr = 0 at r = sqrt(6) Q, P = 1/(96 pi Q^2),
+    where G = M - T S = sqrt(6) Q/3; G = sigma = 1 gives Q = sqrt(6)/2.  The event agrees to
+    1e-13."""
+    from bhchem.declare.registry import load_family_file
+    r, P, Q = sp.symbols("r P Q", positive=True)
+    M = r / 2 * (1 + 8 * sp.pi * P * r**2 / 3 + Q**2 / r**2)
+    S = sp.pi * r**2
+    T = sp.diff(M, r) / sp.diff(S, r)
+    (cp,) = sp.solve([sp.diff(T, r), sp.diff(T, r, 2)], [r, P], dict=True)
+    G_c = sp.simplify((M - T * S).subs(cp))
+    (Q_star,) = sp.solve(sp.Eq(G_c, 1), Q)
+    assert Q_star == sp.sqrt(6) / 2
+    path = tmp_path / "soliton.toml"
+    path.write_text(_SOLITON)
+    fam = load_family_file(path)[0]
+    ev = structure_events(fam, "Q", (1.0, 1.5), n_samples=2, sigma=1.0)
+    (e,) = ev.events
+    assert ev.converged and not ev.unexplained
+    assert e.kind == "hawking-page-meets-first-order"
+    assert abs(e.value - float(Q_star)) <= 1e-13
+    assert f"x = {float(cp[r].subs(Q, Q_star)):.10g}" in e.message
+    _assert_converged(e, 1e-13)

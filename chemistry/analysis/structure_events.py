@@ -38,6 +38,13 @@ structure signatures on its two sides differ in a triple point);
 atom lhs < rhs of the condition that fails there gives g = lhs - rhs, and Newton solves
 x T_x = x^2 T_xx = g = 0 in (log x, P, c);
 
+*the Hawking--Page line of a background phase meeting a first-order line*
+(``hawking-page-meets-first-order``, families that declare ``G_background``): along a
+continued critical point, where G(x_c) - G_bg(P_c) changes sign the background's line passes
+through the critical point and the triple point (background, small, large) where it cuts the
+first-order line appears or disappears; Newton on x T_x = x^2 T_xx = G - G_bg = 0 in
+(log x, P, c);
+
 *the small-state asymptote*: where the leading coefficient lim_{x -> 0} x T(x, P) changes
 sign (sympy limit, root by Newton, exact by sympy where it can), the small-x end of every
 isotherm turns from T -> +inf to T -> -inf: a branch appears at the small end and with it
@@ -134,6 +141,8 @@ class CouplingModel:
                   "M": cd.function("M")}
         for w in ("x", "xx", "xxx", "xP", "xxP"):
             self.f["T" + w] = cd.derivative("T", w)
+        if th.has("G_background"):
+            self.f["G_background"] = cd.function("G_background")
 
     def __call__(self, name, x, P, c):
         p = list(self.base)
@@ -693,9 +702,11 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
                                               "(a state condition): "
                                               + ("no boundary equation found" if ev is None
                                                  else "Newton did not converge")})
-                # a critical point crossing another first-order line along this path
+                # a critical point crossing another first-order line along this path, or
+                # the Hawking-Page line of a background phase
                 if a < b:
                     _line_crossings(model, path, add)
+                    _background_crossings(model, path, add)
     for ev in small_state_events(model, lo, hi, samples)[0]:
         add(ev)
     notes_poly = _merge_polynomial(family, coupling, (lo, hi), fixed, events)
@@ -772,3 +783,58 @@ def _line_crossings(model, path, add):
                     add(solve_critical_on_line(model, pc + w * (c - pc), u0 + w * (u1 - u0),
                                                pu + w * (u - pu), pP + w * (P - pP)))
         prev = (c, u, P, cur)
+
+
+def _background_dG(model, u, P, c):
+    """(G - G_background)/scale at the state (log x, P), scale = |G| + |T S| + |G_bg|."""
+    x = math.exp(u)
+    G, Gb = model("G", x, P, c), model("G_background", x, P, c)
+    return (G - Gb) / (abs(G) + abs(model("T", x, P, c) * model("S", x, P, c)) + abs(Gb))
+
+
+def solve_critical_on_background_line(model, c, u, P):
+    """The Hawking--Page line of the background phase passes through a critical point:
+    Newton in (log x, P, c) on
+
+    .. math:: \frac{x T_x}{T} = 0, \quad \frac{x^2 T_{xx}}{T} = 0, \quad
+              \frac{G(x, P) - G_{bg}(P)}{|G| + |T S| + |G_{bg}|} = 0.
+
+    On one side the background's line G = G_bg cuts the first-order line that ends at the
+    critical point (a triple point: background, small and large black hole); on the other it
+    passes above the critical point and misses it."""
+    x0 = math.exp(u)
+    scale = abs(model("G", x0, P, c)) + abs(model("T", x0, P, c) * model("S", x0, P, c)) \
+        + abs(model("G_background", x0, P, c))
+
+    def F(z):
+        x = math.exp(z[0])
+        return np.array([*model.critical(z[0], z[1], z[2]),
+                         (model("G", x, z[1], z[2]) - model("G_background", x, z[1], z[2]))
+                         / scale])
+    z, res, ok = newton(F, [u, P, c], max_step=0.2)
+    f = F(z)
+    x = math.exp(z[0])
+    name = model.th.family.background_name
+    return _event("hawking-page-meets-first-order", model, z[2],
+                  {"x T_x / T": abs(f[0]), "x^2 T_xx / T": abs(f[1]),
+                   "(G - G_bg)/G_scale": abs(f[2])}, ok and z[1] > 0,
+                  "continuation + Newton on (x T_x, x^2 T_xx, G - G_background) = 0",
+                  f"the Hawking-Page line of {name} passes through the critical point at "
+                  f"x = {x:.12g}, P = {z[1]:.12g}, T = {model('T', x, z[1], z[2]):.12g}",
+                  _scale_free(model, z[2]))
+
+
+def _background_crossings(model, path, add):
+    """Along a continued critical point: where G - G_background changes sign, solve
+    :func:`solve_critical_on_background_line` (families with a background phase only)."""
+    if "G_background" not in model.f:
+        return
+    pts = [p for p in path.points if p[2] > 0]
+    if path.stop != "reached":
+        pts = pts[:-1]
+    vals = [(c, u, P, _background_dG(model, u, P, c)) for (c, u, P) in pts]
+    for (c0, u0, P0, g0), (c1, u1, P1, g1) in zip(vals[:-1], vals[1:]):
+        if g0 * g1 < 0 or g1 == 0:
+            w = g0 / (g0 - g1)
+            add(solve_critical_on_background_line(model, c0 + w * (c1 - c0),
+                                                  u0 + w * (u1 - u0), P0 + w * (P1 - P0)))
