@@ -78,6 +78,11 @@ class StructureEvent(Result):
         map; None when not classified).
     message : str
         One line for the reader.
+    system : str
+        The name of the extended system solved (``fold``, ``pressure-zero``, ``on-line``,
+        ``background``, ``isolated``, ...; empty for the exact thresholds), with
+    unknowns : tuple of float
+        its solution (the coupling last), the seed of a continuation in a second coupling.
     """
 
     kind: str
@@ -92,6 +97,8 @@ class StructureEvent(Result):
     below: str | None = None
     above: str | None = None
     message: str = ""
+    system: str = ""
+    unknowns: tuple = ()
 
     def summary(self) -> str:
         where = self.exact if self.exact else f"{self.value:.12g}"

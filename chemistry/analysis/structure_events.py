@@ -273,10 +273,12 @@ def continue_critical(model, c0, c1, u0, P0, n_steps: int = 8, min_step_rel: flo
 
 
 # -- event systems ------------------------------------------------------------------------------
-def _event(kind, model, c, residuals, ok, method, message, scale_free=None):
+def _event(kind, model, c, residuals, ok, method, message, scale_free=None, system="",
+           unknowns=()):
     return StructureEvent(kind=kind, coupling=model.coupling, value=float(c),
                           fixed=dict(model.fixed), residuals=residuals, converged=bool(ok),
-                          method=method, message=message, scale_free=scale_free or {})
+                          method=method, message=message, scale_free=scale_free or {},
+                          system=system, unknowns=tuple(float(v) for v in unknowns))
 
 
 def _scale_free(model, c):
@@ -305,7 +307,7 @@ def solve_fold(model, c, u, P):
            f"{'T_x = T_xx = T_xxx = 0' if abs(txxx) < 1e-8 else 'T_x = T_xx = T_xP = 0'})")
     return _event("critical-count", model, c, resid, ok and P > 0,
                   "continuation + Newton on the fold system (x T_x, x^2 T_xx, det J)", msg,
-                  _scale_free(model, c)), (u, P)
+                  _scale_free(model, c), "fold", z), (u, P)
 
 
 def _symbolic_T(model):
@@ -373,7 +375,7 @@ def solve_isolated(model, c, u):
                 "the numerator (P)",
                 f"two critical points merge at x = {x:.12g}, P = {P:.12g}, a double root of "
                 f"T's denominator where the numerator vanishes too (T = 0/0: an isolated "
-                f"critical point)", _scale_free(model, cv))
+                f"critical point)", _scale_free(model, cv), "isolated", (math.log(x), cv))
     return replace(ev, exact=exact)
 
 
@@ -420,7 +422,8 @@ def solve_pressure_zero(model, c, u, level=0.0):
                   {"x T_x / T": abs(f[0]), "x^2 T_xx / T": abs(f[1])}, ok,
                   "continuation + Newton on (x T_x, x^2 T_xx) = 0 at P = 0",
                   f"a critical point reaches P = 0 at x = {x:.12g}, "
-                  f"T = {model('T', x, 0.0, z[1]):.12g}", _scale_free(model, z[1]))
+                  f"T = {model('T', x, 0.0, z[1]):.12g}", _scale_free(model, z[1]),
+                  "pressure-zero" if level == 0.0 else "", z)
 
 
 def solve_temperature_zero(model, c, u, P, T_ref):
@@ -478,7 +481,7 @@ def solve_domain_exit(model, inside, outside):
     """A critical point crossing the boundary of a declared state condition: Newton in
     (log x, P, c) on
 
-    .. math:: \frac{x T_x}{T} = 0, \quad \frac{x^2 T_{xx}}{T} = 0, \quad
+    .. math:: \\frac{x T_x}{T} = 0, \\quad \\frac{x^2 T_{xx}}{T} = 0, \\quad
               g(x, P, c) = 0,
 
     g = lhs - rhs of the condition's atom that holds on one side and fails on the other
@@ -562,7 +565,7 @@ def solve_critical_on_line(model, c, u1, uc, P):
                   "continuation + Newton on (T1 - Tc, G1 - Gc, x T_x, x^2 T_xx)",
                   f"the critical point at x = {xc:.12g}, P = {z[2]:.12g} lies on the "
                   f"first-order line through the state x = {x1:.12g} (equal T and G)",
-                  _scale_free(model, z[3]))
+                  _scale_free(model, z[3]), "on-line", z)
 
 
 # -- the small-state asymptote -------------------------------------------------------------------
@@ -796,8 +799,8 @@ def solve_critical_on_background_line(model, c, u, P):
     """The Hawking--Page line of the background phase passes through a critical point:
     Newton in (log x, P, c) on
 
-    .. math:: \frac{x T_x}{T} = 0, \quad \frac{x^2 T_{xx}}{T} = 0, \quad
-              \frac{G(x, P) - G_{bg}(P)}{|G| + |T S| + |G_{bg}|} = 0.
+    .. math:: \\frac{x T_x}{T} = 0, \\quad \\frac{x^2 T_{xx}}{T} = 0, \\quad
+              \\frac{G(x, P) - G_{bg}(P)}{|G| + |T S| + |G_{bg}|} = 0.
 
     On one side the background's line G = G_bg cuts the first-order line that ends at the
     critical point (a triple point: background, small and large black hole); on the other it
@@ -821,7 +824,7 @@ def solve_critical_on_background_line(model, c, u, P):
                   "continuation + Newton on (x T_x, x^2 T_xx, G - G_background) = 0",
                   f"the Hawking-Page line of {name} passes through the critical point at "
                   f"x = {x:.12g}, P = {z[1]:.12g}, T = {model('T', x, z[1], z[2]):.12g}",
-                  _scale_free(model, z[2]))
+                  _scale_free(model, z[2]), "background", z)
 
 
 def _background_crossings(model, path, add):
@@ -838,3 +841,200 @@ def _background_crossings(model, path, add):
             w = g0 / (g0 - g1)
             add(solve_critical_on_background_line(model, c0 + w * (c1 - c0),
                                                   u0 + w * (u1 - u0), P0 + w * (P1 - P0)))
+
+
+# -- an event continued in a second coupling ------------------------------------------------------
+#: the extended systems that can be continued in a second coupling (StructureEvent.system)
+CONTINUABLE = ("fold", "pressure-zero", "on-line", "background", "isolated")
+
+
+def _event_function(model, ev, j2):
+    """The event's extended system F(z) (z = ``ev.unknowns``, the coupling last) with the
+    second coupling read from ``model.base[j2]`` at each call; None for a system that is not
+    continuable."""
+    z0 = ev.unknowns
+    if ev.system == "fold":
+        return lambda z: model.fold(z[0], z[1], z[2])
+    if ev.system == "pressure-zero":
+        return lambda z: model.critical(z[0], 0.0, z[1])
+    if ev.system == "on-line":
+        x0, P0, c0 = math.exp(z0[1]), z0[2], z0[3]
+        gs = abs(model("G", x0, P0, c0)) + abs(model("T", x0, P0, c0) * model("S", x0, P0, c0))
+
+        def F(z):
+            x1, xc = math.exp(z[0]), math.exp(z[1])
+            Tc = model("T", xc, z[2], z[3])
+            return np.array([model("T", x1, z[2], z[3]) / Tc - 1,
+                             (model("G", x1, z[2], z[3]) - model("G", xc, z[2], z[3])) / gs,
+                             *model.critical(z[1], z[2], z[3])])
+        return F
+    if ev.system == "background":
+        x0, P0, c0 = math.exp(z0[0]), z0[1], z0[2]
+        gs = abs(model("G", x0, P0, c0)) + abs(model("T", x0, P0, c0) * model("S", x0, P0, c0)) \
+            + abs(model("G_background", x0, P0, c0))
+
+        def F(z):
+            x = math.exp(z[0])
+            return np.array([*model.critical(z[0], z[1], z[2]),
+                             (model("G", x, z[1], z[2]) - model("G_background", x, z[1], z[2]))
+                             / gs])
+        return F
+    if ev.system == "isolated":
+        der = model.th.derivation
+        xs = der.state
+        names = [s.name for s in der.parameters]
+        csym, c2sym = der.parameters[model.i], der.parameters[j2]
+        subs = {s: sp.nsimplify(model.th.values[s.name]) for s in der.parameters
+                if s not in (csym, c2sym)}
+        T = der.quantities["T"].subs(subs)
+        num, den = sp.fraction(sp.together(T))
+        den = sp.Mul(*[f for f in sp.Mul.make_args(sp.factor_terms(den)) if f.has(xs)])
+        args = (xs, csym, c2sym)
+        D = sp.lambdify(args, den, "math")
+        Dx = sp.lambdify(args, xs * sp.diff(den, xs), "math")
+        Dn = sp.lambdify(args, sum(abs(t) for t in sp.Add.make_args(sp.expand(den))), "math")
+        del names
+
+        def F(z):
+            x, c2 = math.exp(z[0]), model.base[j2]
+            n = Dn(x, z[1], c2)
+            return np.array([D(x, z[1], c2) / n, Dx(x, z[1], c2) / n])
+        return F
+    return None
+
+
+def _jacobian(H, w):
+    f = H(w)
+    J = np.empty((len(f), len(w)))
+    for j in range(len(w)):
+        h = 1e-7 * max(1.0, abs(w[j]))
+        e = np.zeros(len(w))
+        e[j] = h
+        J[:, j] = (H(w + e) - H(w - e)) / (2 * h)
+    return f, J
+
+
+def _tangent(J, prev=None):
+    t = np.linalg.svd(J)[2][-1]
+    if prev is not None and float(t @ prev) < 0:
+        t = -t
+    return t
+
+
+def _correct(H, w, fixed_index=None, fixed_value=None, t=None, wp=None, max_iter=12):
+    """Newton on H(w) = 0 plus one closing equation: w[fixed_index] = fixed_value, or the
+    pseudo-arclength plane t . (w - wp) = 0.  Returns (w, residual, ok)."""
+    w = np.array(w, float)
+    if fixed_index is not None:
+        w[fixed_index] = fixed_value
+    for _ in range(max_iter):
+        f, J = _jacobian(H, w)
+        if not (np.all(np.isfinite(f)) and np.all(np.isfinite(J))):
+            return w, math.inf, False
+        if fixed_index is not None:
+            row = np.zeros(len(w))
+            row[fixed_index] = 1.0
+            g = w[fixed_index] - fixed_value
+        else:
+            row, g = t, float(t @ (w - wp))
+        A = np.vstack([J, row])
+        try:
+            dw = np.linalg.solve(A, -np.append(f, g))
+        except np.linalg.LinAlgError:
+            return w, math.inf, False
+        w = w + dw
+        if float(np.max(np.abs(dw))) <= 1e-13 * (1 + float(np.max(np.abs(w)))):
+            break
+    f = H(w)
+    res = float(np.max(np.abs(f))) if np.all(np.isfinite(f)) else math.inf
+    return w, res, res <= EVENT_RESIDUAL_TOLERANCE
+
+
+def trace_event_curve(family, event, second: str, interval2, box=None, n_steps: int = 40,
+                      max_points: int = 2000):
+    """Continue one event in a second coupling: pseudo-arclength continuation of its extended
+    system (the unknowns of the 1D event and the second coupling; turning points in either
+    coupling are followed), each point corrected by Newton to the event tolerance.
+
+    Parameters
+    ----------
+    family : str or Family
+    event : StructureEvent
+        A 1D event whose ``system`` is in :data:`CONTINUABLE`; its ``fixed`` holds the
+        second coupling's value.
+    second : str
+        The second coupling.
+    interval2 : (float, float)
+        Range of the second coupling; the curve ends exactly on its edges.
+    box : (float, float), optional
+        Range of the first coupling; the curve ends exactly on its edges too.
+    n_steps : int
+        Initial step: the second coupling's range over this.
+
+    Returns
+    -------
+    EventCurve or None
+        Points (first coupling, second coupling) in order along the curve, the largest
+        relative residual of the event's system at each; None for an event whose system is
+        not continuable.
+    """
+    from bhchem.analysis.events import EventCurve
+    if event.system not in CONTINUABLE or not event.unknowns:
+        return None
+    fixed = dict(event.fixed)
+    model = CouplingModel(family, event.coupling, fixed, event.value)
+    names = [s.name for s in model.th.derivation.parameters]
+    if second not in names:
+        raise BhchemError(f"{second!r} is not a continuous parameter of {model.th.family.name}")
+    j2 = names.index(second)
+    F = _event_function(model, event, j2)
+
+    def H(w):
+        model.base[j2] = float(w[-1])
+        with np.errstate(all="ignore"):
+            return np.asarray(F(w[:-1]), float)
+    lo2, hi2 = sorted(float(v) for v in interval2)
+    lo1, hi1 = (sorted(float(v) for v in box) if box is not None else (-math.inf, math.inf))
+    w0 = np.array([*event.unknowns, float(model.th.values[second])])
+    h0 = (hi2 - lo2) / n_steps
+    branches = []
+    for sense in (1.0, -1.0):
+        pts, w, prev = [], w0.copy(), None
+        h = h0
+        while len(pts) < max_points:
+            _, J = _jacobian(H, w)
+            t = _tangent(J, prev)
+            if prev is None and t[-1] * sense < 0:
+                t = -t
+            wp = w + h * t
+            wn, res, ok = _correct(H, wp, t=t, wp=wp)
+            if not ok or float(np.max(np.abs(wn[:-1] - w[:-1]))) > 0.5:
+                h /= 2
+                if h < h0 * 1e-6:
+                    break
+                continue
+            out2 = not (lo2 <= wn[-1] <= hi2)
+            out1 = not (lo1 <= wn[-2] <= hi1)
+            if out2 or out1:
+                k, v = ((-1, hi2 if wn[-1] > hi2 else lo2) if out2 else
+                        (-2, hi1 if wn[-2] > hi1 else lo1))
+                we, res, ok = _correct(H, w + (v - w[k]) / (wn[k] - w[k]) * (wn - w),
+                                       fixed_index=len(w) + k, fixed_value=v)
+                if ok and abs(w[k] - v) > 1e-14 * max(1.0, abs(v)):  # not the seed itself
+                    pts.append((we, res))
+                break
+            pts.append((wn, res))
+            prev, w = t, wn
+            h = min(h * 1.5, h0)
+        branches.append(pts)
+    r0 = float(np.max(np.abs(H(w0))))
+    chain = branches[1][::-1] + [(w0, r0)] + branches[0]
+    points = np.array([[p[-2], p[-1]] for p, _ in chain])
+    res = np.array([r for _, r in chain])
+    ok = bool(np.all(res <= EVENT_RESIDUAL_TOLERANCE))
+    return EventCurve(kind=event.kind, couplings=(event.coupling, second), points=points,
+                      residuals=res, converged=ok,
+                      method=f"pseudo-arclength continuation of the {event.system} system in "
+                             f"({event.coupling}, {second}), Newton on each point",
+                      message=f"{len(points)} points from {event.coupling} = "
+                              f"{event.value:.12g}, {second} = {w0[-1]:.12g}")
