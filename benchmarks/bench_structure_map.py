@@ -21,9 +21,15 @@ their b and Q, which the bundled family uses: only bQ matters), 10^4 values of b
 
 With ``--2d``: third-order Lovelock, d = 7, k = -1, Q = 0, a 100 x 100 grid over
 (alpha3, alpha2) (bare couplings; alpha~2 = 12 alpha2, alpha~3 = 24 alpha3 in Dolan et al.'s
-normalisation, CQG 31 (2014) 242001), events along alpha3 at every alpha2 traced as curves;
-printed: time on 2 workers, cells, checks, and the largest distance of the
-isolated-critical-point curve from alpha~3 = alpha~2^2 / 3 (alpha3 = 2 alpha2^2).
+normalisation, CQG 31 (2014) 242001); events along alpha3 at every alpha2, each curve traced
+by pseudo-arclength continuation in alpha2 from its first row (the kinds whose system is not
+continuable are chained row by row); printed: time on 2 workers, cells, checks, and the
+largest distance of the isolated-critical-point curve from alpha~3 = alpha~2^2 / 3
+(alpha3 = 2 alpha2^2).  Q = 0 is kept for that curve (Dolan et al.'s setting): there the only
+scale-free coupling is alpha3/alpha2^2, so the map is scale-redundant; with Q != 0 (two
+scale-free couplings) the denominator's double root of T stays at alpha3 = 2 alpha2^2 but the
+two critical points are born at a nearby fold of the critical polynomial instead (Q = 0.1,
+alpha2 = 1: alpha3 = 1.99999994), which this benchmark does not map.
 
 Run:  python benchmarks/bench_structure_map.py [--subset N] [--no-bisection] [--2d [--only-2d]]
 """

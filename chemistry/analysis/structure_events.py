@@ -66,7 +66,7 @@ import sympy as sp
 
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.critical_polynomial import NoPolynomialFormError, polynomial_thresholds
-from bhchem.analysis.events import StructureEvent
+from bhchem.analysis.events import EventCurve, StructureEvent
 from bhchem.core.compiled import bind
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError
@@ -882,18 +882,16 @@ def _event_function(model, ev, j2):
     if ev.system == "isolated":
         der = model.th.derivation
         xs = der.state
-        names = [s.name for s in der.parameters]
         csym, c2sym = der.parameters[model.i], der.parameters[j2]
         subs = {s: sp.nsimplify(model.th.values[s.name]) for s in der.parameters
                 if s not in (csym, c2sym)}
         T = der.quantities["T"].subs(subs)
-        num, den = sp.fraction(sp.together(T))
+        _, den = sp.fraction(sp.together(T))
         den = sp.Mul(*[f for f in sp.Mul.make_args(sp.factor_terms(den)) if f.has(xs)])
         args = (xs, csym, c2sym)
         D = sp.lambdify(args, den, "math")
         Dx = sp.lambdify(args, xs * sp.diff(den, xs), "math")
         Dn = sp.lambdify(args, sum(abs(t) for t in sp.Add.make_args(sp.expand(den))), "math")
-        del names
 
         def F(z):
             x, c2 = math.exp(z[0]), model.base[j2]
@@ -978,7 +976,6 @@ def trace_event_curve(family, event, second: str, interval2, box=None, n_steps: 
         relative residual of the event's system at each; None for an event whose system is
         not continuable.
     """
-    from bhchem.analysis.events import EventCurve
     if event.system not in CONTINUABLE or not event.unknowns:
         return None
     fixed = dict(event.fixed)

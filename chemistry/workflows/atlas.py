@@ -38,7 +38,11 @@ per-point numbers, critical values and triple point, are left empty there).  A c
 whose classification differs from its interval's is listed in ``checks`` (and on stderr through
 ``notify``), never hidden; the events (with the structures below and above) are in
 ``events`` and drawn on the figure.  2D grids: the events along the first axis are located at
-every value of the second and chained into :class:`~bhchem.analysis.events.EventCurve` objects
+every value of the second; an event whose extended system is continuable is traced from its
+row by pseudo-arclength continuation in the second coupling
+(:func:`bhchem.analysis.structure_events.trace_event_curve`: turning points followed, every
+point solved by Newton with its residual, the ends exactly on the grid's edges), the others
+are chained row by row, into :class:`~bhchem.analysis.events.EventCurve` objects
 (``event_curves``, drawn as curves); the cells are the connected components (networkx) of the
 grid graph whose edges are cut where an event lies between their two ends (the events below
 x differ), one representative diagram per cell plus the check sample.  ``auto`` (the default) takes ``events`` for a linear 1D
