@@ -51,6 +51,12 @@ isotherm turns from T -> +inf to T -> -inf: a branch appears at the small end an
 the lines that end on that branch (e.g. a zeroth-order line whose window closes at P -> 0).
 Kind ``small-state-asymptote``.
 
+*In two couplings*, :func:`trace_event_curve` continues an event's extended system (recorded
+on the event as ``system`` and ``unknowns``) in a second coupling by pseudo-arclength
+continuation: the tangent is the null vector of the n x (n+1) Jacobian, the corrector Newton
+on the system plus the arclength plane, so turning points in either coupling are followed;
+each point carries its residual and the curve ends exactly on the edges of the box.
+
 Each event carries its residuals (the extended system at the solution, relative), a
 ``converged`` flag (Newton step and residual below tolerance) and the method.  What the
 detector cannot explain is listed, not dropped: a change in the number of physical critical
