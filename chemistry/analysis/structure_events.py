@@ -373,8 +373,13 @@ def solve_isolated(model, c, u):
     except Exception:  # no closed form: the Newton root stands
         pass
     f = F([math.log(x), cv])
+    # T stays finite through the merge only if the numerator has the double root too
+    # (N = N_x = 0): otherwise T has a pole there and no critical point merges (e.g. charged
+    # Lovelock, where the charge term spoils the numerator's double root)
+    Nx = sp.lambdify((xs, Psym, csym), xs * sp.diff(num, xs), "math")
     resid = {"D / |D|": abs(f[0]), "x D_x / |D|": abs(f[1]),
-             "N / |N|": abs(Nf(x, P, cv) / Nn(x, P, cv))}
+             "N / |N|": abs(Nf(x, P, cv) / Nn(x, P, cv)),
+             "x N_x / |N|": abs(Nx(x, P, cv) / Nn(x, P, cv))}
     ev = _event("isolated-critical-point", model, cv, resid,
                 ok and okp and P > 0 and max(resid.values()) <= EVENT_RESIDUAL_TOLERANCE,
                 "continuation + Newton on the double root of T's denominator (D, D_x) and "
