@@ -71,8 +71,13 @@ def test_born_infeld_lower_edge_of_one_critical_point_window():
     """Between bQ = 1/sqrt(8) and 1/2 the lower critical point reaches P = 0 at b1 and the
     structure turns from two critical points + reentrance to one + reentrance.  The event
     (continuation + Newton on x T_x = x^2 T_xx = 0 at P = 0) agrees with mpmath's 30-digit
-    solution of T_r = T_rr = 0 at P = 0 (formula above) to 1e-12; the full-diagram bisection
-    of the same edge is in benchmarks/bench_structure_map.py."""
+    solution of T_r = T_rr = 0 at P = 0 (formula above) to 1e-12.  The second way: the full
+    diagram's own critical search (its count of critical points makes the structure
+    signature) sees two critical points 5e-9 below the event and one 5e-9 above, so the two
+    ways agree to 1e-8 (the search keeps the explicit spinodal's extrema at any P > 0; the
+    lower point sits at P ~ 5e-10 there).  Bisection of the full diagrams themselves (24
+    diagrams, about 3 min) is in benchmarks/bench_structure_map.py: 1.8e-10 from the event."""
+    from bhchem.analysis.critical import find_critical_points
     T1, T2 = _d(_bi_T, 1), _d(_bi_T, 2)
     r, b = mp.findroot(lambda r, b: [T1(r, 0, b), T2(r, 0, b)], (1.0, 0.42))
     ev = structure_events("born-infeld-ads", "b", (0.41, 0.44), n_samples=2, Q=1.0)
@@ -81,6 +86,10 @@ def test_born_infeld_lower_edge_of_one_critical_point_window():
     assert e.kind == "critical-pressure-zero"
     assert abs(e.value - float(b)) <= 1e-12 * float(b)
     _assert_converged(e)
+    below = find_critical_points("born-infeld-ads", b=e.value - 5e-9, Q=1.0).physical
+    above = find_critical_points("born-infeld-ads", b=e.value + 5e-9, Q=1.0).physical
+    assert len(below) == 2 and len(above) == 1
+    assert 0 < min(cp.P for cp in below) < 1e-9
 
 
 def test_events_do_not_depend_on_the_detector_sampling():
@@ -190,8 +199,9 @@ def test_lovelock_isolated_critical_point_event():
 
 
 def test_atlas_2d_event_curves_and_cells(tmp_path, monkeypatch):
-    """2D map from events: Born-Infeld over (b, Q).  The 1D event along b at each Q traces the
-    curve bQ = 1/sqrt(8) (GKM); the cut grid graph has two cells, one diagram each (the
+    """2D map from events: Born-Infeld over (b, Q).  The 1D fold event along b, continued in
+    Q by pseudo-arclength, traces the curve bQ = 1/sqrt(8) (GKM) from edge to edge of the Q
+    range; the cut grid graph has two cells, one diagram each (the
     per-point analysis is a cheap stand-in classifying by bQ, so that the test checks the
     cells and the report, not the diagrams, which the 1D test covers)."""
     import bhchem.workflows.atlas as atlas
@@ -205,7 +215,9 @@ def test_atlas_2d_event_curves_and_cells(tmp_path, monkeypatch):
     doc = scan("born-infeld-ads", [parse_grid("b=0.3:0.4:6"), parse_grid("Q=0.95:1.05:2")],
                {}, tmp_path / "m", method="events", checks=4)
     (curve,) = [c for c in doc["event_curves"] if c["kind"] == "critical-count"]
-    assert curve["converged"] and len(curve["points"]) == 2
+    assert curve["converged"] and "pseudo-arclength" in curve["method"]
+    assert len(curve["points"]) > 2 and max(curve["residuals"]) <= 1e-11
+    assert [p[1] for p in (curve["points"][0], curve["points"][-1])] == [0.95, 1.05]
     for b, Q in curve["points"]:
         assert abs(b * Q - 1 / math.sqrt(8)) <= 1e-12
     assert doc["checks"]["cells"] == 2 and doc["diagrams_computed"] == 2 + 4
@@ -221,3 +233,134 @@ def test_cli_scan_events_on_a_discrete_axis_is_refused(capsys, tmp_path):
                  "-o", str(tmp_path / "x")])
     err = capsys.readouterr().err
     assert code == 2 and "d is discrete" in err and len(err.strip().splitlines()) == 1
+
+
+_TIGHT_HALO = '''name = "tight-halo-rn-ads"
+summary = "toy: charged AdS black hole whose halo term must stay below a quarter of the charge term"
+reference = "invented for the structure-event tests (no paper)"
+
+[dimension]
+default = 4
+minimum = 4
+maximum = 4
+description = "spacetime dimension"
+
+[parameters.Q]
+default = 1.0
+length_dimension = "1"
+domain = ">= 0"
+description = "electric charge"
+
+[parameters.mu]
+default = 0.1
+length_dimension = "3"
+description = "halo coupling"
+
+[expressions]
+M = "r/2 * (1 + 8*pi*P*r^2/3 + Q^2/r^2 + mu/r^3)"
+S = "pi*r^2"
+conditions = [{name = "halo-below-charge", relation = "4*mu < Q^2*r", reason = "toy: the halo term stays below a quarter of the charge term at the horizon", reference = "invented"}]
+'''
+
+
+def test_critical_point_leaving_the_domain_through_a_declared_condition(tmp_path):
+    """A family of our own invention (the haloed charged AdS toy of examples/families with a
+    declared condition 4 mu < Q^2 r): T = (1 + 8 pi P r^2 - Q^2/r^2 - 2 mu/r^3)/(4 pi r) from
+    the first law; its one critical point leaves the physical domain where r_c = 4 mu/Q^2.
+    Derived here with sympy (Q = 1): T_r = T_rr = 0 with mu = r/4 gives r = sqrt(11),
+    mu = sqrt(11)/4; the event (Newton on x T_x, x^2 T_xx and the boundary 4 mu - Q^2 r)
+    agrees to 1e-13, and the detector has nothing unexplained."""
+    from bhchem.declare.registry import load_family_file
+    r, P, mu = sp.symbols("r P mu", positive=True)
+    T = (1 + 8 * sp.pi * P * r**2 - 1 / r**2 - 2 * mu / r**3) / (4 * sp.pi * r)
+    on = {mu: r / 4}
+    sols = sp.solve([sp.diff(T, r).subs(on), sp.diff(T, r, 2).subs(on)], [r, P], dict=True)
+    (sol,) = [s for s in sols if s[r].is_positive and s[P].is_positive]
+    mu_exact = sp.nsimplify(sol[r] / 4)
+    assert mu_exact == sp.sqrt(11) / 4
+    path = tmp_path / "tight_halo.toml"
+    path.write_text(_TIGHT_HALO)
+    fam = load_family_file(path)[0]
+    ev = structure_events(fam, "mu", (0.5, 1.0), n_samples=2, Q=1.0)
+    (e,) = ev.events
+    assert ev.converged and not ev.unexplained and ev.counts == (1, 0)
+    assert e.kind == "critical-leaves-domain" and "halo-below-charge" in e.message
+    assert abs(e.value - float(mu_exact)) <= 1e-13
+    assert f"P = {float(sol[P]):.10g}"[:14] in e.message
+    _assert_converged(e, 1e-13)
+
+
+_SOLITON = '''name = "soliton-rn-ads"
+summary = "toy: charged AdS black hole competing with a horizonless phase of Gibbs energy sigma"
+reference = "invented for the structure-event tests (no paper)"
+
+[dimension]
+default = 4
+minimum = 4
+maximum = 4
+description = "spacetime dimension"
+
+[parameters.Q]
+default = 1.0
+length_dimension = "1"
+domain = ">= 0"
+description = "electric charge"
+
+[parameters.sigma]
+default = 1.0
+length_dimension = "1"
+domain = "> 0"
+description = "Gibbs energy of the competing horizonless phase"
+
+[expressions]
+M = "r/2 * (1 + 8*pi*P*r^2/3 + Q^2/r^2)"
+S = "pi*r^2"
+G_background = "sigma"
+'''
+
+
+def test_hawking_page_line_through_the_critical_point(tmp_path):
+    """No bundled family declares a background phase except schwarzschild-ads (no critical
+    point), so the solver is checked on a family of our own invention: charged AdS (fixed
+    charge) competing with a horizonless phase of constant Gibbs energy sigma.  The event is
+    where the background's line G = sigma passes through the critical point (the triple point
+    background/small/large where it cuts the first-order line appears or disappears).
+    Derived here with sympy from M and S: T_r = T_rr = 0 at r = sqrt(6) Q, P = 1/(96 pi Q^2),
+    where G = M - T S = sqrt(6) Q/3; G = sigma = 1 gives Q = sqrt(6)/2.  The event agrees to
+    1e-13."""
+    from bhchem.declare.registry import load_family_file
+    r, P, Q = sp.symbols("r P Q", positive=True)
+    M = r / 2 * (1 + 8 * sp.pi * P * r**2 / 3 + Q**2 / r**2)
+    S = sp.pi * r**2
+    T = sp.diff(M, r) / sp.diff(S, r)
+    (cp,) = sp.solve([sp.diff(T, r), sp.diff(T, r, 2)], [r, P], dict=True)
+    G_c = sp.simplify((M - T * S).subs(cp))
+    (Q_star,) = sp.solve(sp.Eq(G_c, 1), Q)
+    assert Q_star == sp.sqrt(6) / 2
+    path = tmp_path / "soliton.toml"
+    path.write_text(_SOLITON)
+    fam = load_family_file(path)[0]
+    ev = structure_events(fam, "Q", (1.0, 1.5), n_samples=2, sigma=1.0)
+    (e,) = ev.events
+    assert ev.converged and not ev.unexplained
+    assert e.kind == "hawking-page-meets-first-order"
+    assert abs(e.value - float(Q_star)) <= 1e-13
+    assert f"x = {float(cp[r].subs(Q, Q_star)):.10g}" in e.message
+    _assert_converged(e, 1e-13)
+
+
+def test_lovelock_isolated_critical_point_curve_by_continuation():
+    """The isolated-critical-point event of hyperbolic third-order Lovelock (d = 7, Q = 0)
+    continued in alpha2 by pseudo-arclength: every point lies on Dolan, Kostouki, Kubiznak &
+    Mann's curve alpha~3 = alpha~2^2/3 (CQG 31 (2014) 242001; alpha~2 = 12 alpha2,
+    alpha~3 = 24 alpha3 here, so alpha3 = 2 alpha2^2) to 1e-14 relative, and the curve ends
+    exactly on the edges of the box (alpha2 = 0.6 and alpha3 = 4, where it leaves through the
+    top of the alpha3 range before alpha2 reaches 1.5)."""
+    from bhchem.analysis.structure_events import trace_event_curve
+    (e,) = structure_events("lovelock3-ads", "alpha3", (1.9, 2.2), n_samples=2, d=7, k=-1,
+                            alpha2=1.0, Q=0.0).events
+    c = trace_event_curve("lovelock3-ads", e, "alpha2", (0.6, 1.5), box=(0.5, 4.0))
+    assert c.converged and max(c.residuals) <= 1e-11 and len(c.points) > 10
+    a3, a2 = c.points[:, 0], c.points[:, 1]
+    assert max(abs(a3 / (2 * a2**2) - 1)) <= 1e-14
+    assert a2[0] == 0.6 and a3[-1] == 4.0 and a2[-1] == pytest.approx(2 ** -0.5 * 2, rel=1e-14)

@@ -452,6 +452,9 @@ def _search(th, method, pressure_range, state_range) -> CriticalSearch:
     if scanned:
         msg += (f" over {th.derivation.state.name} in [{scanned['x'][0]:.3g}, "
                 f"{scanned['x'][1]:.3g}], P in [{scanned['P'][0]:.3g}, {scanned['P'][1]:.3g}]")
+        if scanned.get("below_floor"):
+            msg += (f" and {scanned['below_floor']} below that range from the extrema of the "
+                    f"explicit spinodal curve P*({th.derivation.state.name}) (any P > 0)")
     for remark in remarks:
         msg += f"; note: {remark}"
     if not converged:
@@ -880,18 +883,29 @@ def _scanned_candidates(th: Thermodynamics, pressure_range=None, state_range=Non
             guesses.append((math.sqrt(xs[a] * xs[b + 1]), Ps[col]))
         for a in idx:  # a pair merging within one grid cell
             guesses.append((xs[a], Ps[col]))
-    guesses += _spinodal_extrema_guesses(th, xlo, xhi, Plo, Phi, xs, Ps, F)
+    # T linear in P (the default range): the spinodal curve P*(x) is explicit, so its extrema
+    # are found at any P > 0, not only above the grid's floor Plo (a critical point running
+    # to P -> 0 as a coupling moves stays visible however small its pressure)
+    floor = 0.0 if (th.derivation.eos.form != "parametric" and not pressure_range) else Plo
+    guesses += _spinodal_extrema_guesses(th, xlo, xhi, floor, Phi, xs, Ps, F,
+                                         P_mid=math.sqrt(Plo * Phi))
     found = []
     for g in guesses:
         sol = _newton(th, *g)
-        if sol is not None and xlo <= sol[0] <= xhi and Plo <= sol[1] <= Phi:
+        if sol is not None and xlo <= sol[0] <= xhi and sol[1] <= Phi \
+                and (sol[1] > 0 if floor == 0.0 else sol[1] >= Plo):
             if not any(abs(sol[0] - f[0]) <= 1e-9 * sol[0] and abs(sol[1] - f[1]) <= 1e-9 * sol[1]
                        for f in found):
                 found.append(sol)
-    return found, {"x": [float(xlo), float(xhi)], "P": [float(Plo), float(Phi)]}
+    scanned = {"x": [float(xlo), float(xhi)], "P": [float(Plo), float(Phi)]}
+    below = sum(1 for f in found if f[1] < Plo)
+    if below:
+        scanned["below_floor"] = below
+    return found, scanned
 
 
-def _spinodal_extrema_guesses(th, xlo, xhi, Plo, Phi, xs, Ps, F, n_fine: int = 40000):
+def _spinodal_extrema_guesses(th, xlo, xhi, Plo, Phi, xs, Ps, F, n_fine: int = 40000,
+                              P_mid=None):
     """Critical points are the extrema of the spinodal curve P*(x) defined by T_x(x, P*) = 0
     (there dP*/dx = -T_xx/T_xP = 0).  Extrema of a 1D curve on a fine grid are found
     even when two critical points are close together, where counting extrema of T(x)
@@ -900,7 +914,7 @@ def _spinodal_extrema_guesses(th, xlo, xhi, Plo, Phi, xs, Ps, F, n_fine: int = 4
     if th.derivation.eos.form != "parametric":
         # T linear in P: the spinodal curve is explicit, P* = P0 - T_x(x, P0) / T_xP(x, P0)
         xf = np.geomspace(xlo, xhi, n_fine)
-        P0 = math.sqrt(Plo * Phi)
+        P0 = P_mid if P_mid is not None else math.sqrt(Plo * Phi)
         with np.errstate(all="ignore"):
             Pst = P0 - th.d("T", "x", xf, P0) / th.d("T", "xP", xf, P0)
         curves = [(xf, Pst)]

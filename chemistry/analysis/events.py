@@ -2,8 +2,8 @@
 
 An *event* is a coupling value (1D) or a curve in the plane of two couplings (2D) at which
 something countable about the phase structure changes: the number of critical points in the
-physical domain, a critical point crossing T = 0 or P = 0, a critical point leaving the
-globally preferred branch, a triple point appearing, the two terminal points of a
+physical domain, a critical point crossing T = 0 or P = 0 or the boundary of a declared state
+condition, a critical point leaving the globally preferred branch, a triple point appearing, the two terminal points of a
 zeroth-order line meeting, a Hawking--Page line meeting a first-order line.  Each event is
 located by solving its own equation (a discriminant or resultant of the critical polynomial,
 or an extended system solved by Newton after pseudo-arclength continuation), not by
@@ -35,6 +35,8 @@ EVENT_KINDS = {
     "critical-pressure-zero": "a critical point crosses P = 0",
     "critical-leaves-preferred": "a critical point leaves (or joins) the globally preferred "
                                  "branch",
+    "critical-leaves-domain": "a critical point crosses the boundary of a declared state "
+                              "condition (leaves or enters the physical domain)",
     "triple-point": "a triple point appears or disappears",
     "zeroth-order": "a zeroth-order line appears (its two terminal points meet)",
     "hawking-page-meets-first-order": "a Hawking--Page line meets a first-order line",
@@ -76,6 +78,11 @@ class StructureEvent(Result):
         map; None when not classified).
     message : str
         One line for the reader.
+    system : str
+        The name of the extended system solved (``fold``, ``pressure-zero``, ``on-line``,
+        ``background``, ``isolated``, ...; empty for the exact thresholds), with
+    unknowns : tuple of float
+        its solution (the coupling last), the seed of a continuation in a second coupling.
     """
 
     kind: str
@@ -90,6 +97,8 @@ class StructureEvent(Result):
     below: str | None = None
     above: str | None = None
     message: str = ""
+    system: str = ""
+    unknowns: tuple = ()
 
     def summary(self) -> str:
         where = self.exact if self.exact else f"{self.value:.12g}"

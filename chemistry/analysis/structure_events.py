@@ -33,11 +33,29 @@ swallowtail it ends appears or disappears there.  Newton on (log x_1, log x_c, P
 (kind ``critical-leaves-preferred``; the structure map renames it ``triple-point`` when the
 structure signatures on its two sides differ in a triple point);
 
+*a critical point crossing the boundary of a declared state condition*
+(``critical-leaves-domain``): where the continued point leaves the physical domain, the
+atom lhs < rhs of the condition that fails there gives g = lhs - rhs, and Newton solves
+x T_x = x^2 T_xx = g = 0 in (log x, P, c);
+
+*the Hawking--Page line of a background phase meeting a first-order line*
+(``hawking-page-meets-first-order``, families that declare ``G_background``): along a
+continued critical point, where G(x_c) - G_bg(P_c) changes sign the background's line passes
+through the critical point and the triple point (background, small, large) where it cuts the
+first-order line appears or disappears; Newton on x T_x = x^2 T_xx = G - G_bg = 0 in
+(log x, P, c);
+
 *the small-state asymptote*: where the leading coefficient lim_{x -> 0} x T(x, P) changes
 sign (sympy limit, root by Newton, exact by sympy where it can), the small-x end of every
 isotherm turns from T -> +inf to T -> -inf: a branch appears at the small end and with it
 the lines that end on that branch (e.g. a zeroth-order line whose window closes at P -> 0).
 Kind ``small-state-asymptote``.
+
+*In two couplings*, :func:`trace_event_curve` continues an event's extended system (recorded
+on the event as ``system`` and ``unknowns``) in a second coupling by pseudo-arclength
+continuation: the tangent is the null vector of the n x (n+1) Jacobian, the corrector Newton
+on the system plus the arclength plane, so turning points in either coupling are followed;
+each point carries its residual and the curve ends exactly on the edges of the box.
 
 Each event carries its residuals (the extended system at the solution, relative), a
 ``converged`` flag (Newton step and residual below tolerance) and the method.  What the
@@ -54,7 +72,7 @@ import sympy as sp
 
 from bhchem.analysis.critical import find_critical_points
 from bhchem.analysis.critical_polynomial import NoPolynomialFormError, polynomial_thresholds
-from bhchem.analysis.events import StructureEvent
+from bhchem.analysis.events import EventCurve, StructureEvent
 from bhchem.core.compiled import bind
 from bhchem.core.results import Result
 from bhchem.errors import BhchemError
@@ -65,7 +83,7 @@ STEP_TOLERANCE = 1e-14
 EVENT_RESIDUAL_TOLERANCE = 1e-11
 #: the kinds that change the number of physical critical points
 _COUNT_KINDS = ("critical-count", "critical-pressure-zero", "critical-temperature-zero",
-                "isolated-critical-point")
+                "isolated-critical-point", "critical-leaves-domain")
 #: default number of full critical-point searches along the interval (the detector)
 N_SAMPLES = 13
 
@@ -129,6 +147,8 @@ class CouplingModel:
                   "M": cd.function("M")}
         for w in ("x", "xx", "xxx", "xP", "xxP"):
             self.f["T" + w] = cd.derivative("T", w)
+        if th.has("G_background"):
+            self.f["G_background"] = cd.function("G_background")
 
     def __call__(self, name, x, P, c):
         p = list(self.base)
@@ -259,10 +279,12 @@ def continue_critical(model, c0, c1, u0, P0, n_steps: int = 8, min_step_rel: flo
 
 
 # -- event systems ------------------------------------------------------------------------------
-def _event(kind, model, c, residuals, ok, method, message, scale_free=None):
+def _event(kind, model, c, residuals, ok, method, message, scale_free=None, system="",
+           unknowns=()):
     return StructureEvent(kind=kind, coupling=model.coupling, value=float(c),
                           fixed=dict(model.fixed), residuals=residuals, converged=bool(ok),
-                          method=method, message=message, scale_free=scale_free or {})
+                          method=method, message=message, scale_free=scale_free or {},
+                          system=system, unknowns=tuple(float(v) for v in unknowns))
 
 
 def _scale_free(model, c):
@@ -291,7 +313,7 @@ def solve_fold(model, c, u, P):
            f"{'T_x = T_xx = T_xxx = 0' if abs(txxx) < 1e-8 else 'T_x = T_xx = T_xP = 0'})")
     return _event("critical-count", model, c, resid, ok and P > 0,
                   "continuation + Newton on the fold system (x T_x, x^2 T_xx, det J)", msg,
-                  _scale_free(model, c)), (u, P)
+                  _scale_free(model, c), "fold", z), (u, P)
 
 
 def _symbolic_T(model):
@@ -351,15 +373,20 @@ def solve_isolated(model, c, u):
     except Exception:  # no closed form: the Newton root stands
         pass
     f = F([math.log(x), cv])
+    # T stays finite through the merge only if the numerator has the double root too
+    # (N = N_x = 0): otherwise T has a pole there and no critical point merges (e.g. charged
+    # Lovelock, where the charge term spoils the numerator's double root)
+    Nx = sp.lambdify((xs, Psym, csym), xs * sp.diff(num, xs), "math")
     resid = {"D / |D|": abs(f[0]), "x D_x / |D|": abs(f[1]),
-             "N / |N|": abs(Nf(x, P, cv) / Nn(x, P, cv))}
+             "N / |N|": abs(Nf(x, P, cv) / Nn(x, P, cv)),
+             "x N_x / |N|": abs(Nx(x, P, cv) / Nn(x, P, cv))}
     ev = _event("isolated-critical-point", model, cv, resid,
                 ok and okp and P > 0 and max(resid.values()) <= EVENT_RESIDUAL_TOLERANCE,
                 "continuation + Newton on the double root of T's denominator (D, D_x) and "
                 "the numerator (P)",
                 f"two critical points merge at x = {x:.12g}, P = {P:.12g}, a double root of "
                 f"T's denominator where the numerator vanishes too (T = 0/0: an isolated "
-                f"critical point)", _scale_free(model, cv))
+                f"critical point)", _scale_free(model, cv), "isolated", (math.log(x), cv))
     return replace(ev, exact=exact)
 
 
@@ -406,7 +433,8 @@ def solve_pressure_zero(model, c, u, level=0.0):
                   {"x T_x / T": abs(f[0]), "x^2 T_xx / T": abs(f[1])}, ok,
                   "continuation + Newton on (x T_x, x^2 T_xx) = 0 at P = 0",
                   f"a critical point reaches P = 0 at x = {x:.12g}, "
-                  f"T = {model('T', x, 0.0, z[1]):.12g}", _scale_free(model, z[1]))
+                  f"T = {model('T', x, 0.0, z[1]):.12g}", _scale_free(model, z[1]),
+                  "pressure-zero" if level == 0.0 else "", z)
 
 
 def solve_temperature_zero(model, c, u, P, T_ref):
@@ -422,6 +450,81 @@ def solve_temperature_zero(model, c, u, P, T_ref):
                   "continuation + Newton on (T, x T_x, x^2 T_xx) = 0",
                   f"a critical point reaches T = 0 at x = {math.exp(z[0]):.12g}, P = {z[1]:.12g}",
                   _scale_free(model, z[2]))
+
+
+def _condition_boundary(model, inside, outside):
+    """The boundary function g (g = 0 on the boundary) of the declared state condition that
+    holds at ``inside`` and fails at ``outside`` (each (c, log x, P)): for an atom
+    ``lhs < rhs`` (or >, <=, >=) of the condition's relation (an And/Or is split into its
+    atoms), g = lhs - rhs, with the other parameters substituted exactly.  Returns
+    (condition label, atom text, g as a function of (x, P, c)) or None."""
+    der = model.th.derivation
+    xs = der.state
+    Psym = next(a for a in der.arguments if a.name == "P")
+    csym = next(s for s in der.parameters if s.name == model.coupling)
+    subs = {s: sp.nsimplify(model.th.values[s.name]) for s in der.parameters
+            if s.name != model.coupling}
+    (ci, ui, Pi), (co, uo, Po) = inside, outside
+    th_in, th_out = model.binding(ci), model.binding(co)
+    for cond in model.th.active_conditions:
+        if not (bool(th_in.condition_holds(cond.name, math.exp(ui), Pi))
+                and not bool(th_out.condition_holds(cond.name, math.exp(uo), Po))):
+            continue
+        atoms = [a for a in sp.preorder_traversal(cond.relation)
+                 if isinstance(a, (sp.StrictLessThan, sp.LessThan, sp.StrictGreaterThan,
+                                   sp.GreaterThan))]
+        for atom in atoms:
+            g_expr = (atom.lhs - atom.rhs).subs(subs)
+            g = sp.lambdify((xs, Psym, csym), g_expr, "math")
+            try:
+                gi = g(math.exp(ui), Pi, ci)
+                go = g(math.exp(uo), Po, co)
+            except (ValueError, ZeroDivisionError, OverflowError, TypeError):
+                continue
+            holds_i = bool(atom.func(gi, 0)) if math.isfinite(gi) else False
+            holds_o = bool(atom.func(go, 0)) if math.isfinite(go) else True
+            if holds_i and not holds_o and gi * go <= 0:
+                return cond.label(), sp.sstr(atom), g, (abs(gi) + abs(go)) or 1.0
+    return None
+
+
+def solve_domain_exit(model, inside, outside):
+    """A critical point crossing the boundary of a declared state condition: Newton in
+    (log x, P, c) on
+
+    .. math:: \\frac{x T_x}{T} = 0, \\quad \\frac{x^2 T_{xx}}{T} = 0, \\quad
+              g(x, P, c) = 0,
+
+    g = lhs - rhs of the condition's atom that holds on one side and fails on the other
+    (:func:`_condition_boundary`), scaled by its size at the two continuation points.
+    ``inside`` and ``outside`` are the last continued point inside the domain and the one
+    beyond, each (c, log x, P).  Returns None when no atom of a declared condition changes
+    sign between them."""
+    found = _condition_boundary(model, inside, outside)
+    if found is None:
+        return None
+    label, atom, g, gscale = found
+    (ci, ui, Pi), (co, uo, Po) = inside, outside
+    gi, go = g(math.exp(ui), Pi, ci), g(math.exp(uo), Po, co)
+    w = gi / (gi - go) if gi != go else 0.5
+
+    def F(z):
+        return np.array([*model.critical(z[0], z[1], z[2]),
+                         g(math.exp(z[0]), z[1], z[2]) / gscale])
+    try:
+        z, res, ok = newton(F, [ui + w * (uo - ui), Pi + w * (Po - Pi), ci + w * (co - ci)],
+                            max_step=0.2)
+        f = F(z)
+    except (ValueError, ZeroDivisionError, OverflowError):
+        return None
+    x = math.exp(z[0])
+    return _event("critical-leaves-domain", model, z[2],
+                  {"x T_x / T": abs(f[0]), "x^2 T_xx / T": abs(f[1]),
+                   "g / g_scale": abs(f[2])}, ok and z[1] > 0,
+                  "continuation + Newton on (x T_x, x^2 T_xx, g) = 0, g = 0 the boundary of "
+                  "a declared state condition",
+                  f"a critical point at x = {x:.12g}, P = {z[1]:.12g} crosses the boundary "
+                  f"{atom} of the condition {label}", _scale_free(model, z[2]))
 
 
 def _other_states(model, c, xc, P, T):
@@ -473,7 +576,7 @@ def solve_critical_on_line(model, c, u1, uc, P):
                   "continuation + Newton on (T1 - Tc, G1 - Gc, x T_x, x^2 T_xx)",
                   f"the critical point at x = {xc:.12g}, P = {z[2]:.12g} lies on the "
                   f"first-order line through the state x = {x1:.12g} (equal T and G)",
-                  _scale_free(model, z[3]))
+                  _scale_free(model, z[3]), "on-line", z)
 
 
 # -- the small-state asymptote -------------------------------------------------------------------
@@ -604,13 +707,20 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
                     cl, ul, Pl = path.points[-2]
                     add(solve_temperature_zero(model, cl, ul, Pl, T))
                 elif path.stop == "domain":
-                    notes.append({"bracket": sorted([path.points[-2][0], cs]),
-                                  "what": "a critical point leaves the physical domain "
-                                          "(a state condition); no event equation, bracket "
-                                          "only"})
-                # a critical point crossing another first-order line along this path
+                    ev = solve_domain_exit(model, path.points[-2], path.points[-1])
+                    if ev is not None:
+                        add(ev)
+                    if ev is None or not ev.converged:
+                        notes.append({"bracket": sorted([path.points[-2][0], cs]),
+                                      "what": "a critical point leaves the physical domain "
+                                              "(a state condition): "
+                                              + ("no boundary equation found" if ev is None
+                                                 else "Newton did not converge")})
+                # a critical point crossing another first-order line along this path, or
+                # the Hawking-Page line of a background phase
                 if a < b:
                     _line_crossings(model, path, add)
+                    _background_crossings(model, path, add)
     for ev in small_state_events(model, lo, hi, samples)[0]:
         add(ev)
     notes_poly = _merge_polynomial(family, coupling, (lo, hi), fixed, events)
@@ -687,3 +797,252 @@ def _line_crossings(model, path, add):
                     add(solve_critical_on_line(model, pc + w * (c - pc), u0 + w * (u1 - u0),
                                                pu + w * (u - pu), pP + w * (P - pP)))
         prev = (c, u, P, cur)
+
+
+def _background_dG(model, u, P, c):
+    """(G - G_background)/scale at the state (log x, P), scale = |G| + |T S| + |G_bg|."""
+    x = math.exp(u)
+    G, Gb = model("G", x, P, c), model("G_background", x, P, c)
+    return (G - Gb) / (abs(G) + abs(model("T", x, P, c) * model("S", x, P, c)) + abs(Gb))
+
+
+def solve_critical_on_background_line(model, c, u, P):
+    """The Hawking--Page line of the background phase passes through a critical point:
+    Newton in (log x, P, c) on
+
+    .. math:: \\frac{x T_x}{T} = 0, \\quad \\frac{x^2 T_{xx}}{T} = 0, \\quad
+              \\frac{G(x, P) - G_{bg}(P)}{|G| + |T S| + |G_{bg}|} = 0.
+
+    On one side the background's line G = G_bg cuts the first-order line that ends at the
+    critical point (a triple point: background, small and large black hole); on the other it
+    passes above the critical point and misses it."""
+    x0 = math.exp(u)
+    scale = abs(model("G", x0, P, c)) + abs(model("T", x0, P, c) * model("S", x0, P, c)) \
+        + abs(model("G_background", x0, P, c))
+
+    def F(z):
+        x = math.exp(z[0])
+        return np.array([*model.critical(z[0], z[1], z[2]),
+                         (model("G", x, z[1], z[2]) - model("G_background", x, z[1], z[2]))
+                         / scale])
+    z, res, ok = newton(F, [u, P, c], max_step=0.2)
+    f = F(z)
+    x = math.exp(z[0])
+    name = model.th.family.background_name
+    return _event("hawking-page-meets-first-order", model, z[2],
+                  {"x T_x / T": abs(f[0]), "x^2 T_xx / T": abs(f[1]),
+                   "(G - G_bg)/G_scale": abs(f[2])}, ok and z[1] > 0,
+                  "continuation + Newton on (x T_x, x^2 T_xx, G - G_background) = 0",
+                  f"the Hawking-Page line of {name} passes through the critical point at "
+                  f"x = {x:.12g}, P = {z[1]:.12g}, T = {model('T', x, z[1], z[2]):.12g}",
+                  _scale_free(model, z[2]), "background", z)
+
+
+def _background_crossings(model, path, add):
+    """Along a continued critical point: where G - G_background changes sign, solve
+    :func:`solve_critical_on_background_line` (families with a background phase only)."""
+    if "G_background" not in model.f:
+        return
+    pts = [p for p in path.points if p[2] > 0]
+    if path.stop != "reached":
+        pts = pts[:-1]
+    vals = [(c, u, P, _background_dG(model, u, P, c)) for (c, u, P) in pts]
+    for (c0, u0, P0, g0), (c1, u1, P1, g1) in zip(vals[:-1], vals[1:]):
+        if g0 * g1 < 0 or g1 == 0:
+            w = g0 / (g0 - g1)
+            add(solve_critical_on_background_line(model, c0 + w * (c1 - c0),
+                                                  u0 + w * (u1 - u0), P0 + w * (P1 - P0)))
+
+
+# -- an event continued in a second coupling ------------------------------------------------------
+#: the extended systems that can be continued in a second coupling (StructureEvent.system)
+CONTINUABLE = ("fold", "pressure-zero", "on-line", "background", "isolated")
+
+
+def _event_function(model, ev, j2):
+    """The event's extended system F(z) (z = ``ev.unknowns``, the coupling last) with the
+    second coupling read from ``model.base[j2]`` at each call; None for a system that is not
+    continuable."""
+    z0 = ev.unknowns
+    if ev.system == "fold":
+        return lambda z: model.fold(z[0], z[1], z[2])
+    if ev.system == "pressure-zero":
+        return lambda z: model.critical(z[0], 0.0, z[1])
+    if ev.system == "on-line":
+        x0, P0, c0 = math.exp(z0[1]), z0[2], z0[3]
+        gs = abs(model("G", x0, P0, c0)) + abs(model("T", x0, P0, c0) * model("S", x0, P0, c0))
+
+        def F(z):
+            x1, xc = math.exp(z[0]), math.exp(z[1])
+            Tc = model("T", xc, z[2], z[3])
+            return np.array([model("T", x1, z[2], z[3]) / Tc - 1,
+                             (model("G", x1, z[2], z[3]) - model("G", xc, z[2], z[3])) / gs,
+                             *model.critical(z[1], z[2], z[3])])
+        return F
+    if ev.system == "background":
+        x0, P0, c0 = math.exp(z0[0]), z0[1], z0[2]
+        gs = abs(model("G", x0, P0, c0)) + abs(model("T", x0, P0, c0) * model("S", x0, P0, c0)) \
+            + abs(model("G_background", x0, P0, c0))
+
+        def F(z):
+            x = math.exp(z[0])
+            return np.array([*model.critical(z[0], z[1], z[2]),
+                             (model("G", x, z[1], z[2]) - model("G_background", x, z[1], z[2]))
+                             / gs])
+        return F
+    if ev.system == "isolated":
+        der = model.th.derivation
+        xs = der.state
+        csym, c2sym = der.parameters[model.i], der.parameters[j2]
+        subs = {s: sp.nsimplify(model.th.values[s.name]) for s in der.parameters
+                if s not in (csym, c2sym)}
+        T = der.quantities["T"].subs(subs)
+        _, den = sp.fraction(sp.together(T))
+        den = sp.Mul(*[f for f in sp.Mul.make_args(sp.factor_terms(den)) if f.has(xs)])
+        args = (xs, csym, c2sym)
+        D = sp.lambdify(args, den, "math")
+        Dx = sp.lambdify(args, xs * sp.diff(den, xs), "math")
+        Dn = sp.lambdify(args, sum(abs(t) for t in sp.Add.make_args(sp.expand(den))), "math")
+
+        def F(z):
+            x, c2 = math.exp(z[0]), model.base[j2]
+            n = Dn(x, z[1], c2)
+            return np.array([D(x, z[1], c2) / n, Dx(x, z[1], c2) / n])
+        return F
+    return None
+
+
+def _jacobian(H, w):
+    f = H(w)
+    J = np.empty((len(f), len(w)))
+    for j in range(len(w)):
+        h = 1e-7 * max(1.0, abs(w[j]))
+        e = np.zeros(len(w))
+        e[j] = h
+        J[:, j] = (H(w + e) - H(w - e)) / (2 * h)
+    return f, J
+
+
+def _tangent(J, prev=None):
+    t = np.linalg.svd(J)[2][-1]
+    if prev is not None and float(t @ prev) < 0:
+        t = -t
+    return t
+
+
+def _correct(H, w, fixed_index=None, fixed_value=None, t=None, wp=None, max_iter=12):
+    """Newton on H(w) = 0 plus one closing equation: w[fixed_index] = fixed_value, or the
+    pseudo-arclength plane t . (w - wp) = 0.  Returns (w, residual, ok)."""
+    w = np.array(w, float)
+    if fixed_index is not None:
+        w[fixed_index] = fixed_value
+    for _ in range(max_iter):
+        f, J = _jacobian(H, w)
+        if not (np.all(np.isfinite(f)) and np.all(np.isfinite(J))):
+            return w, math.inf, False
+        if fixed_index is not None:
+            row = np.zeros(len(w))
+            row[fixed_index] = 1.0
+            g = w[fixed_index] - fixed_value
+        else:
+            row, g = t, float(t @ (w - wp))
+        A = np.vstack([J, row])
+        try:
+            dw = np.linalg.solve(A, -np.append(f, g))
+        except np.linalg.LinAlgError:
+            return w, math.inf, False
+        w = w + dw
+        if float(np.max(np.abs(dw))) <= 1e-13 * (1 + float(np.max(np.abs(w)))):
+            break
+    f = H(w)
+    res = float(np.max(np.abs(f))) if np.all(np.isfinite(f)) else math.inf
+    return w, res, res <= EVENT_RESIDUAL_TOLERANCE
+
+
+def trace_event_curve(family, event, second: str, interval2, box=None, n_steps: int = 40,
+                      max_points: int = 2000):
+    """Continue one event in a second coupling: pseudo-arclength continuation of its extended
+    system (the unknowns of the 1D event and the second coupling; turning points in either
+    coupling are followed), each point corrected by Newton to the event tolerance.
+
+    Parameters
+    ----------
+    family : str or Family
+    event : StructureEvent
+        A 1D event whose ``system`` is in :data:`CONTINUABLE`; its ``fixed`` holds the
+        second coupling's value.
+    second : str
+        The second coupling.
+    interval2 : (float, float)
+        Range of the second coupling; the curve ends exactly on its edges.
+    box : (float, float), optional
+        Range of the first coupling; the curve ends exactly on its edges too.
+    n_steps : int
+        Initial step: the second coupling's range over this.
+
+    Returns
+    -------
+    EventCurve or None
+        Points (first coupling, second coupling) in order along the curve, the largest
+        relative residual of the event's system at each; None for an event whose system is
+        not continuable.
+    """
+    if event.system not in CONTINUABLE or not event.unknowns:
+        return None
+    fixed = dict(event.fixed)
+    model = CouplingModel(family, event.coupling, fixed, event.value)
+    names = [s.name for s in model.th.derivation.parameters]
+    if second not in names:
+        raise BhchemError(f"{second!r} is not a continuous parameter of {model.th.family.name}")
+    j2 = names.index(second)
+    F = _event_function(model, event, j2)
+
+    def H(w):
+        model.base[j2] = float(w[-1])
+        with np.errstate(all="ignore"):
+            return np.asarray(F(w[:-1]), float)
+    lo2, hi2 = sorted(float(v) for v in interval2)
+    lo1, hi1 = (sorted(float(v) for v in box) if box is not None else (-math.inf, math.inf))
+    w0 = np.array([*event.unknowns, float(model.th.values[second])])
+    h0 = (hi2 - lo2) / n_steps
+    branches = []
+    for sense in (1.0, -1.0):
+        pts, w, prev = [], w0.copy(), None
+        h = h0
+        while len(pts) < max_points:
+            _, J = _jacobian(H, w)
+            t = _tangent(J, prev)
+            if prev is None and t[-1] * sense < 0:
+                t = -t
+            wp = w + h * t
+            wn, res, ok = _correct(H, wp, t=t, wp=wp)
+            if not ok or float(np.max(np.abs(wn[:-1] - w[:-1]))) > 0.5:
+                h /= 2
+                if h < h0 * 1e-6:
+                    break
+                continue
+            out2 = not (lo2 <= wn[-1] <= hi2)
+            out1 = not (lo1 <= wn[-2] <= hi1)
+            if out2 or out1:
+                k, v = ((-1, hi2 if wn[-1] > hi2 else lo2) if out2 else
+                        (-2, hi1 if wn[-2] > hi1 else lo1))
+                we, res, ok = _correct(H, w + (v - w[k]) / (wn[k] - w[k]) * (wn - w),
+                                       fixed_index=len(w) + k, fixed_value=v)
+                if ok and abs(w[k] - v) > 1e-14 * max(1.0, abs(v)):  # not the seed itself
+                    pts.append((we, res))
+                break
+            pts.append((wn, res))
+            prev, w = t, wn
+            h = min(h * 1.5, h0)
+        branches.append(pts)
+    r0 = float(np.max(np.abs(H(w0))))
+    chain = branches[1][::-1] + [(w0, r0)] + branches[0]
+    points = np.array([[p[-2], p[-1]] for p, _ in chain])
+    res = np.array([r for _, r in chain])
+    ok = bool(np.all(res <= EVENT_RESIDUAL_TOLERANCE))
+    return EventCurve(kind=event.kind, couplings=(event.coupling, second), points=points,
+                      residuals=res, converged=ok,
+                      method=f"pseudo-arclength continuation of the {event.system} system in "
+                             f"({event.coupling}, {second}), Newton on each point",
+                      message=f"{len(points)} points from {event.coupling} = "
+                              f"{event.value:.12g}, {second} = {w0[-1]:.12g}")

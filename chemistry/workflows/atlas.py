@@ -38,7 +38,11 @@ per-point numbers, critical values and triple point, are left empty there).  A c
 whose classification differs from its interval's is listed in ``checks`` (and on stderr through
 ``notify``), never hidden; the events (with the structures below and above) are in
 ``events`` and drawn on the figure.  2D grids: the events along the first axis are located at
-every value of the second and chained into :class:`~bhchem.analysis.events.EventCurve` objects
+every value of the second; an event whose extended system is continuable is traced from its
+row by pseudo-arclength continuation in the second coupling
+(:func:`bhchem.analysis.structure_events.trace_event_curve`: turning points followed, every
+point solved by Newton with its residual, the ends exactly on the grid's edges), the others
+are chained row by row, into :class:`~bhchem.analysis.events.EventCurve` objects
 (``event_curves``, drawn as curves); the cells are the connected components (networkx) of the
 grid graph whose edges are cut where an event lies between their two ends (the events below
 x differ), one representative diagram per cell plus the check sample.  ``auto`` (the default) takes ``events`` for a linear 1D
@@ -73,7 +77,7 @@ from concurrent.futures import as_completed as futures_as_completed
 from bhchem.analysis.critical import find_critical_points, scale_free_key
 from bhchem.analysis.phases import phase_diagram
 from bhchem.analysis.events import EventCurve
-from bhchem.analysis.structure_events import structure_events
+from bhchem.analysis.structure_events import structure_events, trace_event_curve
 from bhchem.core.checks import first_law_proved
 from bhchem.core.compiled import bind, parse_number, resolve_ensemble, validate_values
 from bhchem.declare.registry import get_family, load_family_file
@@ -623,6 +627,53 @@ def _apply_plan(plan, axis, rows, say) -> list:
     return boundaries
 
 
+def _on_curve(points, x, y, xr, yr, tol=1e-7) -> bool:
+    """Whether (x, y) lies on the polyline ``points`` (distance in units of the grid's
+    ranges below ``tol``)."""
+    p = np.asarray(points, float) / (xr, yr)
+    q = np.array([x / xr, y / yr])
+    if len(p) == 1:
+        return bool(np.hypot(*(p[0] - q)) <= tol)
+    a, b = p[:-1], p[1:]
+    d = b - a
+    t = np.clip(np.einsum("ij,ij->i", q - a, d) / np.maximum(np.einsum("ij,ij->i", d, d),
+                                                             1e-300), 0, 1)
+    return bool(np.min(np.hypot(*(a + t[:, None] * d - q).T)) <= tol)
+
+
+def _trace_curves(fam, found, kind, ax, ay, max_curves: int = 20):
+    """EventCurves of one kind by continuation of the row events in the second coupling
+    (:func:`bhchem.analysis.structure_events.trace_event_curve`), each row event seeding a
+    curve unless an earlier curve passes through it; None when some event of the kind is not
+    continuable (then the rows are chained instead)."""
+    seeds = [(j, e) for j, f in enumerate(found) for e in f.events if e.kind == kind]
+    if not seeds or any(not e.unknowns for _, e in seeds):
+        return None
+    xr = abs(ax.values[-1] - ax.values[0]) or 1.0
+    yr = abs(ay.values[-1] - ay.values[0]) or 1.0
+    box = sorted((ax.values[0], ax.values[-1]))
+    out, polylines = [], []
+    for j, e in seeds:
+        if any(_on_curve(p, e.value, ay.values[j], xr, yr) for p in polylines):
+            continue
+        if len(out) >= max_curves:
+            break
+        c = trace_event_curve(fam, e, ay.name, (ay.values[0], ay.values[-1]), box=box)
+        if c is None:
+            return None
+        polylines.append(c.points)
+        out.append(c.to_dict())
+    missed = sum(1 for j, e in seeds
+                 if not any(_on_curve(p, e.value, ay.values[j], xr, yr, tol=1e-6)
+                            for p in polylines))
+    if missed:
+        for c in out:
+            c["message"] += (f"; {missed} row events of this kind lie on no traced curve "
+                             f"(more than {max_curves} curves, or a continuation stopped)")
+            c["converged"] = False
+    return out
+
+
 def _event_plan_2d(fam, axes, fixed, n_checks, executor, workers) -> dict:
     """2D: the events along the first axis at every value of the second (each located by
     continuation + Newton; rows in parallel), chained into EventCurves; cells are the
@@ -675,9 +726,15 @@ def _event_plan_2d(fam, axes, fixed, n_checks, executor, workers) -> dict:
     n_check = min(n_checks, len(rest))
     checks = sorted(int(i) for i in rng.choice(rest, size=n_check, replace=False)) \
         if n_check else []
-    # curves: events of one kind, the n-th of that kind in each row, chained along y
+    # curves: an event whose extended system is continuable is traced by pseudo-arclength
+    # continuation in the second coupling (turning points followed) from its first row not
+    # yet on a traced curve; the others: the n-th event of a kind in each row, chained along y
     curves = []
     for k in kinds:
+        traced = _trace_curves(fam, found, k, ax, ay)
+        if traced is not None:
+            curves += traced
+            continue
         for n in range(max(sum(1 for e in f.events if e.kind == k) for f in found)):
             pts, res, ok = [], [], True
             for j, f in enumerate(found):
