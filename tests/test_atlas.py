@@ -84,6 +84,7 @@ def test_failed_points_are_recorded(tmp_path):
     (["scan", "rn-ads", "--grid", "Q=log:-1:2:3", "-o", "x"], "positive"),
     (["scan", "rn-ads", "--grid", "Q=-1:2:3", "-o", "x"], "outside its domain"),
     (["scan", "rn-ads", "--grid", "X=1:2:3", "-o", "x"], "no parameter 'X'"),
+    (["scan", "rn-ads", "--grid", "Q=1:2:3", "-o", "x", "--checks", "-1"], "0 or more"),
 ])
 def test_cli_scan_bad_input(capsys, tmp_path, argv, match):
     argv = [a if a != "x" else str(tmp_path / "x") for a in argv]

@@ -12,7 +12,7 @@ import os
 import sys
 import warnings
 
-from bhchem.errors import BhchemError, BhchemWarning
+from bhchem.errors import BhchemError, BhchemWarning, InvalidArgumentError
 from bhchem.fileio import check_writable_folder, clean_stale, output_lock
 from bhchem.present.serialize import to_json
 from bhchem.declare.registry import load_family_file
@@ -306,6 +306,8 @@ def cmd_demo(args) -> int:
 
 
 def cmd_scan(args) -> int:
+    if args.checks < 0:
+        raise InvalidArgumentError(f"--checks {args.checks}: give a count of 0 or more")
     axes = [parse_grid(g) for g in args.grid]
     fixed = {k: parse_number(v, k) for k, v in parse_assignments(args.param).items()}
     out = os.path.abspath(args.output)
@@ -329,7 +331,7 @@ def cmd_scan(args) -> int:
         doc = scan(args.family, axes, fixed, args.output, family_file=family_file,
                    workers=args.workers, executor=executor, quiet=args.quiet,
                    refine=args.refine, notify=_note, conditions=args.conditions,
-                   without=_without(args), method=args.method)
+                   without=_without(args), method=args.method, checks=args.checks)
     except OSError as exc:  # e.g. disk full or a read-only folder: say what is missing
         print(f"bhchem: error: the atlas table in {args.output} was not written ({exc}); "
               f"a rerun reuses any finished chunks in {args.output}/chunks",
@@ -489,6 +491,9 @@ def build_parser() -> argparse.ArgumentParser:
                         "diagrams for one point per interval plus a check sample; diagrams: "
                         "a full diagram per point; auto (default): events for a linear 1D grid "
                         "of 16 or more points")
+    p.add_argument("--checks", type=int, default=8,
+                   help="with events: how many grid points (seeded sample) also get a full "
+                        "diagram as a check of their interval's structure (8)")
     p.add_argument("--refine", type=int, default=8,
                    help="bisection steps per boundary (8; 0: bracket by the grid only)")
     p.add_argument("--quiet", action="store_true", help="no progress display")
