@@ -628,14 +628,18 @@ def _apply_plan(plan, axis, rows, say) -> list:
 
 
 def _on_curve(points, x, y, xr, yr, tol=1e-7) -> bool:
-    """Whether (x, y) lies on the polyline ``points`` (distance in units of the grid's
-    ranges below ``tol``)."""
+    """Whether (x, y) lies on the curve sampled by the polyline ``points``: distance in
+    units of the grid's ranges below ``tol``, or below half the square of the longest chord
+    (a chord of length L of a curve with curvature kappa misses it by L^2 kappa / 8: a
+    curved event line, alpha3 = 2 alpha2^2, lies up to ~1e-5 off its own polyline, and each
+    row event on it used to start a new copy of the same curve)."""
     p = np.asarray(points, float) / (xr, yr)
     q = np.array([x / xr, y / yr])
     if len(p) == 1:
         return bool(np.hypot(*(p[0] - q)) <= tol)
     a, b = p[:-1], p[1:]
     d = b - a
+    tol = max(tol, 0.5 * float(np.max(np.einsum("ij,ij->i", d, d))))
     t = np.clip(np.einsum("ij,ij->i", q - a, d) / np.maximum(np.einsum("ij,ij->i", d, d),
                                                              1e-300), 0, 1)
     return bool(np.min(np.hypot(*(a + t[:, None] * d - q).T)) <= tol)
