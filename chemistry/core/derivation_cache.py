@@ -67,14 +67,19 @@ def _fingerprint(obj) -> str:
     return repr(obj)
 
 
-def _code_fingerprint() -> str:
+def _sources_fingerprint(modules) -> str:
+    """SHA-256 over the source text of ``modules`` (paths relative to the package)."""
     h = hashlib.sha256()
-    for rel in _DERIVING_MODULES:
+    for rel in modules:
         try:
             h.update((_PACKAGE_DIR / rel).read_bytes())
-        except OSError:  # pragma: no cover - an unusual install; key on the version only
+        except OSError:  # pragma: no cover - an unusual install; key on the name only
             h.update(rel.encode())
     return h.hexdigest()
+
+
+def _code_fingerprint() -> str:
+    return _sources_fingerprint(_DERIVING_MODULES)
 
 
 def cache_key(family, discrete: dict) -> str:
@@ -133,14 +138,8 @@ def _note_key(family, discrete: dict, topic: str, code: tuple) -> str:
     """The key text of a fact ``topic`` about the derivation of ``family`` at ``discrete``,
     computed by the modules ``code`` (paths relative to the package) besides the deriving
     ones."""
-    h = hashlib.sha256()
-    for rel in code:
-        try:
-            h.update((_PACKAGE_DIR / rel).read_bytes())
-        except OSError:  # pragma: no cover - an unusual install; key on the name only
-            h.update(rel.encode())
     return "\n".join([cache_key(family, dict(discrete)), f"note {topic}",
-                      f"note code {h.hexdigest()}"])
+                      f"note code {_sources_fingerprint(code)}"])
 
 
 def load_note(family, discrete: dict, topic: str, code: tuple = ()):
