@@ -1231,3 +1231,15 @@ def scale_free_values(th: Thermodynamics, cp: CriticalPoint) -> dict:
         if other != name and m != 0:
             put(other, float(th.values[other]), m)
     return out
+
+
+def critical_newton_increment(x, P, T, Tx, Txx, Txxx, TxP, TxxP):
+    """The Newton increment (du, dw) in u = log x, w = log P for the critical conditions
+    (x T_x, x^2 T_xx) = 0, each scaled by |T| + |x T_x| (elementwise on arrays; non-finite
+    where the Jacobian is singular).  Shared by the vectorised critical-point polishers."""
+    sc = abs(T) + abs(x * Tx) + 1e-300
+    F1, F2 = x * Tx / sc, x * x * Txx / sc
+    J11, J12 = (x * Tx + x * x * Txx) / sc, x * P * TxP / sc
+    J21, J22 = (2 * x * x * Txx + x**3 * Txxx) / sc, x * x * P * TxxP / sc
+    det = J11 * J22 - J12 * J21
+    return -(J22 * F1 - J12 * F2) / det, -(-J21 * F1 + J11 * F2) / det

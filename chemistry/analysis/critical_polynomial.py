@@ -60,7 +60,7 @@ import numpy as np
 import sympy as sp
 
 from bhchem.analysis.critical import (RESIDUAL_TOLERANCE, linear_isotherm, positive_roots,
-                                      power_label)
+                                      power_label, critical_newton_increment)
 from bhchem.analysis.events import EventCurve, StructureEvent
 from bhchem.core.compiled import Thermodynamics, bind
 from bhchem.core.identity_cache import MISSING, IdentityCache
@@ -1175,13 +1175,7 @@ def critical_points_over(family, coupling: str, values, newton_steps: int = 2,
             Tx, Txx = d["x"](x, P, *P_args), d["xx"](x, P, *P_args)
             Txxx, TxP, TxxP = (d["xxx"](x, P, *P_args), d["xP"](x, P, *P_args),
                                d["xxP"](x, P, *P_args))
-            sc = np.abs(T) + np.abs(x * Tx) + 1e-300
-            F1, F2 = x * Tx / sc, x * x * Txx / sc
-            J11, J12 = (x * Tx + x * x * Txx) / sc, x * P * TxP / sc
-            J21, J22 = (2 * x * x * Txx + x**3 * Txxx) / sc, x * x * P * TxxP / sc
-            det = J11 * J22 - J12 * J21
-            du = -(J22 * F1 - J12 * F2) / det
-            dw = -(-J21 * F1 + J11 * F2) / det
+            du, dw = critical_newton_increment(x, P, T, Tx, Txx, Txxx, TxP, TxxP)
             ok = np.isfinite(du) & np.isfinite(dw)
             u, w = u + np.where(ok, du, 0.0), w + np.where(ok, dw, 0.0)
         x, P = np.exp(u), np.exp(w)

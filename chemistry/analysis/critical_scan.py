@@ -30,7 +30,8 @@ import numpy as np
 
 from bhchem.core.results import Result
 from bhchem.core.compiled import bind
-from bhchem.analysis.critical import RESIDUAL_TOLERANCE, find_critical_points
+from bhchem.analysis.critical import (RESIDUAL_TOLERANCE, critical_newton_increment,
+                                      find_critical_points)
 from bhchem.analysis.critical_polynomial import NoPolynomialFormError, critical_points_over
 
 
@@ -125,13 +126,7 @@ def _continuation(family, parameter, values, order, sv, n_anchor, fixed) -> Crit
                 T = fT(x, P, *params)
                 Tx, Txx = fTx(x, P, *params), fTxx(x, P, *params)
                 Txxx, TxP, TxxP = fTxxx(x, P, *params), fTxP(x, P, *params), fTxxP(x, P, *params)
-                sc = np.abs(T) + np.abs(x * Tx) + 1e-300
-                F1, F2 = x * Tx / sc, x * x * Txx / sc
-                J11, J12 = (x * Tx + x * x * Txx) / sc, x * P * TxP / sc
-                J21, J22 = (2 * x * x * Txx + x**3 * Txxx) / sc, x * x * P * TxxP / sc
-                det = J11 * J22 - J12 * J21
-                du = -(J22 * F1 - J12 * F2) / det
-                dw = -(-J21 * F1 + J11 * F2) / det
+                du, dw = critical_newton_increment(x, P, T, Tx, Txx, Txxx, TxP, TxxP)
                 m = np.maximum(np.abs(du), np.abs(dw))
                 f = np.where(m > 0.3, 0.3 / np.where(m > 0, m, 1), 1.0)
                 u, w = u + np.nan_to_num(f * du), w + np.nan_to_num(f * dw)
