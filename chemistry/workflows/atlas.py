@@ -569,21 +569,30 @@ def _event_plan(fam, axis, fixed, n_checks) -> dict:
             "computed": computed, "on_event": on_event}
 
 
-def _apply_plan(plan, axis, rows, say) -> list:
-    """Fill every row from its interval's representative, compare the check sample, fill the
-    events' ``below``/``above``; returns the boundaries (one per event)."""
-    reps, interval = plan["reps"], plan["interval"]
-    keep = ("structure", "n_critical", "cp1:kind", "cp2:kind", "cp3:kind")
+#: the columns a grid point takes from its interval's (or cell's) representative
+_FROM_REPRESENTATIVE = ("structure", "n_critical", "cp1:kind", "cp2:kind", "cp3:kind")
+
+
+def _fill_from_representatives(rows, representative_of) -> None:
+    """A row without its own diagram takes the classified columns and the error of the row
+    ``representative_of(i)`` (``from_interval`` says which rows did)."""
     for i, r in enumerate(rows):
         if "structure" in r:
             r["from_interval"] = False
             continue
-        src = rows[reps[interval[i]]]
-        for k in keep:
+        src = rows[representative_of(i)]
+        for k in _FROM_REPRESENTATIVE:
             if k in src:
                 r[k] = src[k]
         r["error"] = src.get("error", "")
         r["from_interval"] = True
+
+
+def _apply_plan(plan, axis, rows, say) -> list:
+    """Fill every row from its interval's representative, compare the check sample, fill the
+    events' ``below``/``above``; returns the boundaries (one per event)."""
+    reps, interval = plan["reps"], plan["interval"]
+    _fill_from_representatives(rows, lambda i: reps[interval[i]])
     checks = []
     for i in plan["checks"]:
         k = interval[i]
@@ -766,18 +775,9 @@ def _event_plan_2d(fam, axes, fixed, n_checks, executor, workers) -> dict:
 
 def _apply_plan_2d(plan, axes, rows, say) -> list:
     """Fill every row from its cell's representative and compare the check sample."""
-    keep = ("structure", "n_critical", "cp1:kind", "cp2:kind", "cp3:kind")
     for m, r in enumerate(rows):
         r["cell"] = plan["cell_of"][m]
-        if "structure" in r:
-            r["from_interval"] = False
-            continue
-        src = rows[plan["reps"][plan["cell_of"][m]]]
-        for k in keep:
-            if k in src:
-                r[k] = src[k]
-        r["error"] = src.get("error", "")
-        r["from_interval"] = True
+    _fill_from_representatives(rows, lambda m: plan["reps"][plan["cell_of"][m]])
     checks = []
     for m in plan["checks"]:
         k = plan["cell_of"][m]
