@@ -133,6 +133,25 @@ def test_lovelock_isolated_critical_point_curve():
         assert abs(float(relation.subs({al2: a2, al3: a3}))) <= 1e-12 * (1 + a3)
 
 
+def test_lovelock_isolated_threshold_is_exact_at_a_grid_coupling():
+    """At a coupling typed as a long decimal (point 16 of a 30-point grid on [0.6, 1.4])
+    the isolated critical point sits at alpha3 = 2 alpha2^2 (DKKM14, as derived in the test
+    above), a rational: the reported exact value must be that rational (it used to be
+    "simplified" into a radical 2e-17 away, whose symbolic gcd then ran for minutes and
+    found no isolated point)."""
+    a2 = 1.0413793103448274
+    events = polynomial_thresholds("lovelock3-ads", "alpha3", (0.5, 4.0), d=7, k=-1, Q=0.0,
+                                   alpha2=a2)
+    iso = [e for e in events if e.kind == "isolated-critical-point"]
+    assert len(iso) == 1
+    want = 2 * sp.Rational(repr(a2)) ** 2
+    assert sp.Rational(iso[0].exact) == want
+    assert iso[0].value == float(want)
+    for e in events:        # every exact value is the root it stands for (50 digits)
+        if e.exact is not None:
+            assert abs(sp.N(sp.sympify(e.exact), 50) - e.value) <= 1e-15 * e.value
+
+
 def test_family_without_polynomial_form(tmp_path):
     """T with an exponential: an honest 'no polynomial form', from the API and the CLI."""
     path = tmp_path / "cloud.toml"

@@ -71,6 +71,9 @@ from bhchem.errors import BhchemError, InvalidArgumentError
 _DPS = 40
 #: relative size of |p0 + p1 sqrt(R)| below which a root of the norm is genuine
 _GENUINE = 1e-20
+#: two positive roots of u' and w' (each refined to 1e-30 relative) closer than this
+#: (relative) are one common root
+_COMMON_ROOT = sp.Rational(1, 10**20)
 _LOCK = threading.Lock()
 
 
@@ -551,7 +554,13 @@ def _factor_roots(f, c, lo, hi) -> list:
     for r, v in roots:
         if lo <= v <= hi:
             if r is not None and pf.degree() <= 2:
-                r = sp.nsimplify(sp.radsimp(r))
+                # radsimp only: nsimplify of an exact number with a long rational part
+                # "simplifies" it into a different radical (2 alpha2^2 at a grid alpha2
+                # became 2^(43/46) 3^(37/46) ..., off by 2e-17)
+                r = sp.radsimp(r)
+            if r is not None and abs(mp.mpf(str(sp.N(r, _DPS + 10))) - v) > \
+                    mp.mpf(10) ** (-_DPS) * max(1, abs(v)):
+                r = None                # never report an "exact" value that is not the root
             found.append((r, v, f))
     return found
 
@@ -650,15 +659,23 @@ def _physical_roots(sysm, values: dict):
 
 def _isolated_point(sysm, values: dict):
     """(x, T_c, P_c) of an isolated critical point (u' and w' share a positive root x with
-    T_c = w''/u'' > 0, P_c > 0) at the given exact values, or None."""
+    T_c = w''/u'' > 0, P_c > 0) at the given exact values, or None.
+
+    The common root is found numerically, not by a symbolic gcd: the positive roots of u'
+    and of w' (coefficients at 60 digits, isolated exactly, refined to 1e-30 relative) that
+    agree to ``_COMMON_ROOT`` relative.  A simple common root agrees to ~1e-30 and a double
+    one to ~1e-28; a symbolic gcd over the coefficient field of an algebraic coupling (a
+    radical such as 2^(43/46) 3^(37/46) ... for alpha3 = 2 alpha2^2 at a grid alpha2) took
+    minutes."""
     U, W = (sp.expand(e.subs(values)) for e in sysm.UW)
-    g = sp.gcd(sp.Poly(U, sysm.x), sp.Poly(W, sysm.x))
-    if g.degree() < 1:
+    if not (U.has(sysm.x) and W.has(sysm.x)):
         return None
+    xu, xw = positive_roots(U, sysm.x), positive_roots(W, sysm.x)
+    common = [a for a in xu if any(abs(a - b) <= _COMMON_ROOT * abs(a) for b in xw)]
     with _LOCK, mp.workdps(_DPS):
         pv = [mp.mpf(str(sp.N(values[q], _DPS + 10))) for q in sysm.params]
-        for xr in positive_roots(g.as_expr(), sysm.x):
-            xv = mp.mpf(str(sp.N(xr, _DPS + 10)))
+        for xr in common:
+            xv = mp.mpf(xr.p) / xr.q
             try:
                 Tv, Pv = sysm.fn["Ti"](xv, *pv), sysm.fn["Pi"](xv, *pv)
             except ZeroDivisionError:
