@@ -183,7 +183,9 @@ def test_lovelock_isolated_critical_point_event():
     r_c = sqrt(alpha~2), P_c = (d-1)(d-2)/(48 pi alpha~2) (alpha~2 = (d-3)(d-4) alpha2,
     alpha~3 = (d-3)(d-4)(d-5)(d-6) alpha3).  Along alpha3 (alpha2 = 1) two critical points are
     born there; T is 0/0 at the merge, and the event is the double root of T's denominator,
-    exact: alpha3 = 2."""
+    exact: alpha3 = 2.  It is the only event: a minimum of T(r, P = 0) changes sign in the
+    interval through that pole, not through zero (no 'zeroth-order' candidate; one used to
+    be reported, not converged, at alpha3 = 13.95)."""
     d, a2 = 7, 1.0
     at2 = (d - 3) * (d - 4) * a2
     ev = structure_events("lovelock3-ads", "alpha3", (1.9, 2.2), n_samples=2, d=d, k=-1,
@@ -384,3 +386,84 @@ def test_a_curved_event_line_is_traced_once_in_a_2d_map(tmp_path, monkeypatch):
     assert len(iso) == 1 and iso[0]["converged"]
     for a3, a2 in iso[0]["points"]:
         assert abs(a3 / (2 * a2 ** 2) - 1) <= 1e-12
+
+
+def _eh_sympy():
+    """Euler-Heisenberg-AdS from its metric function (form of Magos & Breton, PRD 102 (2020)
+    084011, from memory; the same as examples/families/euler_heisenberg_ads.toml):
+    f = 1 - 2M/r + r^2/L^2 + Q^2/r^2 - a Q^4/(20 r^6), T = f'(r+)/(4 pi) with M from
+    f(r+) = 0, 8 pi P = 3/L^2, G = M - T S, S = pi r^2."""
+    r, M, L, Q, a, P = sp.symbols("r M L Q a P", positive=True)
+    f = 1 - 2 * M / r + r**2 / L**2 + Q**2 / r**2 - a * Q**4 / (20 * r**6)
+    Msol = sp.solve(f, M)[0]
+    ell = sp.sqrt(3 / (8 * sp.pi * P))
+    T = sp.simplify((sp.diff(f, r).subs(M, Msol) / (4 * sp.pi)).subs(L, ell))
+    G = (Msol - T * sp.pi * r**2).subs(L, ell)
+    return (r, P, a, Q), T, G
+
+
+def test_euler_heisenberg_zeroth_order_window_opens_from_zero_pressure():
+    """A zeroth-order line (reentrance) opens from P = 0, T = 0 where the lowest isotherm
+    T(r, P = 0) gets a double zero.  Derived here from the metric function: the numerator
+    of T at P = 0 is a Q^4 - 4 Q^2 r^4 + 4 r^6, whose double zero is at a = 16 Q^2 / 27,
+    r = sqrt(6) Q / 3.  The event is found at that value exactly (a resultant), for two
+    charges (a/Q^2 is the scale-free coupling); no critical point changes there, so before
+    this event kind the map had no event at all below a = 16/7.  The engine's full phase
+    diagrams agree on either side: none at a = 0.55, one zeroth-order line at a = 0.7, whose
+    two terminal points are the mpmath solutions (30 digits, from the formulas here) of
+    (i) the two branch ends at equal temperature (T_r = 0 at r1 and r2, T(r1) = T(r2)) and
+    (ii) the first-order crossing reaching the smaller branch's end (T_r(r1) = 0,
+    T(r1) = T(r3), G(r1) = G(r3))."""
+    from bhchem.declare.registry import load_family_file
+    from bhchem.workflows.atlas import analyse_point
+    from test_atlas import EH_FILE
+
+    (r, P, a, Q), T, G = _eh_sympy()
+    num = sp.factor(sp.numer(sp.together(T.subs(P, 0))))
+    assert sp.expand(num - (a * Q**4 - 4 * Q**2 * r**4 + 4 * r**6)) == 0
+    (sol,) = sp.solve([num, sp.diff(num, r)], [r, a], dict=True)
+    assert sol[a] == 16 * Q**2 / 27 and sol[r] == sp.sqrt(6) * Q / 3
+    fam = load_family_file(EH_FILE)[0]
+    for q in (1, 2):
+        want = float(sol[a].subs(Q, q))
+        ev = structure_events(fam, "a", (0.7 * want, 1.3 * want), n_samples=3, Q=float(q))
+        (e,) = ev.events
+        assert ev.converged and e.kind == "zeroth-order" and e.system == "end-zero"
+        assert sp.sympify(e.exact) == sol[a].subs(Q, q)
+        assert abs(e.value - want) <= 1e-15 * want
+        _assert_converged(e, tol=1e-14)
+        assert f"x = {float(sol[r].subs(Q, q)):.12g}" in e.message
+    below = analyse_point("euler-heisenberg-ads", EH_FILE, {"a": 0.55, "Q": 1.0})
+    above = analyse_point("euler-heisenberg-ads", EH_FILE, {"a": 0.7, "Q": 1.0})
+    assert "reentrant" not in below["structure"] and "reentrant_P_low" not in below
+    assert "reentrant" in above["structure"]
+    Tf = sp.lambdify((r, P, a, Q), T, "mpmath")
+    Tr = sp.lambdify((r, P, a, Q), sp.diff(T, r), "mpmath")
+    Gf = sp.lambdify((r, P, a, Q), G, "mpmath")
+    av = mp.mpf("0.7")
+    ends = mp.findroot(lambda r1, r2, p: [Tr(r1, p, av, 1), Tr(r2, p, av, 1),
+                                          Tf(r1, p, av, 1) - Tf(r2, p, av, 1)],
+                       (0.85, 30.0, 9e-5))
+    gibbs = mp.findroot(lambda r1, r3, p: [Tr(r1, p, av, 1), Tf(r1, p, av, 1) - Tf(r3, p, av, 1),
+                                           Gf(r1, p, av, 1) - Gf(r3, p, av, 1)],
+                        (0.857, 25.0, 7e-5))
+    assert above["reentrant_P_high"] == pytest.approx(float(ends[2]), rel=1e-10)
+    assert above["reentrant_P_low"] == pytest.approx(float(gibbs[2]), rel=1e-10)
+
+
+
+def test_euler_heisenberg_zeroth_order_curve_in_two_couplings():
+    """The event above continued in Q by pseudo-arclength: the curve a = 16 Q^2 / 27
+    (derived in the test above), from edge to edge of the Q range."""
+    from bhchem.analysis.structure_events import trace_event_curve
+    from bhchem.declare.registry import load_family_file
+    from test_atlas import EH_FILE
+
+    fam = load_family_file(EH_FILE)[0]
+    (e,) = structure_events(fam, "a", (0.5, 0.7), n_samples=2, Q=1.0).events
+    c = trace_event_curve(fam, e, "Q", (0.8, 1.2), box=(0.3, 0.9))
+    assert c.converged and len(c.points) >= 10
+    assert c.points[0][1] == pytest.approx(0.8, abs=1e-14)
+    assert c.points[-1][1] == pytest.approx(1.2, abs=1e-14)
+    for a, q in c.points:
+        assert abs(a - 16 * q**2 / 27) <= 1e-12 * a

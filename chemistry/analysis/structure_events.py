@@ -51,6 +51,18 @@ isotherm turns from T -> +inf to T -> -inf: a branch appears at the small end an
 the lines that end on that branch (e.g. a zeroth-order line whose window closes at P -> 0).
 Kind ``small-state-asymptote``.
 
+*a zeroth-order line opening from P = 0* (kind ``zeroth-order``, system ``end-zero``):
+where a local minimum of the lowest isotherm T(x, P = 0) changes sign (minima tracked
+between the samples; a sign change through a pole of T is told apart by shrinking the
+bracket), the isotherms at small P split around a gap of T < 0; the smaller branch's end
+and the larger branch's minimum are the two terminal points of a zeroth-order line, and
+they meet at P = 0, T = 0 on the event.  Newton on (4 pi x T, 4 pi x^2 T_x) = 0 at P = 0 in
+(log x, c); exact (a root of the resultant of T's numerator and its x-derivative) where
+that numerator is a polynomial with rational coefficients.  The same two terminal points
+meeting at a finite pressure (two branch ends at equal T and G) is not searched: in the
+families at hand the window closes at P = 0 (Euler--Heisenberg) or into a fold of the
+critical points (Born--Infeld at bQ = 1/sqrt(8)), both events of the kinds above.
+
 *In two couplings*, :func:`trace_event_curve` continues an event's extended system (recorded
 on the event as ``system`` and ``unknowns``) in a second coupling by pseudo-arclength
 continuation: the tangent is the null vector of the n x (n+1) Jacobian, the corrector Newton
@@ -629,6 +641,153 @@ def small_state_events(model, lo, hi, samples):
     return out, []
 
 
+# -- a zeroth-order line opening from P = 0 -----------------------------------------------------
+#: points of the log grid (1e-4 .. 1e4 times the typical state) on which the P = 0 isotherm's
+#: minima are bracketed
+_END_GRID = 2401
+
+
+def _zero_pressure_minima(model, c, x_typ):
+    """Local minima of the P = 0 isotherm T(x, 0) in x (sign changes of T_x on a log grid,
+    polished by Newton): list of (log x, 4 pi x T), the temperature in units of 1/(4 pi x)."""
+    xs = x_typ * np.geomspace(1e-4, 1e4, _END_GRID)
+    p = list(model.base)
+    p[model.i] = c
+    with np.errstate(all="ignore"):
+        Tx = model.f["Tx"](xs, 0.0, *p)
+    out = []
+    for k in np.nonzero(np.isfinite(Tx[:-1]) & np.isfinite(Tx[1:])
+                        & (Tx[:-1] < 0) & (Tx[1:] > 0))[0]:
+        z, res, ok = newton(lambda z: np.array([4 * math.pi * math.exp(2 * z[0])
+                                                * model("Tx", math.exp(z[0]), 0.0, c)]),
+                            [math.log(math.sqrt(xs[k] * xs[k + 1]))], max_iter=40,
+                            max_step=0.1)
+        if res < 1e-12:
+            x = math.exp(z[0])
+            out.append((z[0], 4 * math.pi * x * model("T", x, 0.0, c)))
+    return out
+
+
+def _end_zero_system(model):
+    """F(log x, c) = (4 pi x T, 4 pi x^2 T_x) at P = 0 (temperatures in units of 1/(4 pi x),
+    the natural temperature of a state of size x)."""
+    def F(z):
+        x = math.exp(z[0])
+        return np.array([4 * math.pi * x * model("T", x, 0.0, z[1]),
+                         4 * math.pi * x * x * model("Tx", x, 0.0, z[1])])
+    return F
+
+
+def _end_zero_exact(model, value):
+    """The exact coupling of a double zero of T(x, 0) in x, where T's numerator at P = 0 is a
+    polynomial in x with rational coefficients: a root of the resultant of the numerator and
+    its x-derivative (sympy), the one within 1e-9 of ``value``; None otherwise."""
+    T, xs, Psym, csym = _symbolic_T(model)
+    try:
+        num = sp.numer(sp.together(T.subs(Psym, 0)))
+        num = sp.Mul(*[f for f in sp.Mul.make_args(sp.factor_terms(num)) if f.has(xs)])
+        if not num.is_polynomial(xs, csym):
+            return None
+        res = sp.Poly(sp.resultant(num, sp.diff(num, xs), xs), csym)
+        if not (res.domain.is_ZZ or res.domain.is_QQ) or res.degree() < 1:
+            return None
+        for f, _ in res.factor_list()[1]:
+            for r in f.real_roots():
+                if abs(float(r) - value) <= 1e-9 * max(1.0, abs(value)):
+                    return r
+    except (sp.PolynomialError, NotImplementedError, ValueError, TypeError):
+        return None
+    return None
+
+
+def solve_end_zero(model, c, u):
+    """The end of a branch of the P = 0 isotherm touches T = 0: Newton in (log x, c) on
+
+    .. math:: 4\\pi x\\,T(x, 0) = 0, \\quad 4\\pi x^2\\,T_x(x, 0) = 0
+
+    (a double zero of T(x, 0): a minimum of the lowest isotherm reaching T = 0).  On the side
+    where that minimum is negative, every isotherm at small enough P has a gap of T < 0
+    between a smaller and a larger branch; the smaller branch's end and the larger
+    branch's minimum are the two terminal points of a zeroth-order line (reentrance when the
+    smaller branch is preferred) which meet at P = 0, T = 0 on the event.  Kind
+    ``zeroth-order``, system ``end-zero``."""
+    F = _end_zero_system(model)
+    try:
+        z, res, ok = newton(F, [u, c], max_step=0.2)
+    except (ValueError, OverflowError, ZeroDivisionError):
+        return None
+    f = F(z)
+    x = math.exp(z[0])
+    curv = 4 * math.pi * x**3 * model("Txx", x, 0.0, z[1])
+    exact = _end_zero_exact(model, float(z[1])) if ok else None
+    value = float(exact) if exact is not None else z[1]
+    ev = _event("zeroth-order", model, value,
+                {"4 pi x T": abs(f[0]), "4 pi x^2 T_x": abs(f[1])}, ok and curv > 0,
+                "continuation + Newton on (T, x T_x) = 0 at P = 0 (a double zero of the "
+                "lowest isotherm)" + ("; exact: a root of the resultant of T's numerator "
+                                      "and its x-derivative" if exact is not None else ""),
+                f"a minimum of the P = 0 isotherm touches T = 0 at x = {x:.12g} "
+                f"(4 pi x^3 T_xx = {curv:.3g}): on the side where it dips below zero the "
+                f"low-pressure isotherms split, and the two terminal points of a zeroth-order "
+                f"line (the smaller branch's end, the larger branch's minimum) meet at "
+                f"P = 0, T = 0", _scale_free(model, value), "end-zero", z)
+    return replace(ev, exact=str(exact)) if exact is not None else ev
+
+
+def zero_pressure_end_events(model, samples) -> list:
+    """Along the samples: where a local minimum of T(x, 0) changes sign (minima matched
+    between neighbouring samples within 0.5 in log x), :func:`solve_end_zero`."""
+    x_typ = model.th.typical_state()
+    mins = [_zero_pressure_minima(model, float(c), x_typ) for c in samples]
+    out = []
+    for c0, c1, m0, m1 in zip(samples[:-1], samples[1:], mins[:-1], mins[1:]):
+        for u0, t0 in m0:
+            near = [(u1, t1) for u1, t1 in m1 if abs(u1 - u0) < 0.5]
+            if not near:
+                continue
+            u1, t1 = near[0]
+            if t0 * t1 < 0 or t1 == 0:
+                seed = _end_zero_bracket(model, (c0, u0, t0), (c1, u1, t1))
+                if seed is None:        # the minimum passes through a pole of T, not zero
+                    continue
+                ev = solve_end_zero(model, *seed)
+                if ev is not None:
+                    out.append(ev)
+    return out
+
+
+def _end_zero_bracket(model, a, b, max_halvings: int = 60):
+    """Shrink a sign change of a tracked minimum of T(x, 0) ((c, log x, 4 pi x T) at each
+    end) until the temperature at both ends is below 1e-8 (a zero: returns (c, log x) to
+    seed Newton) or the bracket is below 1e-14 relative while it is not (the sign changes
+    through a pole of T, as across the double root of the denominator of hyperbolic
+    Lovelock: returns None), or the minimum is lost (None)."""
+    def min_at(c, u):
+        z, res, _ = newton(lambda z: np.array([4 * math.pi * math.exp(2 * z[0])
+                                               * model("Tx", math.exp(z[0]), 0.0, c)]),
+                           [u], max_iter=40, max_step=0.1)
+        if not res < 1e-12:
+            return None
+        x = math.exp(z[0])
+        return c, z[0], 4 * math.pi * x * model("T", x, 0.0, c)
+    for _ in range(max_halvings):
+        if abs(a[2]) < 1e-8 and abs(b[2]) < 1e-8:
+            w = a[2] / (a[2] - b[2]) if a[2] != b[2] else 0.5
+            return a[0] + w * (b[0] - a[0]), a[1] + w * (b[1] - a[1])
+        if abs(b[0] - a[0]) <= 1e-14 * max(1.0, abs(a[0])):
+            return None
+        m = min_at(0.5 * (a[0] + b[0]), 0.5 * (a[1] + b[1]))
+        if m is None or abs(m[1] - a[1]) > 0.5:
+            return None
+        if m[2] == 0:
+            return m[0], m[1]
+        if (m[2] < 0) == (a[2] < 0):
+            a = m
+        else:
+            b = m
+    return None
+
+
 # -- the detector and the whole ------------------------------------------------------------------
 def _physical_points(family, coupling, c, fixed):
     s = find_critical_points(family, **{**fixed, coupling: float(c)})
@@ -722,6 +881,8 @@ def structure_events(family, coupling: str, interval, n_samples: int = N_SAMPLES
                     _line_crossings(model, path, add)
                     _background_crossings(model, path, add)
     for ev in small_state_events(model, lo, hi, samples)[0]:
+        add(ev)
+    for ev in zero_pressure_end_events(model, samples):
         add(ev)
     notes_poly = _merge_polynomial(family, coupling, (lo, hi), fixed, events)
     events.sort(key=lambda e: e.value)
@@ -856,7 +1017,7 @@ def _background_crossings(model, path, add):
 
 # -- an event continued in a second coupling ------------------------------------------------------
 #: the extended systems that can be continued in a second coupling (StructureEvent.system)
-CONTINUABLE = ("fold", "pressure-zero", "on-line", "background", "isolated")
+CONTINUABLE = ("fold", "pressure-zero", "on-line", "background", "isolated", "end-zero")
 
 
 def _event_function(model, ev, j2):
@@ -890,6 +1051,8 @@ def _event_function(model, ev, j2):
                              (model("G", x, z[1], z[2]) - model("G_background", x, z[1], z[2]))
                              / gs])
         return F
+    if ev.system == "end-zero":
+        return _end_zero_system(model)
     if ev.system == "isolated":
         der = model.th.derivation
         xs = der.state
