@@ -117,6 +117,23 @@ def test_charged_gauss_bonnet_6d_triple_point_window_ends(lo, hi, theirs):
     assert abs(3 * e.value / (2 * math.pi) - theirs) <= 1.1e-4
 
 
+def test_a_state_born_on_the_critical_isotherm_between_path_points_is_not_missed():
+    """GB d = 6, alpha = 1/6 (Wei & Liu's upper triple-point end, 0.1946 in their
+    normalisation, test above): from the samples Q = 0.39 and 0.43 the continued critical
+    point meets the other branch only after the branch's state is born on its isotherm
+    between two path points, already on the other side of the crossing.  The birth is
+    bracketed and the event found, the same as from (0.40, 0.415) to 1e-12 (it was missed,
+    as it was from 13 samples on [0.2, 0.6])."""
+    kw = dict(d=6, k=1, alpha=1 / 6)
+    wide = structure_events("gauss-bonnet-ads", "Q", (0.39, 0.43), n_samples=2, **kw)
+    assert [e.kind for e in wide.events] == ["critical-leaves-preferred", "critical-count"]
+    (near,) = structure_events("gauss-bonnet-ads", "Q", (0.40, 0.415), n_samples=2,
+                               **kw).events
+    assert abs(wide.events[0].value - near.value) <= 1e-12 * near.value
+    _assert_converged(wide.events[0])
+    assert abs(3 * near.value / (2 * math.pi) - 0.1946) <= 1.1e-4
+
+
 def test_atlas_from_events_born_infeld(tmp_path):
     """The 1D map from the events (replaces the per-point bisection tests of the atlas, which
     located 1/sqrt(8) and 1/2 to 1e-3 from full diagrams): 19 values of bQ in [0.345, 0.525]

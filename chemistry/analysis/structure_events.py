@@ -936,28 +936,78 @@ def _merge_polynomial(family, coupling, interval, fixed, events) -> str:
 
 def _line_crossings(model, path, add):
     """Along a continued critical point: where Delta G to another stable state on its
-    isotherm changes sign, solve the critical-point-on-line system."""
+    isotherm changes sign, solve the critical-point-on-line system.
+
+    A state of another branch can appear on the critical isotherm between two path points
+    (the isotherm touches T_c at one of its minima) already on the other side of the
+    crossing, or vanish there: then the interval is halved (the critical point re-solved at
+    each midpoint) until the state's first (last) appearance is bracketed to 1e-10 of the
+    coupling, and its Delta G there is compared (GB d = 6: a crossing at alpha = 1/6,
+    Q = 0.4075 was missed with path points 0.005 apart)."""
     pts = [p for p in path.points if p[2] > 0]
     if path.stop != "reached":
         pts = pts[:-1]
     if len(pts) < 2:
         return
-    prev = None
-    for (c, u, P) in pts:
+
+    def states(c, u, P):
         xc = math.exp(u)
         T = model("T", xc, P, c)
-        others = _other_states(model, c, xc, P, T)
-        cur = [(u1, _delta_G(model, u1, xc, P, c)) for u1 in others]
+        return [(u1, _delta_G(model, u1, xc, P, c)) for u1 in _other_states(model, c, xc, P, T)]
+
+    def crossing(a, b, da, db):
+        """a, b = (c, u, P, u1); a sign change of Delta G between them: solve."""
+        w = da / (da - db)
+        add(solve_critical_on_line(model, a[0] + w * (b[0] - a[0]), a[3] + w * (b[3] - a[3]),
+                                   a[1] + w * (b[1] - a[1]), a[2] + w * (b[2] - a[2])))
+
+    prev = None
+    for (c, u, P) in pts:
+        cur = states(c, u, P)
         if prev is not None:
             pc, pu, pP, pcur = prev
             for u1, d1 in cur:
                 match = [(u0, d0) for u0, d0 in pcur if abs(u0 - u1) < 0.3]
                 if match and match[0][1] * d1 < 0:
                     u0, d0 = match[0]
-                    w = d0 / (d0 - d1)
-                    add(solve_critical_on_line(model, pc + w * (c - pc), u0 + w * (u1 - u0),
-                                               pu + w * (u - pu), pP + w * (P - pP)))
+                    crossing((pc, pu, pP, u0), (c, u, P, u1), d0, d1)
+                elif not match:            # born between the two points
+                    edge = _appearance(model, (pc, pu, pP), (c, u, P), u1, states)
+                    if edge is not None and edge[1] * d1 < 0:
+                        crossing((*edge[0], edge[2]), (c, u, P, u1), edge[1], d1)
+            for u0, d0 in pcur:
+                if not any(abs(u0 - u1) < 0.3 for u1, _ in cur):   # gone between them
+                    edge = _appearance(model, (c, u, P), (pc, pu, pP), u0, states)
+                    if edge is not None and edge[1] * d0 < 0:
+                        crossing((pc, pu, pP, u0), (*edge[0], edge[2]), d0, edge[1])
         prev = (c, u, P, cur)
+
+
+def _appearance(model, absent, present, u_state, states, rel: float = 1e-10):
+    """Halve [absent, present] (each (c, log x_c, P) of the critical point; the other state
+    near ``u_state`` exists at ``present`` only) until it is below ``rel`` of the coupling:
+    ((c, u, P), Delta G, log x1) at the point nearest the state's appearance where it
+    exists, or None when the critical point is lost."""
+    a, b, ub, db = absent, present, u_state, None
+    for _ in range(60):
+        if abs(b[0] - a[0]) <= rel * max(1.0, abs(b[0])):
+            break
+        cm = 0.5 * (a[0] + b[0])
+        z, res = _solve_critical(model, cm, 0.5 * (a[1] + b[1]), 0.5 * (a[2] + b[2]))
+        if not res < 1e-12:
+            return None
+        m = (cm, float(z[0]), float(z[1]))
+        near = [(u1, d1) for u1, d1 in states(*m) if abs(u1 - ub) < 0.3]
+        if near:
+            b, (ub, db) = m, near[0]
+        else:
+            a = m
+    if db is None:
+        near = [(u1, d1) for u1, d1 in states(*b) if abs(u1 - ub) < 0.3]
+        if not near:
+            return None
+        ub, db = near[0]
+    return b, db, ub
 
 
 def _background_dG(model, u, P, c):
