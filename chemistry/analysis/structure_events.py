@@ -59,9 +59,17 @@ and the larger branch's minimum are the two terminal points of a zeroth-order li
 they meet at P = 0, T = 0 on the event.  Newton on (4 pi x T, 4 pi x^2 T_x) = 0 at P = 0 in
 (log x, c); exact (a root of the resultant of T's numerator and its x-derivative) where
 that numerator is a polynomial with rational coefficients.  The same two terminal points
-meeting at a finite pressure (two branch ends at equal T and G) is not searched: in the
-families at hand the window closes at P = 0 (Euler--Heisenberg) or into a fold of the
-critical points (Born--Infeld at bQ = 1/sqrt(8)), both events of the kinds above.
+meeting at a finite pressure (two branch ends x1 < x2 at equal T and equal G) is not
+searched, because with one extremum of the isotherm between the two ends it cannot happen:
+along the isotherm dG = -S dT, so for two minima G(x2) - G(x1) = int (S_desc - S_asc) dT
+over [T1, T_max] > 0 (the descending side has the larger states), and for two maxima
+G(x2) - G(x1) < 0 likewise; the window [P_gibbs, P_ends] then closes only where the pair of
+ends itself is born or dies -- at P = 0 (Euler--Heisenberg, this event) or into a fold of
+the critical points (Born--Infeld at bQ = 1/sqrt(8), Euler--Heisenberg at a = 32 Q^2/7),
+both located above.  Pairs with three or more extrema between (two critical points'
+worth of isotherm) can change the sign of G(x2) - G(x1): in charged Gauss--Bonnet d = 6,
+alpha = 1/6, Q in (0.39, 0.42) they do, but no such pair is on the globally preferred
+branch there, and no bundled family was found where one is.
 
 *In two couplings*, :func:`trace_event_curve` continues an event's extended system (recorded
 on the event as ``system`` and ``unknowns``) in a second coupling by pseudo-arclength
