@@ -237,7 +237,8 @@ def test_atlas_2d_event_curves_and_cells(tmp_path, monkeypatch):
     Q by pseudo-arclength, traces the curve bQ = 1/sqrt(8) (GKM) from edge to edge of the Q
     range; the cut grid graph has two cells, one diagram each (the
     per-point analysis is a cheap stand-in classifying by bQ, so that the test checks the
-    cells and the report, not the diagrams, which the 1D test covers)."""
+    cells and the report, not the diagrams, which the 1D test covers).  Events are the
+    default method for it (6 x 3 points, both couplings continuous and linear)."""
     import bhchem.workflows.atlas as atlas
 
     def fake(family_name, family_file, params, admissible=(None, ())):
@@ -246,8 +247,9 @@ def test_atlas_2d_event_curves_and_cells(tmp_path, monkeypatch):
                 "structure": "two" if two else "none"}
 
     monkeypatch.setattr(atlas, "analyse_point", fake)
-    doc = scan("born-infeld-ads", [parse_grid("b=0.3:0.4:6"), parse_grid("Q=0.95:1.05:2")],
-               {}, tmp_path / "m", method="events", checks=4)
+    doc = scan("born-infeld-ads", [parse_grid("b=0.3:0.4:6"), parse_grid("Q=0.95:1.05:3")],
+               {}, tmp_path / "m", checks=4)
+    assert doc["method"] == "events"      # the default for a linear 2D grid of >= 16 points
     (curve,) = [c for c in doc["event_curves"] if c["kind"] == "critical-count"]
     assert curve["converged"] and "pseudo-arclength" in curve["method"]
     assert len(curve["points"]) > 2 and max(curve["residuals"]) <= 1e-11

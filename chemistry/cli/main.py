@@ -487,10 +487,11 @@ def build_parser() -> argparse.ArgumentParser:
                    help="how long to try to reach the Dask scheduler (network I/O; 10s)")
     add_condition_args(p)
     p.add_argument("--method", choices=("auto", "diagrams", "events"), default="auto",
-                   help="events: locate the structure events along a 1D axis and compute full "
-                        "diagrams for one point per interval plus a check sample; diagrams: "
-                        "a full diagram per point; auto (default): events for a linear 1D grid "
-                        "of 16 or more points")
+                   help="events: locate the structure events along the first axis (traced "
+                        "along the second in 2D) and compute full diagrams for one point per "
+                        "interval or cell plus a check sample; diagrams: a full diagram per "
+                        "point; auto (default): events for a linear 1D or 2D grid of "
+                        "continuous couplings with 16 or more points")
     p.add_argument("--checks", type=int, default=8,
                    help="with events: how many grid points (seeded sample) also get a full "
                         "diagram as a check of their interval's structure (8)")

@@ -45,10 +45,10 @@ point solved by Newton with its residual, the ends exactly on the grid's edges),
 are chained row by row, into :class:`~bhchem.analysis.events.EventCurve` objects
 (``event_curves``, drawn as curves); the cells are the connected components (networkx) of the
 grid graph whose edges are cut where an event lies between their two ends (the events below
-x differ), one representative diagram per cell plus the check sample.  ``auto`` (the default) takes ``events`` for a linear 1D
-grid of at least EVENTS_MIN_POINTS points with the default state conditions (below that
-per-point diagrams cost about as much as the representatives and checks) and ``diagrams``
-otherwise.
+x differ), one representative diagram per cell plus the check sample.  ``auto`` (the
+default) takes ``events`` for a linear 1D or 2D grid of continuous couplings with at least
+EVENTS_MIN_POINTS points and the default state conditions (below that per-point diagrams
+cost about as much as the representatives and checks) and ``diagrams`` otherwise.
 
 Files: the table (atlas.csv, atlas.json) is the result.  The figure (atlas.png) is drawn
 first; if it cannot be written (matplotlib missing, disk full) the table says so in
@@ -102,7 +102,7 @@ ATLAS_ANCHORS = 48  # isobar anchors per phase diagram (narrow reentrant windows
 CHECK_SAMPLE = 8
 #: the seed of the check sample (fixed: a rerun checks the same points)
 CHECK_SEED = 17
-#: ``method="auto"`` uses events for a linear 1D grid of at least this many points
+#: ``method="auto"`` uses events for a linear 1D or 2D grid of at least this many points
 EVENTS_MIN_POINTS = 16
 METHODS = ("auto", "diagrams", "events")
 #: full critical-point searches per row of a 2D events map (continuation covers the rest; a
@@ -368,9 +368,10 @@ def scan(family_name, axes, fixed=None, out_dir=None, *, family_file=None, worke
                                        ).derivation.parameters}
     auto = method == "auto"
     if method == "auto":
-        method = "events" if (len(axes) == 1 and axes[0].spacing == "linear"
-                              and axes[0].name in continuous
-                              and len(axes[0].values) >= EVENTS_MIN_POINTS
+        method = "events" if (len(axes) in (1, 2)
+                              and all(a.spacing == "linear" and a.name in continuous
+                                      for a in axes)
+                              and math.prod(len(a.values) for a in axes) >= EVENTS_MIN_POINTS
                               and conditions is None and not without) else "diagrams"
     if method == "events" and len(axes) > 2:
         raise BhchemError("--method events takes one or two --grid axes (use diagrams for "
