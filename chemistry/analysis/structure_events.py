@@ -692,8 +692,14 @@ def _end_zero_exact(model, value):
     """The exact coupling of a double zero of T(x, 0) in x, where T's numerator at P = 0 is a
     polynomial in x with rational coefficients: a root of the resultant of the numerator and
     its x-derivative (sympy), the one within 1e-9 of ``value``; None otherwise."""
-    T, xs, Psym, csym = _symbolic_T(model)
+    _, xs, Psym, csym = _symbolic_T(model)
+    der = model.th.derivation
+    # the other parameters exactly as typed (0.3 -> 3/10, a grid's 0.8421052631578947 stays
+    # that decimal), so that the exact value belongs to the parameters of the run
+    typed = {s: sp.Rational(repr(float(model.th.values[s.name]))) for s in der.parameters
+             if s.name != model.coupling}
     try:
+        T = der.quantities["T"].subs(typed)
         num = sp.numer(sp.together(T.subs(Psym, 0)))
         num = sp.Mul(*[f for f in sp.Mul.make_args(sp.factor_terms(num)) if f.has(xs)])
         if not num.is_polynomial(xs, csym):
