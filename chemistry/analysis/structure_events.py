@@ -205,8 +205,9 @@ def newton(F, z0, max_iter: int = 60, max_step=None):
     """Newton on F(z) = 0 with a central-difference Jacobian.
 
     Returns (z, residual, converged): converged when the last step is below
-    STEP_TOLERANCE relative to z and the residual (max |F|) below
-    EVENT_RESIDUAL_TOLERANCE.  ``max_step`` damps a step (max norm).
+    STEP_TOLERANCE (or, where the difference Jacobian's noise stalls the steps there, below
+    ACCEPT_STEP) relative to z and the residual (max |F|) below EVENT_RESIDUAL_TOLERANCE.
+    ``max_step`` damps a step (max norm).
     """
     z = np.array(z0, float)
     n = len(z)
