@@ -117,9 +117,7 @@ def test_wide_intervals_give_the_same_events_from_any_sampling(family, coupling,
     are checked against papers and derivations in the tests above (Wei & Liu's window;
     16/27, 16/7, 32/7)."""
     if family == "euler-heisenberg-ads":
-        from bhchem.declare.registry import load_family_file
-        from test_atlas import EH_FILE
-        family = load_family_file(EH_FILE)[0]
+        family = _eh_family()
     runs = [structure_events(family, coupling, interval, n_samples=n, **fixed)
             for n in (5, 9)]
     for r in runs:
@@ -422,6 +420,13 @@ def test_a_curved_event_line_is_traced_once_in_a_2d_map(tmp_path, monkeypatch):
         assert abs(a3 / (2 * a2 ** 2) - 1) <= 1e-12
 
 
+def _eh_family():
+    """The Euler-Heisenberg-AdS example family (examples/families/euler_heisenberg_ads.toml)."""
+    from bhchem.declare.registry import load_family_file
+    from test_atlas import EH_FILE
+    return load_family_file(EH_FILE)[0]
+
+
 def _eh_sympy():
     """Euler-Heisenberg-AdS from its metric function (form of Magos & Breton, PRD 102 (2020)
     084011, from memory; the same as examples/families/euler_heisenberg_ads.toml):
@@ -448,7 +453,6 @@ def test_euler_heisenberg_zeroth_order_window_opens_from_zero_pressure():
     (i) the two branch ends at equal temperature (T_r = 0 at r1 and r2, T(r1) = T(r2)) and
     (ii) the first-order crossing reaching the smaller branch's end (T_r(r1) = 0,
     T(r1) = T(r3), G(r1) = G(r3))."""
-    from bhchem.declare.registry import load_family_file
     from bhchem.workflows.atlas import analyse_point
     from test_atlas import EH_FILE
 
@@ -457,7 +461,7 @@ def test_euler_heisenberg_zeroth_order_window_opens_from_zero_pressure():
     assert sp.expand(num - (a * Q**4 - 4 * Q**2 * r**4 + 4 * r**6)) == 0
     (sol,) = sp.solve([num, sp.diff(num, r)], [r, a], dict=True)
     assert sol[a] == 16 * Q**2 / 27 and sol[r] == sp.sqrt(6) * Q / 3
-    fam = load_family_file(EH_FILE)[0]
+    fam = _eh_family()
     for q in (1, 2):
         want = float(sol[a].subs(Q, q))
         ev = structure_events(fam, "a", (0.7 * want, 1.3 * want), n_samples=3, Q=float(q))
@@ -485,15 +489,12 @@ def test_euler_heisenberg_zeroth_order_window_opens_from_zero_pressure():
     assert above["reentrant_P_low"] == pytest.approx(float(gibbs[2]), rel=1e-10)
 
 
-
 def test_euler_heisenberg_zeroth_order_curve_in_two_couplings():
     """The event above continued in Q by pseudo-arclength: the curve a = 16 Q^2 / 27
     (derived in the test above), from edge to edge of the Q range."""
     from bhchem.analysis.structure_events import trace_event_curve
-    from bhchem.declare.registry import load_family_file
-    from test_atlas import EH_FILE
 
-    fam = load_family_file(EH_FILE)[0]
+    fam = _eh_family()
     (e,) = structure_events(fam, "a", (0.5, 0.7), n_samples=2, Q=1.0).events
     c = trace_event_curve(fam, e, "Q", (0.8, 1.2), box=(0.3, 0.9))
     assert c.converged and len(c.points) >= 10

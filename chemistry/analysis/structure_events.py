@@ -1034,23 +1034,23 @@ def _line_crossings(model, path, add):
                     u0, d0 = match[0]
                     crossing((pc, pu, pP, u0), (c, u, P, u1), d0, d1)
                 elif not match:            # born between the two points
-                    edge = _appearance(model, (pc, pu, pP), (c, u, P), u1, states)
+                    edge = _appearance(model, (pc, pu, pP), (c, u, P), u1, d1, states)
                     if edge is not None and edge[1] * d1 < 0:
                         crossing((*edge[0], edge[2]), (c, u, P, u1), edge[1], d1)
             for u0, d0 in pcur:
                 if not any(abs(u0 - u1) < 0.3 for u1, _ in cur):   # gone between them
-                    edge = _appearance(model, (c, u, P), (pc, pu, pP), u0, states)
+                    edge = _appearance(model, (c, u, P), (pc, pu, pP), u0, d0, states)
                     if edge is not None and edge[1] * d0 < 0:
                         crossing((pc, pu, pP, u0), (*edge[0], edge[2]), d0, edge[1])
         prev = (c, u, P, cur)
 
 
-def _appearance(model, absent, present, u_state, states, rel: float = 1e-10):
-    """Halve [absent, present] (each (c, log x_c, P) of the critical point; the other state
-    near ``u_state`` exists at ``present`` only) until it is below ``rel`` of the coupling:
-    ((c, u, P), Delta G, log x1) at the point nearest the state's appearance where it
-    exists, or None when the critical point is lost."""
-    a, b, ub, db = absent, present, u_state, None
+def _appearance(model, absent, present, u_state, d_state, states, rel: float = 1e-10):
+    """Halve [absent, present] (each (c, log x_c, P) of the critical point; the other state,
+    at log x = ``u_state`` with Delta G = ``d_state``, exists at ``present`` only) until it
+    is below ``rel`` of the coupling: ((c, u, P), Delta G, log x1) at the point nearest the
+    state's appearance where it exists, or None when the critical point is lost."""
+    a, b, ub, db = absent, present, u_state, d_state
     for _ in range(60):
         if abs(b[0] - a[0]) <= rel * max(1.0, abs(b[0])):
             break
@@ -1064,11 +1064,6 @@ def _appearance(model, absent, present, u_state, states, rel: float = 1e-10):
             b, (ub, db) = m, near[0]
         else:
             a = m
-    if db is None:
-        near = [(u1, d1) for u1, d1 in states(*b) if abs(u1 - ub) < 0.3]
-        if not near:
-            return None
-        ub, db = near[0]
     return b, db, ub
 
 
